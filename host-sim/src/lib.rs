@@ -1,0 +1,1 @@
+//! humsim: coupled-mains signal simulator (work in progress).
