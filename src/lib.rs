@@ -1,2 +1,21 @@
-//! humsense: mains-hum touch and field detection (work in progress).
+#![doc = include_str!("../README.md")]
 #![no_std]
+#![cfg_attr(not(test), forbid(unsafe_code))]
+
+pub mod baseline;
+pub mod config;
+pub mod decision;
+pub mod demod;
+pub mod detector;
+pub mod error;
+pub mod event;
+pub mod fixed;
+pub mod impulse;
+pub mod mains;
+pub mod nco;
+
+pub use config::{Config, MainsMode, Profile};
+pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};
+pub use error::ConfigError;
+pub use event::{Event, EventKind};
+pub use mains::MainsSystem;

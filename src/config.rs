@@ -1,0 +1,333 @@
+//! Detector configuration: plain data with documented defaults per profile,
+//! validated once by [`Detector::new`](crate::Detector::new).
+//!
+//! Thresholds are given in human units (noise units, ratios, ADC codes);
+//! construction converts them to the fixed-point forms the hot path uses,
+//! with IEEE `f32` arithmetic that gives the same bits on every target.
+
+use crate::error::ConfigError;
+
+/// Which mains system to demodulate.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum MainsMode {
+    /// Start between the two systems (55 Hz) and pull in to 50 or 60 Hz from
+    /// the first strong cycles; then track within that system's range.
+    Auto,
+    /// 50 Hz systems: tracked from 46 to 54 Hz.
+    Hz50,
+    /// 60 Hz systems: tracked from 55.2 to 64.8 Hz.
+    Hz60,
+}
+
+/// What the decision stage reports.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Profile {
+    /// Fast binary events for a touch pad: `TouchOn` / `TouchOff`.
+    Touch,
+    /// Slower, more sensitive events for a non-contact field indicator:
+    /// `FieldOn` / `FieldOff` plus graded `Level` changes.
+    Field,
+}
+
+/// Everything the detector needs to know, in the units each field names.
+///
+/// Start from [`Config::touch`] or [`Config::field`] (defaults for a 12-bit
+/// ADC at 2 kHz) and change what differs on your board:
+///
+/// ```
+/// use humsense::{Config, MainsMode};
+/// let cfg = Config::touch().with_sample_rate(1_000).with_adc_bits(10).with_mains(MainsMode::Hz60);
+/// assert_eq!(cfg.sample_rate_hz, 1_000);
+/// ```
+///
+/// Time constants written as `…_shift` are powers of two in mains cycles:
+/// an exponential average with shift `s` has α = 2^-s, a time constant of
+/// about 2^s cycles (2^s / 50 seconds at 50 Hz).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Config {
+    /// ADC sample rate per channel in hertz, 400 to 50 000. Need not be a
+    /// multiple of the mains frequency.
+    pub sample_rate_hz: u32,
+    /// ADC resolution in bits, 8 to 16. Codes are `0..2^bits` for `u16`
+    /// input and `-2^(bits-1)..2^(bits-1)` for `i16` input.
+    pub adc_bits: u8,
+    /// Mains system: automatic 50/60 choice or fixed.
+    pub mains: MainsMode,
+    /// Touch or field events.
+    pub profile: Profile,
+    /// Longest spike, in samples, that impulse rejection removes (0 turns
+    /// rejection off, at most 8). Longer disturbances pass through.
+    pub spike_max_len: u8,
+    /// Smallest sample-to-sample step, in ADC codes, that can count as a
+    /// spike, whatever the signal (0 to 65 535).
+    pub spike_floor_codes: u16,
+    /// Smallest per-cycle amplitude, in ADC codes, from which the mains
+    /// tracker learns the frequency (0 to 10 000).
+    pub track_min_codes: f32,
+    /// Coherent averaging over about 2^shift mains cycles (0 to 4; 0 is
+    /// none): a complex exponential average of the per-cycle I/Q, gaining
+    /// 10·log10(2^(shift+1) − 1) dB in white noise.
+    pub avg_shift: u8,
+    /// Mains cycles of fast baseline learning after start-up (1 to 65 535).
+    pub startup_cycles: u16,
+    /// Baseline time constant while the amplitude is above it (1 to 16).
+    pub baseline_rise_shift: u8,
+    /// Baseline time constant while the amplitude is below it (1 to 16, not
+    /// above `baseline_rise_shift`): the baseline falls faster than it rises.
+    pub baseline_fall_shift: u8,
+    /// Noise estimate time constant (1 to 16). The noise estimate is the
+    /// exponential mean absolute deviation of the amplitude from the baseline.
+    pub noise_shift: u8,
+    /// On threshold in noise units above the baseline (0.5 to 1000).
+    pub on_noise: f32,
+    /// Off threshold in noise units above the baseline (0 to 1000, below
+    /// `on_noise`).
+    pub off_noise: f32,
+    /// On threshold as a ratio of amplitude to baseline (1.01 to 1000).
+    pub on_ratio: f32,
+    /// Off threshold as a ratio of amplitude to baseline (1.0 to 1000, below
+    /// `on_ratio`).
+    pub off_ratio: f32,
+    /// Least rise, in ADC codes of amplitude, that can count as "on",
+    /// whatever the noise and baseline (0 to 10 000). The off threshold uses
+    /// half of it.
+    pub floor_codes: f32,
+    /// Consecutive cycles above the on threshold before an on event (1 to 255).
+    pub debounce_on: u8,
+    /// Consecutive cycles below the off threshold before an off event
+    /// (1 to 255).
+    pub debounce_off: u8,
+    /// Shortest active time in cycles: no off event before it (0 to 65 535).
+    pub min_active_cycles: u16,
+    /// Longest active time in cycles before the channel is declared stuck:
+    /// an off event, and the baseline re-learns from the present amplitude
+    /// (0 = never).
+    pub max_active_cycles: u32,
+    /// Number of graded levels in the field profile (1 to 16; the touch
+    /// profile ignores it).
+    pub levels: u8,
+    /// Ratio between successive levels, in dB (0.5 to 20).
+    pub level_step_db: f32,
+    /// Hysteresis below each level boundary before the level drops, in dB
+    /// (0 to 20, below `level_step_db`).
+    pub level_hysteresis_db: f32,
+}
+
+impl Config {
+    /// Defaults for a touch pad on a 12-bit ADC at 2 kHz, automatic mains.
+    ///
+    /// On at 2.8x the baseline (+8.9 dB) or 8 noise units, whichever is
+    /// higher, for two consecutive cycles; off below 1.8x (+5.1 dB) and 4
+    /// noise units for three. A 2x ambient step stays below the on ratio and
+    /// a touch of 4x over ambient (thick overlay) clears it with 3 dB to spare.
+    pub const fn touch() -> Self {
+        Self {
+            sample_rate_hz: 2_000,
+            adc_bits: 12,
+            mains: MainsMode::Auto,
+            profile: Profile::Touch,
+            spike_max_len: 3,
+            spike_floor_codes: 8,
+            track_min_codes: 2.0,
+            avg_shift: 0,
+            startup_cycles: 25,
+            baseline_rise_shift: 7,
+            baseline_fall_shift: 4,
+            noise_shift: 6,
+            on_noise: 8.0,
+            off_noise: 4.0,
+            on_ratio: 2.8,
+            off_ratio: 1.8,
+            floor_codes: 2.0,
+            debounce_on: 2,
+            debounce_off: 3,
+            min_active_cycles: 2,
+            max_active_cycles: 3_000,
+            levels: 1,
+            level_step_db: 3.0,
+            level_hysteresis_db: 1.0,
+        }
+    }
+
+    /// Defaults for a non-contact field indicator on a 12-bit ADC at 2 kHz.
+    ///
+    /// Coherent averaging over about 4 cycles, on at 1.5x the baseline
+    /// (+3.5 dB) or 6 noise units for five cycles, off below 1.25x and 3
+    /// noise units for ten; a baseline that rises with a time constant of
+    /// 2048 cycles (41 s at 50 Hz) so a slow approach is not swallowed;
+    /// 8 levels 3 dB apart with 1 dB of hysteresis.
+    pub const fn field() -> Self {
+        Self {
+            profile: Profile::Field,
+            avg_shift: 2,
+            startup_cycles: 50,
+            baseline_rise_shift: 11,
+            baseline_fall_shift: 5,
+            noise_shift: 7,
+            on_noise: 6.0,
+            off_noise: 3.0,
+            on_ratio: 1.5,
+            off_ratio: 1.25,
+            floor_codes: 1.0,
+            debounce_on: 5,
+            debounce_off: 10,
+            min_active_cycles: 10,
+            max_active_cycles: 30_000,
+            levels: 8,
+            ..Self::touch()
+        }
+    }
+
+    /// The same configuration at another sample rate.
+    pub const fn with_sample_rate(mut self, hz: u32) -> Self {
+        self.sample_rate_hz = hz;
+        self
+    }
+
+    /// The same configuration for another ADC resolution.
+    ///
+    /// The amplitude floors (`spike_floor_codes`, `track_min_codes`,
+    /// `floor_codes`) are rescaled from their values at 12 bits, so a
+    /// profile keeps its meaning in volts at the ADC pin.
+    pub fn with_adc_bits(mut self, bits: u8) -> Self {
+        let scale = if bits >= self.adc_bits {
+            (1u32 << (bits - self.adc_bits).min(16)) as f32
+        } else {
+            1.0 / (1u32 << (self.adc_bits - bits).min(16)) as f32
+        };
+        self.spike_floor_codes = ((self.spike_floor_codes as f32 * scale) as u16).max(1);
+        self.track_min_codes *= scale;
+        self.floor_codes *= scale;
+        self.adc_bits = bits;
+        self
+    }
+
+    /// The same configuration with another mains mode.
+    pub const fn with_mains(mut self, mains: MainsMode) -> Self {
+        self.mains = mains;
+        self
+    }
+
+    /// Lowest and highest mains frequency the tracker may settle on, in
+    /// millihertz, for this mode (before the automatic choice: both systems).
+    pub const fn tracking_range_mhz(&self) -> (u32, u32) {
+        match self.mains {
+            MainsMode::Auto => (44_000, 66_000),
+            MainsMode::Hz50 => RANGE_50,
+            MainsMode::Hz60 => RANGE_60,
+        }
+    }
+
+    /// Checks every field; `harmonics` is the number of extra harmonic bins
+    /// the detector was built with.
+    pub(crate) fn validate(&self, harmonics: usize) -> Result<(), ConfigError> {
+        range_u("sample_rate_hz", self.sample_rate_hz, 400, 50_000)?;
+        range_u("adc_bits", self.adc_bits.into(), 8, 16)?;
+        range_u("spike_max_len", self.spike_max_len.into(), 0, 8)?;
+        range_f("track_min_codes", self.track_min_codes, 0.0, 10_000.0)?;
+        range_u("avg_shift", self.avg_shift.into(), 0, 4)?;
+        range_u("startup_cycles", self.startup_cycles.into(), 1, 65_535)?;
+        range_u(
+            "baseline_rise_shift",
+            self.baseline_rise_shift.into(),
+            1,
+            16,
+        )?;
+        range_u(
+            "baseline_fall_shift",
+            self.baseline_fall_shift.into(),
+            1,
+            16,
+        )?;
+        if self.baseline_fall_shift > self.baseline_rise_shift {
+            // "Fall faster than rise" means a smaller or equal shift.
+            return Err(ConfigError::OutOfRange {
+                field: "baseline_fall_shift",
+                value: self.baseline_fall_shift as f32,
+                min: 1.0,
+                max: self.baseline_rise_shift as f32,
+            });
+        }
+        range_u("noise_shift", self.noise_shift.into(), 1, 16)?;
+        range_f("on_noise", self.on_noise, 0.5, 1000.0)?;
+        range_f("off_noise", self.off_noise, 0.0, 1000.0)?;
+        below("off_noise", self.off_noise, "on_noise", self.on_noise)?;
+        range_f("on_ratio", self.on_ratio, 1.01, 1000.0)?;
+        range_f("off_ratio", self.off_ratio, 1.0, 1000.0)?;
+        below("off_ratio", self.off_ratio, "on_ratio", self.on_ratio)?;
+        range_f("floor_codes", self.floor_codes, 0.0, 10_000.0)?;
+        range_u("debounce_on", self.debounce_on.into(), 1, 255)?;
+        range_u("debounce_off", self.debounce_off.into(), 1, 255)?;
+        range_u("levels", self.levels.into(), 1, 16)?;
+        range_f("level_step_db", self.level_step_db, 0.5, 20.0)?;
+        range_f("level_hysteresis_db", self.level_hysteresis_db, 0.0, 20.0)?;
+        below(
+            "level_hysteresis_db",
+            self.level_hysteresis_db,
+            "level_step_db",
+            self.level_step_db,
+        )?;
+        // Every demodulated bin must lie below Nyquist at the top of the
+        // tracking range, with 10 % to spare.
+        let top_hz = self.tracking_range_mhz().1 as f32 / 1000.0;
+        let highest = top_hz * (harmonics as f32 + 1.0);
+        let per_cycle = self.sample_rate_hz as f32 / top_hz;
+        if (self.sample_rate_hz as f32) < 2.2 * highest {
+            return Err(ConfigError::TooFewSamplesPerCycle {
+                samples_per_cycle: per_cycle,
+            });
+        }
+        Ok(())
+    }
+}
+
+impl Default for Config {
+    /// The touch profile, [`Config::touch`].
+    fn default() -> Self {
+        Self::touch()
+    }
+}
+
+/// Tracking range of 50 Hz systems in millihertz (EN 50160 allows
+/// 47–52 Hz; a margin either side keeps lock at the edges).
+pub(crate) const RANGE_50: (u32, u32) = (46_000, 54_000);
+/// Tracking range of 60 Hz systems in millihertz (the same +4 %/−6 %
+/// applied to 60 Hz is 56.4–62.4 Hz; margin either side).
+pub(crate) const RANGE_60: (u32, u32) = (55_200, 64_800);
+
+fn range_u(field: &'static str, v: u32, min: u32, max: u32) -> Result<(), ConfigError> {
+    if v < min || v > max {
+        return Err(ConfigError::OutOfRange {
+            field,
+            value: v as f32,
+            min: min as f32,
+            max: max as f32,
+        });
+    }
+    Ok(())
+}
+
+fn range_f(field: &'static str, v: f32, min: f32, max: f32) -> Result<(), ConfigError> {
+    if !v.is_finite() {
+        return Err(ConfigError::NotFinite { field });
+    }
+    if v < min || v > max {
+        return Err(ConfigError::OutOfRange {
+            field,
+            value: v,
+            min,
+            max,
+        });
+    }
+    Ok(())
+}
+
+fn below(field: &'static str, v: f32, other: &'static str, o: f32) -> Result<(), ConfigError> {
+    if v >= o {
+        return Err(ConfigError::NotBelow { field, other });
+    }
+    Ok(())
+}

@@ -1,0 +1,302 @@
+//! Hysteretic decision logic, once per mains cycle: thresholds from the
+//! baseline and noise, debounce, minimum and maximum durations, and the
+//! field profile's graded levels.
+//!
+//! With baseline `b`, noise `σ̂` and amplitude `a` (Q8 codes):
+//!
+//! `on  = b + max(k_on·σ̂,  (r_on − 1)·b,  floor)`
+//! `off = b + max(k_off·σ̂, (r_off − 1)·b, floor / 2)`
+//!
+//! Idle → active after `debounce_on` consecutive cycles with `a > on`;
+//! active → idle after `debounce_off` consecutive cycles with `a < off`,
+//! but not before `min_active_cycles`; and unconditionally after
+//! `max_active_cycles` (stuck: the baseline re-learns from `a`).
+//! In the field profile, while active, the level rises by one when
+//! `a/b ≥ r_on·s^L` and falls by one when `a/b < r_on·s^(L−2)·h`
+//! (`s` the level step, `h` the hysteresis factor, `L` the present level).
+
+use crate::config::{Config, Profile};
+use crate::event::EventKind;
+use crate::fixed::{f32_to_fixed, mul_q4, mul_q8};
+
+/// Most levels a field profile can have.
+pub const MAX_LEVELS: usize = 16;
+
+/// The decision stage's constants, in fixed point (from [`Config`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct DecisionTuning {
+    profile: Profile,
+    on_noise_q4: u32,
+    off_noise_q4: u32,
+    /// r − 1 in Q8.
+    on_excess_q8: u32,
+    off_excess_q8: u32,
+    floor_q8: u32,
+    debounce_on: u8,
+    debounce_off: u8,
+    min_active: u16,
+    max_active: u32,
+    levels: u8,
+    /// Level hysteresis factor h in Q8 (below 256).
+    hyst_q8: u32,
+    /// Ratio a/b (Q8) at which level k + 1 begins: `r_on·s^k`.
+    level_q8: [u32; MAX_LEVELS],
+}
+
+impl DecisionTuning {
+    /// Converts a validated config.
+    pub fn new(cfg: &Config) -> Self {
+        use micromath::F32Ext;
+        let mut level_q8 = [u32::MAX; MAX_LEVELS];
+        let step = 10f32.powf(cfg.level_step_db / 20.0);
+        let mut r = cfg.on_ratio;
+        for slot in level_q8.iter_mut().take(usize::from(cfg.levels)) {
+            *slot = f32_to_fixed(r, 8);
+            r *= step;
+        }
+        Self {
+            profile: cfg.profile,
+            on_noise_q4: f32_to_fixed(cfg.on_noise, 4),
+            off_noise_q4: f32_to_fixed(cfg.off_noise, 4),
+            on_excess_q8: f32_to_fixed(cfg.on_ratio - 1.0, 8),
+            off_excess_q8: f32_to_fixed(cfg.off_ratio - 1.0, 8),
+            floor_q8: f32_to_fixed(cfg.floor_codes, 8),
+            debounce_on: cfg.debounce_on,
+            debounce_off: cfg.debounce_off,
+            min_active: cfg.min_active_cycles,
+            max_active: cfg.max_active_cycles,
+            levels: cfg.levels,
+            hyst_q8: f32_to_fixed(10f32.powf(-cfg.level_hysteresis_db / 20.0), 8),
+            level_q8,
+        }
+    }
+
+    /// On and off thresholds (Q8 codes) for baseline `b` and noise `n`.
+    pub fn thresholds(&self, b: u32, n: u32) -> (u32, u32) {
+        let on = mul_q4(n, self.on_noise_q4)
+            .max(mul_q8(b, self.on_excess_q8))
+            .max(self.floor_q8);
+        let off = mul_q4(n, self.off_noise_q4)
+            .max(mul_q8(b, self.off_excess_q8))
+            .max(self.floor_q8 / 2);
+        (b.saturating_add(on), b.saturating_add(off))
+    }
+
+    fn level_at(&self, index: u8) -> u32 {
+        match self.level_q8.get(usize::from(index)) {
+            Some(v) => *v,
+            None => u32::MAX,
+        }
+    }
+}
+
+/// What one cycle's decision asks of the caller.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Verdict {
+    /// Learn the baseline from this cycle.
+    Learn,
+    /// Do not learn (active, or above the on threshold).
+    Freeze,
+    /// Stuck-active timeout: restart the baseline from this cycle.
+    Relearn,
+}
+
+/// Per-channel decision state (8 bytes of data).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct DecisionState {
+    active_cycles: u32,
+    count: u8,
+    level: u8,
+    active: bool,
+}
+
+impl DecisionState {
+    /// Idle.
+    pub const fn new() -> Self {
+        Self {
+            active_cycles: 0,
+            count: 0,
+            level: 0,
+            active: false,
+        }
+    }
+
+    /// Whether the channel is active (touched, or field present).
+    pub const fn active(&self) -> bool {
+        self.active
+    }
+
+    /// Present level (0 when idle; 1 to `levels` when active in the field
+    /// profile; 1 when active in the touch profile).
+    pub const fn level(&self) -> u8 {
+        self.level
+    }
+
+    /// Decides one cycle with amplitude `a`, baseline `b` and noise `n`
+    /// (Q8 codes). Returns the event, if any, and what to do with the
+    /// baseline. Per cycle.
+    pub fn step(
+        &mut self,
+        a: u32,
+        b: u32,
+        n: u32,
+        t: &DecisionTuning,
+    ) -> (Option<EventKind>, Verdict) {
+        let (on, off) = t.thresholds(b, n);
+        let touch = t.profile == Profile::Touch;
+        if !self.active {
+            if a > on {
+                self.count = self.count.saturating_add(1);
+                if self.count >= t.debounce_on {
+                    self.active = true;
+                    self.count = 0;
+                    self.active_cycles = 0;
+                    self.level = 1;
+                    let k = if touch {
+                        EventKind::TouchOn
+                    } else {
+                        EventKind::FieldOn
+                    };
+                    return (Some(k), Verdict::Freeze);
+                }
+                return (None, Verdict::Freeze);
+            }
+            self.count = 0;
+            return (None, Verdict::Learn);
+        }
+        self.active_cycles = self.active_cycles.saturating_add(1);
+        let off_kind = if touch {
+            EventKind::TouchOff
+        } else {
+            EventKind::FieldOff
+        };
+        if t.max_active != 0 && self.active_cycles >= t.max_active {
+            self.release();
+            return (Some(off_kind), Verdict::Relearn);
+        }
+        if a < off {
+            self.count = self.count.saturating_add(1);
+            if self.count >= t.debounce_off && self.active_cycles >= u32::from(t.min_active) {
+                self.release();
+                return (Some(off_kind), Verdict::Freeze);
+            }
+            return (None, Verdict::Freeze);
+        }
+        self.count = 0;
+        if touch {
+            return (None, Verdict::Freeze);
+        }
+        (
+            self.update_level(a, b, t).map(EventKind::Level),
+            Verdict::Freeze,
+        )
+    }
+
+    fn release(&mut self) {
+        self.active = false;
+        self.count = 0;
+        self.level = 0;
+        self.active_cycles = 0;
+    }
+
+    fn update_level(&mut self, a: u32, b: u32, t: &DecisionTuning) -> Option<u8> {
+        let ratio = if b == 0 {
+            u32::MAX
+        } else {
+            let r = (u64::from(a) << 8) / u64::from(b);
+            if r > u64::from(u32::MAX) {
+                u32::MAX
+            } else {
+                r as u32
+            }
+        };
+        let l = self.level;
+        if l < t.levels && ratio >= t.level_at(l) {
+            self.level = l + 1;
+            return Some(self.level);
+        }
+        if l >= 2 && ratio < mul_q8(t.level_at(l - 1), t.hyst_q8) {
+            self.level = l - 1;
+            return Some(self.level);
+        }
+        None
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn tuning(cfg: Config) -> DecisionTuning {
+        DecisionTuning::new(&cfg)
+    }
+
+    #[test]
+    fn thresholds_take_the_largest_term() {
+        let t = tuning(Config::touch());
+        // Clean baseline of 10 codes, tiny noise: the ratio term rules.
+        let (on, off) = t.thresholds(10 * 256, 16);
+        assert_eq!(on, 10 * 256 + mul_q8(10 * 256, f32_to_fixed(1.8, 8)));
+        assert_eq!(off, 10 * 256 + mul_q8(10 * 256, f32_to_fixed(0.8, 8)));
+        // Large noise: 8 noise units rule.
+        let (on, _) = t.thresholds(10 * 256, 10 * 256);
+        assert_eq!(on, 10 * 256 + 80 * 256);
+        // Zero baseline and noise: the absolute floor rules.
+        assert_eq!(t.thresholds(0, 0), (512, 256));
+    }
+
+    #[test]
+    fn debounce_and_hysteresis() {
+        let t = tuning(Config::touch());
+        let mut d = DecisionState::new();
+        let b = 10 * 256;
+        assert_eq!(d.step(40 * 256, b, 0, &t), (None, Verdict::Freeze));
+        assert_eq!(d.step(40 * 256, b, 0, &t).0, Some(EventKind::TouchOn));
+        // Between off (18 codes) and on (28 codes): stays on.
+        for _ in 0..10 {
+            assert_eq!(d.step(20 * 256, b, 0, &t).0, None);
+        }
+        assert_eq!(d.step(12 * 256, b, 0, &t).0, None);
+        assert_eq!(d.step(12 * 256, b, 0, &t).0, None);
+        assert_eq!(d.step(12 * 256, b, 0, &t).0, Some(EventKind::TouchOff));
+        assert!(!d.active());
+    }
+
+    #[test]
+    fn stuck_channel_relearns() {
+        let mut cfg = Config::touch();
+        cfg.max_active_cycles = 5;
+        let t = tuning(cfg);
+        let mut d = DecisionState::new();
+        let mut seen = None;
+        for k in 0..10 {
+            let (e, v) = d.step(100 * 256, 10 * 256, 0, &t);
+            if v == Verdict::Relearn {
+                seen = Some((k, e));
+                break;
+            }
+        }
+        assert_eq!(seen, Some((6, Some(EventKind::TouchOff))));
+    }
+
+    #[test]
+    fn field_levels_step_with_hysteresis() {
+        let t = tuning(Config::field());
+        let mut d = DecisionState::new();
+        let b = 100 * 256;
+        for _ in 0..5 {
+            d.step(160 * 256, b, 0, &t);
+        }
+        assert!(d.active());
+        assert_eq!(d.level(), 1);
+        // 3 dB above the on ratio (1.5 · 1.413 = 2.12): level 2.
+        assert_eq!(d.step(215 * 256, b, 0, &t).0, Some(EventKind::Level(2)));
+        // Just below the level-2 boundary but within 1 dB: stays.
+        assert_eq!(d.step(200 * 256, b, 0, &t).0, None);
+        // More than 1 dB below it: back to level 1.
+        assert_eq!(d.step(185 * 256, b, 0, &t).0, Some(EventKind::Level(1)));
+    }
+}

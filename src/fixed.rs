@@ -1,0 +1,260 @@
+//! Fixed-point formats and integer helpers shared by every stage.
+//!
+//! Formats used across the crate (the name says the format):
+//! - **Q15** sine values: `i16`, 32767 = +1.0.
+//! - **Q8 amplitudes** (`…_q8`): `u32` or `i32`, 256 = one ADC code of
+//!   amplitude (peak, not RMS).
+//! - **Q12 state** (`…_q12`): `u32`, 4096 = one ADC code; used where an
+//!   exponential average needs fraction bits below Q8.
+//! - **Phase** (`u32`): 2^32 = one turn; it wraps, and wrapping is the point.
+//!
+//! Every helper here is total: it returns a value for every input and never
+//! panics.
+
+/// One turn of phase in the `u32` phase format, as `u64` (2^32).
+pub const TURN: u64 = 1 << 32;
+
+/// Phase step per sample, in `u32` turns (2^32 = one turn), for a tone of
+/// `freq_mhz` millihertz sampled at `rate_hz` hertz.
+///
+/// `step = round(freq · 2^32 / rate)`. Usable in `const` context, so the
+/// 50 Hz and 60 Hz steps for a fixed rate are compile-time constants.
+/// Returns 0 when `rate_hz` is 0 and saturates at `u32::MAX` when the tone is
+/// at or above the sample rate (neither happens with a validated config).
+///
+/// ```
+/// use humsense::fixed::phase_step;
+/// // 50 Hz at 2 kHz: exactly 40 samples per cycle, 2^32 / 40.
+/// const STEP: u32 = phase_step(50_000, 2_000);
+/// assert_eq!(STEP, 107_374_182);
+/// ```
+pub const fn phase_step(freq_mhz: u32, rate_hz: u32) -> u32 {
+    if rate_hz == 0 {
+        return 0;
+    }
+    let den = rate_hz as u64 * 1000;
+    let num = ((freq_mhz as u64) << 32) + den / 2;
+    let step = num / den;
+    if step > u32::MAX as u64 {
+        u32::MAX
+    } else {
+        step as u32
+    }
+}
+
+/// Frequency in hertz that a phase step represents at `rate_hz`
+/// (`step · rate / 2^32`). Per-cycle or diagnostic use only (floating point).
+pub fn step_to_hz(step: u32, rate_hz: u32) -> f32 {
+    // f64 is avoided to keep the Cortex-M0 soft-float cost small; f32 holds
+    // 24 bits, enough for 0.001 Hz resolution at mains frequencies.
+    (step as f32) * (rate_hz as f32) / (TURN as f32)
+}
+
+/// Floor of the square root of a `u32`, exact (bit-by-bit method, 16 steps).
+pub const fn isqrt_u32(v: u32) -> u32 {
+    let mut rem = v;
+    let mut res: u32 = 0;
+    let mut bit: u32 = 1 << 30;
+    while bit > rem {
+        bit >>= 2;
+    }
+    while bit != 0 {
+        if rem >= res + bit {
+            rem -= res + bit;
+            res = (res >> 1) + bit;
+        } else {
+            res >>= 1;
+        }
+        bit >>= 2;
+    }
+    res
+}
+
+/// Square root of a `u64`, as `u32`.
+///
+/// Exact (floor) below 2^32; above, the argument is shifted right by an even
+/// number of bits until it fits 32 bits, so the result keeps at least 16
+/// significant bits (relative error below 2^-15) and is rounded down.
+pub const fn isqrt_u64(v: u64) -> u32 {
+    if v <= u32::MAX as u64 {
+        return isqrt_u32(v as u32);
+    }
+    // Bits above 32, rounded up to an even count.
+    let high = 64 - v.leading_zeros();
+    let shift = (high - 32 + 1) & !1;
+    isqrt_u32((v >> shift) as u32) << (shift / 2)
+}
+
+/// CORDIC arctangent table: atan(2^-i) in `u32` turns, i = 0..16
+/// (computed: round(atan(2^-i) / 2π · 2^32)).
+const ATAN_TURNS: [u32; 16] = [
+    536_870_912,
+    316_933_406,
+    167_458_907,
+    85_004_756,
+    42_667_331,
+    21_354_465,
+    10_679_838,
+    5_340_245,
+    2_670_163,
+    1_335_087,
+    667_544,
+    333_772,
+    166_886,
+    83_443,
+    41_722,
+    20_861,
+];
+
+/// Angle of the vector (x, y) in `u32` turns (2^32 = one turn, 0 along +x,
+/// a quarter turn along +y), by 16 CORDIC vectoring iterations.
+///
+/// Accuracy: about 2^-16 rad (1e-5 turn) for inputs whose magnitude is at
+/// least 2^12; inputs are clamped to ±2^28 first so the CORDIC gain (1.647)
+/// cannot overflow. (0, 0) returns 0.
+pub fn atan2_turns(y: i32, x: i32) -> u32 {
+    const LIM: i32 = 1 << 28;
+    let mut x = x.clamp(-LIM, LIM);
+    let mut y = y.clamp(-LIM, LIM);
+    let mut angle: u32 = 0;
+    if x < 0 {
+        // Rotate by half a turn into the right half plane.
+        x = -x;
+        y = -y;
+        angle = 1 << 31;
+    }
+    for (i, a) in ATAN_TURNS.into_iter().enumerate() {
+        let dx = x >> i;
+        let dy = y >> i;
+        if y > 0 {
+            x += dy;
+            y -= dx;
+            angle = angle.wrapping_add(a);
+        } else {
+            x -= dy;
+            y += dx;
+            angle = angle.wrapping_sub(a);
+        }
+    }
+    angle
+}
+
+/// Bit length of `v` (0 for 0): the number of bits needed to hold it.
+pub const fn bit_len(v: u32) -> u32 {
+    32 - v.leading_zeros()
+}
+
+/// `(a · b) >> 8` for a Q8 factor `b`, saturating at `u32::MAX`.
+pub const fn mul_q8(a: u32, b: u32) -> u32 {
+    let p = (a as u64 * b as u64) >> 8;
+    if p > u32::MAX as u64 {
+        u32::MAX
+    } else {
+        p as u32
+    }
+}
+
+/// `(a · b) >> 4` for a Q4 factor `b`, saturating at `u32::MAX`.
+pub const fn mul_q4(a: u32, b: u32) -> u32 {
+    let p = (a as u64 * b as u64) >> 4;
+    if p > u32::MAX as u64 {
+        u32::MAX
+    } else {
+        p as u32
+    }
+}
+
+/// Converts a non-negative `f32` to fixed point with `frac_bits` fraction
+/// bits, rounding to nearest and saturating at `u32::MAX` (NaN gives 0).
+/// Construction-time use only.
+pub fn f32_to_fixed(v: f32, frac_bits: u32) -> u32 {
+    let scaled = v * ((1u32 << frac_bits) as f32) + 0.5;
+    // `as` saturates for out-of-range floats and maps NaN to 0.
+    scaled as u32
+}
+
+#[cfg(test)]
+mod tests {
+    extern crate std;
+    use super::*;
+
+    #[test]
+    fn phase_step_matches_closed_form() {
+        // 2^32 · f / fs, computed by hand: 50 Hz at 1 kHz is 2^32/20.
+        assert_eq!(phase_step(50_000, 1_000), 214_748_365);
+        assert_eq!(phase_step(60_000, 2_000), 128_849_019);
+        assert_eq!(phase_step(50_000, 0), 0);
+        assert_eq!(phase_step(60_000, 10), u32::MAX);
+        let hz = step_to_hz(phase_step(50_000, 2_000), 2_000);
+        assert!((hz - 50.0).abs() < 1e-4, "{hz}");
+    }
+
+    #[test]
+    fn isqrt_is_exact_floor_for_u32() {
+        for v in [
+            0u32,
+            1,
+            2,
+            3,
+            4,
+            15,
+            16,
+            17,
+            99,
+            100,
+            65_535,
+            65_536,
+            u32::MAX,
+        ] {
+            let r = isqrt_u32(v) as u64;
+            assert!(r * r <= v as u64 && (r + 1) * (r + 1) > v as u64, "{v}");
+        }
+    }
+
+    #[test]
+    fn isqrt_u64_relative_error_is_small() {
+        for v in [
+            1u64 << 40,
+            (1 << 50) + 12_345,
+            u64::MAX,
+            3 << 33,
+            987_654_321_012,
+        ] {
+            let exact = (v as f64).sqrt();
+            let got = isqrt_u64(v) as f64;
+            assert!(got <= exact + 1.0, "{v}");
+            assert!(
+                (exact - got) / exact < 1.0 / 32_768.0,
+                "{v}: {got} vs {exact}"
+            );
+        }
+    }
+
+    #[test]
+    fn cordic_matches_std_atan2() {
+        // Reference: the standard library's f64 atan2 (host only).
+        let r = 1_000_000.0f64;
+        for k in 0..72 {
+            let a = (k as f64) * 5.0_f64.to_radians() + 0.01;
+            let (x, y) = ((r * a.cos()) as i32, (r * a.sin()) as i32);
+            let got = atan2_turns(y, x) as f64 / TURN as f64;
+            let want = (y as f64)
+                .atan2(x as f64)
+                .rem_euclid(core::f64::consts::TAU)
+                / core::f64::consts::TAU;
+            let mut d = got - want;
+            d -= d.round();
+            assert!(d.abs() < 2e-5, "angle {a}: {got} vs {want}");
+        }
+    }
+
+    #[test]
+    fn fixed_conversions_saturate() {
+        assert_eq!(f32_to_fixed(1.5, 8), 384);
+        assert_eq!(f32_to_fixed(f32::NAN, 8), 0);
+        assert_eq!(f32_to_fixed(1e30, 8), u32::MAX);
+        assert_eq!(mul_q8(u32::MAX, 1024), u32::MAX);
+        assert_eq!(mul_q4(100, 16), 100);
+        assert_eq!(bit_len(40), 6);
+    }
+}

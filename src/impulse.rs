@@ -1,0 +1,130 @@
+//! Impulse rejection: a slew gate in front of the demodulator.
+//!
+//! A sample whose step from the last accepted sample exceeds the gate limit
+//! is replaced by the last accepted sample (held), for at most
+//! `spike_max_len` samples in a row; the next sample is accepted whatever
+//! it is, so a real change of level is delayed by at most that many samples.
+//!
+//! The limit is set once per mains cycle from the largest accepted step of
+//! the cycle before:
+//!
+//! `limit = (spike_max_len + 1) · max_step + floor`
+//!
+//! The factor `spike_max_len + 1` lets the true signal move for that many
+//! held samples and still be accepted when the hold ends. A sinusoid of
+//! amplitude A with n samples per cycle steps at most 2πA/n per sample, so a
+//! full-scale spike on ambient hum is held, while a touch that raises the hum
+//! tenfold opens the gate within one cycle (the accepted steps of that cycle
+//! set the next limit).
+
+/// Per-channel state of the impulse gate (12 bytes).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ImpulseState {
+    /// Last accepted sample, ADC codes.
+    last: i32,
+    /// Present gate limit in codes; `u32::MAX` accepts everything (start-up).
+    limit: u32,
+    /// Largest accepted step in the present cycle, codes, saturated at 2^16.
+    max_step: u16,
+    /// Samples held in a row.
+    run: u8,
+    /// Whether `last` holds a sample yet.
+    primed: bool,
+}
+
+impl ImpulseState {
+    /// A gate that accepts everything until its first cycle ends.
+    pub const fn new() -> Self {
+        Self {
+            last: 0,
+            limit: u32::MAX,
+            max_step: 0,
+            run: 0,
+            primed: false,
+        }
+    }
+
+    /// Passes one sample through the gate and returns the sample to
+    /// demodulate (the input, or the held sample). Never panics.
+    #[inline(always)]
+    pub fn filter(&mut self, x: i32, max_len: u8) -> i32 {
+        let step = x.abs_diff(self.last);
+        if step > self.limit && self.run < max_len && self.primed {
+            self.run += 1;
+            return self.last;
+        }
+        self.run = 0;
+        self.last = x;
+        if !self.primed {
+            // The first sample has no step to measure.
+            self.primed = true;
+            return x;
+        }
+        let s = if step > 0xffff { 0xffff } else { step as u16 };
+        if s > self.max_step {
+            self.max_step = s;
+        }
+        x
+    }
+
+    /// Ends a mains cycle: sets the limit for the next cycle from this one's
+    /// largest accepted step. Per cycle.
+    pub fn end_cycle(&mut self, max_len: u8, floor: u16) {
+        let factor = u32::from(max_len) + 1;
+        self.limit = u32::from(self.max_step) * factor + u32::from(floor);
+        self.max_step = 0;
+    }
+
+    /// The present gate limit in codes (`u32::MAX` before the first cycle).
+    pub const fn limit(&self) -> u32 {
+        self.limit
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn run_cycle(g: &mut ImpulseState, xs: &[i32], out: &mut [i32]) {
+        for (x, o) in xs.iter().zip(out.iter_mut()) {
+            *o = g.filter(*x, 3);
+        }
+        g.end_cycle(3, 4);
+    }
+
+    #[test]
+    fn holds_short_spikes_and_passes_long_steps() {
+        let mut g = ImpulseState::new();
+        let flat = [100i32; 20];
+        let mut out = [0i32; 20];
+        run_cycle(&mut g, &flat, &mut out);
+        assert_eq!(g.limit(), 4);
+        // A three-sample full-scale spike is held at 100.
+        let mut spike = [100i32; 20];
+        spike[5] = 4095;
+        spike[6] = 4095;
+        spike[7] = 0;
+        run_cycle(&mut g, &spike, &mut out);
+        assert!(out.iter().all(|v| *v == 100), "{out:?}");
+        // A four-sample disturbance is longer than the gate allows: the
+        // fourth sample passes, and the return step is then held in turn.
+        let mut long = [100i32; 20];
+        long[2..6].copy_from_slice(&[3000, 3000, 3000, 3000]);
+        run_cycle(&mut g, &long, &mut out);
+        assert_eq!(
+            &out[1..11],
+            &[100, 100, 100, 100, 3000, 3000, 3000, 3000, 100, 100]
+        );
+    }
+
+    #[test]
+    fn extremes_do_not_overflow() {
+        let mut g = ImpulseState::new();
+        for x in [i32::MIN, i32::MAX, 0, i32::MIN] {
+            let _ = g.filter(x, 8);
+        }
+        g.end_cycle(8, u16::MAX);
+        assert_eq!(g.limit(), 0xffff * 9 + 0xffff);
+    }
+}
