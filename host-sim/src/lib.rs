@@ -1,1 +1,33 @@
-//! humsim: coupled-mains signal simulator (work in progress).
+//! humsim: a physics-based simulator of the mains hum that a capacitive
+//! touch pad or field probe hands to an MCU's ADC.
+//!
+//! One module per physical stage, each with documented units:
+//! [`mains`] (supply) → [`coupling`] and [`body`] (capacitances, the sense
+//! node's high-pass divider) → [`frontend`] (amplifier, follower chain,
+//! comparator) → [`adc`] (quantised codes), plus [`interference`] (ESD,
+//! lamps, drift). [`scenario`] reads TOML scenarios, validates them and
+//! yields ground-truth labels; [`render`] streams codes in blocks;
+//! [`builtin`] holds the named scenarios.
+//!
+//! ```
+//! use humsim::scenario::{Scenario, RenderOptions};
+//! let s = Scenario::builtin("kitchen-panel")?;
+//! let mut r = s.render(&RenderOptions { seconds: Some(0.1), seed: Some(1) })?;
+//! let mut block = vec![0u16; 64 * r.channels()];
+//! while r.fill(&mut block) > 0 {}
+//! # Ok::<(), humsim::scenario::ScenarioError>(())
+//! ```
+//!
+//! Every run is deterministic given `(scenario, seed, seconds)`.
+
+pub mod adc;
+pub mod body;
+pub mod builtin;
+pub mod coupling;
+pub mod frontend;
+pub mod interference;
+pub mod mains;
+pub mod output;
+pub mod render;
+pub mod rng;
+pub mod scenario;

@@ -1,0 +1,54 @@
+//! Built-in scenarios, compiled in from `host-sim/scenarios/*.toml`.
+//!
+//! Each is a scenario file like any user's; `humsim scenarios` lists them
+//! with their descriptions, and `humsim simulate NAME` renders one.
+
+/// `(name, TOML source)` of every built-in scenario.
+pub const BUILTINS: &[(&str, &str)] = &[
+    (
+        "kitchen-panel",
+        include_str!("../scenarios/kitchen-panel.toml"),
+    ),
+    ("wall-scan", include_str!("../scenarios/wall-scan.toml")),
+    (
+        "workshop-60hz",
+        include_str!("../scenarios/workshop-60hz.toml"),
+    ),
+    (
+        "clipping-amp",
+        include_str!("../scenarios/clipping-amp.toml"),
+    ),
+    (
+        "battery-float",
+        include_str!("../scenarios/battery-float.toml"),
+    ),
+    (
+        "thick-overlay",
+        include_str!("../scenarios/thick-overlay.toml"),
+    ),
+    ("esd-bench", include_str!("../scenarios/esd-bench.toml")),
+    ("odd-rate", include_str!("../scenarios/odd-rate.toml")),
+    ("drift-50hz", include_str!("../scenarios/drift-50hz.toml")),
+    (
+        "comparator-pad",
+        include_str!("../scenarios/comparator-pad.toml"),
+    ),
+    (
+        "follower-chain",
+        include_str!("../scenarios/follower-chain.toml"),
+    ),
+    (
+        "mains-events",
+        include_str!("../scenarios/mains-events.toml"),
+    ),
+];
+
+/// The TOML source of a built-in, if `name` is one.
+pub fn source(name: &str) -> Option<&'static str> {
+    BUILTINS.iter().find(|(n, _)| *n == name).map(|(_, s)| *s)
+}
+
+/// Names of all built-ins, in listing order.
+pub fn names() -> Vec<&'static str> {
+    BUILTINS.iter().map(|(n, _)| *n).collect()
+}

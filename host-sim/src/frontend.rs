@@ -1,0 +1,243 @@
+//! Analogue front ends between the sense node and the MCU pin.
+//!
+//! Each takes the sense-node voltage (volts, relative to circuit ground) and
+//! returns the voltage at the MCU pin. Models are static (no bandwidth
+//! limits) except the comparator's hysteresis state and optional RC filter.
+
+/// (a) Single-supply non-inverting amplifier.
+///
+/// `v_out = clamp(bias + (1 + Rf/Rg) · v_in, swing_low, swing_high)`: the
+/// input is biased at `bias_v` and the gain network is AC-coupled to the bias,
+/// so the bias appears at the output with unity gain (common practice). With
+/// `bias_v = 0` and the negative rail at 0 V the output is the half-wave
+/// shape of a strong input.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Amplifier {
+    /// Feedback resistor, ohms (0 makes a follower).
+    pub rf_ohm: f64,
+    /// Gain resistor to the bias, ohms (> 0).
+    pub rg_ohm: f64,
+    /// Input and output bias, volts (0 = none; mid-rail is `supply / 2`).
+    pub bias_v: f64,
+    /// Lowest output, volts (negative rail 0 V plus output headroom).
+    pub swing_low_v: f64,
+    /// Highest output, volts (supply minus output headroom).
+    pub swing_high_v: f64,
+}
+
+impl Amplifier {
+    /// Voltage gain `1 + Rf/Rg`.
+    pub fn gain(&self) -> f64 {
+        1.0 + self.rf_ohm / self.rg_ohm
+    }
+
+    /// Output for input `v_in`, volts.
+    pub fn output(&self, v_in: f64) -> f64 {
+        (self.bias_v + self.gain() * v_in).clamp(self.swing_low_v, self.swing_high_v)
+    }
+}
+
+/// (b) A chain of bipolar emitter followers (each base driven by the
+/// previous emitter), the last emitter loaded by `load_ohm` to ground.
+///
+/// Piecewise-linear model: each conducting stage drops `vbe_v`, so
+/// `v_out = clamp(v_in − n·V_BE, 0, supply − V_CE(sat))`; emitter current is
+/// `(β + 1)` times base current per stage, so the chain's input draws
+/// `I_E / (β + 1)^n` and loads the sense node with `(β + 1)^n · R_load`
+/// while it conducts (and not at all below the drops).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FollowerChain {
+    /// Number of stages (1..=4).
+    pub stages: u32,
+    /// Current gain β of each transistor.
+    pub beta: f64,
+    /// Base-emitter drop per stage, volts (~0.65 V).
+    pub vbe_v: f64,
+    /// Collector supply, volts.
+    pub supply_v: f64,
+    /// Collector-emitter saturation voltage of the last stage, volts.
+    pub vce_sat_v: f64,
+    /// Emitter load resistor, ohms.
+    pub load_ohm: f64,
+}
+
+impl FollowerChain {
+    /// Overall current gain `(β + 1)^n`.
+    pub fn current_gain(&self) -> f64 {
+        (self.beta + 1.0).powi(self.stages as i32)
+    }
+
+    /// Output (emitter of the last stage) for input `v_in`, volts.
+    pub fn output(&self, v_in: f64) -> f64 {
+        let drop = self.stages as f64 * self.vbe_v;
+        (v_in - drop).clamp(0.0, (self.supply_v - self.vce_sat_v).max(0.0))
+    }
+
+    /// Current drawn by the first base at input `v_in`, amperes.
+    pub fn input_current(&self, v_in: f64) -> f64 {
+        self.output(v_in) / self.load_ohm / self.current_gain()
+    }
+
+    /// Resistance the chain presents to the sense node at `v_in`, ohms
+    /// (infinite while it does not conduct).
+    pub fn load_ohm_at(&self, v_in: f64) -> f64 {
+        if self.output(v_in) > 0.0 {
+            self.current_gain() * self.load_ohm
+        } else {
+            f64::INFINITY
+        }
+    }
+}
+
+/// (c) Comparator against a threshold, with hysteresis, optionally followed
+/// by an RC low-pass (corner `1/(2πRC)`) into the pin.
+///
+/// The output goes high when `v_in > threshold + hysteresis/2` and low when
+/// `v_in < threshold − hysteresis/2`. The RC stage is discretised exactly
+/// for an input held over each step: `y += (1 − exp(−T/RC)) (x − y)`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Comparator {
+    /// Threshold (e.g. set by a divider), volts.
+    pub threshold_v: f64,
+    /// Total hysteresis width, volts.
+    pub hysteresis_v: f64,
+    /// Output high level (supply), volts; low is 0 V.
+    pub supply_v: f64,
+    /// RC low-pass `(R ohms, C farads)` before the pin, if any.
+    pub rc: Option<(f64, f64)>,
+}
+
+impl Comparator {
+    /// Corner of the RC filter, hertz, if fitted.
+    pub fn rc_corner_hz(&self) -> Option<f64> {
+        self.rc.map(|(r, c)| 1.0 / (std::f64::consts::TAU * r * c))
+    }
+}
+
+/// One of the front ends.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum FrontEnd {
+    /// Non-inverting amplifier.
+    Amplifier(Amplifier),
+    /// Emitter-follower chain.
+    Follower(FollowerChain),
+    /// Comparator, optional RC.
+    Comparator(Comparator),
+}
+
+/// Running state of a [`FrontEnd`] (only the comparator has any).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct FrontEndState {
+    high: bool,
+    rc_out: f64,
+    last_in: f64,
+}
+
+impl FrontEnd {
+    /// Pin voltage for node voltage `v_in` after a step of `dt` seconds.
+    pub fn output(&self, s: &mut FrontEndState, v_in: f64, dt: f64) -> f64 {
+        s.last_in = v_in;
+        match self {
+            FrontEnd::Amplifier(a) => a.output(v_in),
+            FrontEnd::Follower(f) => f.output(v_in),
+            FrontEnd::Comparator(c) => {
+                let half = 0.5 * c.hysteresis_v;
+                if s.high && v_in < c.threshold_v - half {
+                    s.high = false;
+                } else if !s.high && v_in > c.threshold_v + half {
+                    s.high = true;
+                }
+                let x = if s.high { c.supply_v } else { 0.0 };
+                match c.rc {
+                    Some((r, cap)) => {
+                        let alpha = 1.0 - (-dt / (r * cap)).exp();
+                        s.rc_out += alpha * (x - s.rc_out);
+                        s.rc_out
+                    }
+                    None => x,
+                }
+            }
+        }
+    }
+
+    /// Extra load on the sense node, ohms, given the last input seen.
+    pub fn load_ohm(&self, s: &FrontEndState) -> f64 {
+        match self {
+            FrontEnd::Follower(f) => f.load_ohm_at(s.last_in),
+            _ => f64::INFINITY,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Non-inverting gain 1 + Rf/Rg: 10 MΩ / 10 kΩ -> 1001 (common practice).
+    #[test]
+    fn non_inverting_gain() {
+        let a = Amplifier {
+            rf_ohm: 10e6,
+            rg_ohm: 10e3,
+            bias_v: 0.0,
+            swing_low_v: 0.0,
+            swing_high_v: 3.3,
+        };
+        assert!((a.gain() - 1001.0).abs() < 1e-9);
+        assert!((a.output(1e-3) - 1.001).abs() < 1e-12);
+        assert_eq!(a.output(-1e-3), 0.0); // clipped at the 0 V rail
+        assert_eq!(a.output(1.0), 3.3); // clipped at the positive rail
+    }
+
+    // Emitter follower (common practice): one V_BE drop per stage,
+    // I_E = (β+1) I_B per stage. Two stages, β = 100, 0.65 V each:
+    // 2 V in -> 0.7 V out; 0.7 V / 10 kΩ = 70 µA / 101² = 6.862 nA base (computed).
+    #[test]
+    fn follower_drops_and_current_gain() {
+        let f = FollowerChain {
+            stages: 2,
+            beta: 100.0,
+            vbe_v: 0.65,
+            supply_v: 5.0,
+            vce_sat_v: 0.2,
+            load_ohm: 10e3,
+        };
+        assert!((f.output(2.0) - 0.7).abs() < 1e-12);
+        assert_eq!(f.output(1.0), 0.0);
+        assert_eq!(f.output(9.0), 4.8);
+        assert!((f.input_current(2.0) - 6.862e-9).abs() < 1e-12);
+        assert!(f.load_ohm_at(1.0).is_infinite());
+        assert!((f.load_ohm_at(2.0) - 101.0 * 101.0 * 10e3).abs() < 1e-3);
+    }
+
+    #[test]
+    fn comparator_hysteresis_and_rc() {
+        let c = Comparator {
+            threshold_v: 0.5,
+            hysteresis_v: 0.2,
+            supply_v: 3.3,
+            rc: None,
+        };
+        let fe = FrontEnd::Comparator(c);
+        let mut s = FrontEndState::default();
+        let outs: Vec<f64> = [0.55, 0.61, 0.45, 0.39, 0.5]
+            .iter()
+            .map(|&v| fe.output(&mut s, v, 1e-3))
+            .collect();
+        assert_eq!(outs, vec![0.0, 3.3, 3.3, 0.0, 0.0]);
+        // RC low-pass f = 1/(2πRC) (standard): 100 kΩ, 1 µF -> 1.5915 Hz.
+        let c2 = Comparator {
+            rc: Some((100e3, 1e-6)),
+            ..c
+        };
+        assert!((c2.rc_corner_hz().unwrap_or(0.0) - 1.591_55).abs() < 1e-4);
+        // Step response after one time constant: 1 − 1/e of the step.
+        let fe2 = FrontEnd::Comparator(c2);
+        let mut s2 = FrontEndState::default();
+        let mut y = 0.0;
+        for _ in 0..100 {
+            y = fe2.output(&mut s2, 1.0, 1e-3);
+        }
+        assert!((y - 3.3 * (1.0 - (-1.0f64).exp())).abs() < 1e-9, "{y}");
+    }
+}

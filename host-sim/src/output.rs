@@ -1,0 +1,139 @@
+//! Writing renders to files: CSV or WAV samples and the labels CSV.
+//!
+//! - Samples CSV: header row of channel names (optionally `time_s` first),
+//!   one row per frame of integer ADC codes; `time_s` = frame index / rate
+//!   with 6 decimals.
+//! - WAV: one channel per scenario channel, 16-bit integer PCM holding the
+//!   ADC codes unchanged, sample rate rounded to whole hertz (WAV headers
+//!   hold an integer rate). Codes above 32767 (a 16-bit ADC) cannot be held
+//!   unchanged in signed 16-bit PCM, so such scenarios are refused for WAV.
+//! - Labels: `channel,kind,start_s,end_s`, kind `touch` or `field`.
+//!
+//! All writers stream block by block; memory does not grow with the run.
+
+use crate::render::Render;
+use crate::scenario::Label;
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+
+/// Frames per block when streaming.
+pub const BLOCK_FRAMES: usize = 4096;
+
+/// `FILE.labels.csv` beside `output`.
+pub fn labels_path(output: &Path) -> PathBuf {
+    let mut s = output.as_os_str().to_owned();
+    s.push(".labels.csv");
+    PathBuf::from(s)
+}
+
+fn push_u64(buf: &mut Vec<u8>, mut v: u64) {
+    let mut tmp = [0u8; 20];
+    let mut i = tmp.len();
+    loop {
+        i -= 1;
+        if let Some(d) = tmp.get_mut(i) {
+            *d = b'0' + (v % 10) as u8;
+        }
+        v /= 10;
+        if v == 0 || i == 0 {
+            break;
+        }
+    }
+    buf.extend_from_slice(tmp.get(i..).unwrap_or(&[]));
+}
+
+/// Streams the whole render as CSV. `progress` gets the frames done so far.
+pub fn write_csv<W: Write>(
+    r: &mut Render,
+    w: &mut W,
+    time_column: bool,
+    mut progress: impl FnMut(u64),
+) -> io::Result<()> {
+    let names = r.scenario().channel_names();
+    let mut header = String::new();
+    if time_column {
+        header.push_str("time_s,");
+    }
+    header.push_str(&names.join(","));
+    header.push('\n');
+    w.write_all(header.as_bytes())?;
+    let nch = r.channels();
+    let rate = r.rate_hz();
+    let mut block = vec![0u16; BLOCK_FRAMES * nch];
+    let mut line = Vec::with_capacity(BLOCK_FRAMES * (nch * 6 + 16));
+    loop {
+        let start = r.frames_done();
+        let n = r.fill(&mut block);
+        if n == 0 {
+            break;
+        }
+        line.clear();
+        for (k, frame) in block.chunks_exact(nch).take(n).enumerate() {
+            if time_column {
+                let t = (start + k as u64) as f64 / rate;
+                write!(line, "{t:.6},")?;
+            }
+            for (c, code) in frame.iter().enumerate() {
+                if c > 0 {
+                    line.push(b',');
+                }
+                push_u64(&mut line, u64::from(*code));
+            }
+            line.push(b'\n');
+        }
+        w.write_all(&line)?;
+        progress(r.frames_done());
+    }
+    Ok(())
+}
+
+/// Streams the whole render to a WAV file at `path`.
+pub fn write_wav(r: &mut Render, path: &Path, mut progress: impl FnMut(u64)) -> Result<(), String> {
+    let name = path.display().to_string();
+    if r.scenario().adc.bits > 15 {
+        return Err(format!(
+            "{name}: a {}-bit ADC's codes exceed 32767 and cannot be stored unchanged in \
+             16-bit WAV; write CSV instead",
+            r.scenario().adc.bits
+        ));
+    }
+    let nch = r.channels();
+    let channels = u16::try_from(nch).map_err(|_| format!("{name}: too many channels for WAV"))?;
+    let spec = hound::WavSpec {
+        channels,
+        sample_rate: r.rate_hz().round() as u32,
+        bits_per_sample: 16,
+        sample_format: hound::SampleFormat::Int,
+    };
+    let err = |e: hound::Error| format!("{name}: cannot write WAV: {e}");
+    let mut w = hound::WavWriter::create(path, spec).map_err(err)?;
+    let mut block = vec![0u16; BLOCK_FRAMES * nch];
+    loop {
+        let n = r.fill(&mut block);
+        if n == 0 {
+            break;
+        }
+        for &code in block.iter().take(n * nch) {
+            w.write_sample(i16::try_from(code).unwrap_or(i16::MAX))
+                .map_err(err)?;
+        }
+        progress(r.frames_done());
+    }
+    w.finalize().map_err(err)
+}
+
+/// Writes labels as CSV (`channel,kind,start_s,end_s`, 6 decimals).
+pub fn write_labels<W: Write>(labels: &[Label], w: &mut W) -> io::Result<()> {
+    writeln!(w, "channel,kind,start_s,end_s")?;
+    for l in labels {
+        writeln!(
+            w,
+            "{},{},{:.6},{:.6}",
+            l.channel,
+            l.kind.as_str(),
+            l.start_s,
+            l.end_s
+        )?;
+    }
+    Ok(())
+}
