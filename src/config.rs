@@ -71,7 +71,8 @@ pub struct Config {
     /// none): a complex exponential average of the per-cycle I/Q, gaining
     /// 10·log10(2^(shift+1) − 1) dB in white noise.
     pub avg_shift: u8,
-    /// Mains cycles of fast baseline learning after start-up (1 to 65 535).
+    /// Mains cycles of fast baseline learning after start-up, during which
+    /// no event is reported (1 to 65 535).
     pub startup_cycles: u16,
     /// Baseline time constant while the amplitude is above it (1 to 16).
     pub baseline_rise_shift: u8,

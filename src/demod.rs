@@ -73,6 +73,11 @@ impl<const H: usize> DemodState<H> {
         }
     }
 
+    /// Mean of the previous cycle in ADC codes (the input's DC level).
+    pub const fn dc(&self) -> i32 {
+        self.dc
+    }
+
     /// Accumulates one sample `x` (ADC codes) at reference phase `phase`.
     #[inline(always)]
     pub fn push(&mut self, x: i32, phase: u32) {
@@ -193,9 +198,9 @@ mod tests {
         assert!((amp - 1000.0).abs() < 0.5, "{amp}");
         // i = A cos φ, q = −A sin φ.
         // i = A cos φ, q = −A sin φ, with the phase within the table's
-        // half-step of π/256 rad.
+        // half-step of π/1024 rad.
         let phi = -(f.q as f64).atan2(f.i as f64);
-        assert!((phi - 0.5).abs() < core::f64::consts::PI / 256.0, "{phi}");
+        assert!((phi - 0.5).abs() < core::f64::consts::PI / 1024.0, "{phi}");
         // A pure fundamental leaves the harmonic bins (nearly) empty.
         assert!(h.iter().all(|b| b.power() < 256 * 256), "{h:?}");
     }

@@ -139,6 +139,12 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     pub const fn samples_seen(&self) -> u64 {
         self.next_sample
     }
+
+    /// Mean input level of channel `ch` over its last cycle, ADC codes, or
+    /// `None` past the last channel.
+    pub fn dc(&self, ch: usize) -> Option<i32> {
+        self.demod.get(ch).map(DemodState::dc)
+    }
 }
 
 /// Per-channel state of the per-cycle half.
@@ -227,6 +233,11 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             }
             let amp = isqrt_u64(power);
             c.amp_q8 = amp;
+            if !c.baseline.settled(&self.baseline_t) {
+                // Start-up: learn only, decide nothing.
+                c.baseline.update(amp, &self.baseline_t);
+                continue;
+            }
             let b = c.baseline.baseline_q8();
             let n = c.baseline.noise_q8();
             let (event, verdict) = c.decision.step(amp, b, n, &self.decision_t);

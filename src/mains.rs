@@ -4,20 +4,30 @@
 //! Per sample the tracker only advances its phase: `θ += step` (wrapping
 //! `u32`, 2^32 = one turn); the wrap marks the end of a mains cycle. Once per
 //! cycle it takes the fundamental's phase on the strongest channel,
-//! `φ_k = atan2(−q, i)` (phase of the signal relative to the reference), and
-//! its change over one reference cycle, `e_k = φ_k − φ_{k−1}` (turns), which
-//! equals `(f_mains − f_ref) / f_ref`. The loop then sets
+//! `φ_k = atan2(−q, i)`, the phase of the signal relative to the reference.
+//! A phase advance of `e` turns per reference cycle means
+//! `f_mains = f_ref · (1 + e)`, and the loop sets
 //!
-//! `step ← step + g · e_k · step`, clamped to the tracking range,
+//! `step ← step + e · step / 2`, clamped to the tracking range.
 //!
-//! with `g = 1/2` while acquiring and `1/8` once locked (frequency error
-//! shrinks by 1 − g per cycle). It learns only from cycles whose amplitude is
-//! at least `track_min_codes`; weaker cycles hold the frequency.
+//! Two stages:
+//! - **pull-in**: `e = φ_k − φ_{k−1}`, every cycle. Fast, but each phase
+//!   carries a bias of up to about 1/n rad when the window of n samples is
+//!   not a whole number of signal cycles, which is the usual case.
+//! - **fine**: `e = (φ_k − φ_{k−8}) / 8`, every 8 cycles. The window bias
+//!   does not grow with the span, so it is divided by 8; the span stays
+//!   unambiguous while |e| < 1/16 turn (3 Hz at 50 Hz).
 //!
-//! Lock: `|e| < 1/256` turn (0.4 % of the frequency) for 6 learning cycles in
-//! a row; lost after 8 in a row with `|e| > 1/64` turn. In [`MainsMode::Auto`]
-//! the reference starts at 55 Hz between the two systems; at first lock the
-//! system is chosen (below 55 Hz: 50 Hz) and the range narrows to it.
+//! Pull-in hands over to fine after 4 cycles in a row with
+//! `|e| < 1/64` turn (1.6 %); fine is **locked** after 2 blocks in a row with
+//! `|e| < 1/512` turn (0.2 %, 0.1 Hz at 50 Hz) and falls back to pull-in
+//! after 2 blocks with `|e| > 1/64` turn. The loop learns only from cycles
+//! whose amplitude is at least `track_min_codes`; weaker cycles hold the
+//! frequency and restart the measurement.
+//!
+//! In [`MainsMode::Auto`] the reference starts at 55 Hz between the two
+//! systems; at the hand-over to fine the system is chosen (below 55 Hz:
+//! 50 Hz) and the range narrows to it.
 
 use crate::config::{Config, MainsMode, RANGE_50, RANGE_60};
 use crate::demod::Iq;
@@ -35,10 +45,13 @@ pub enum MainsSystem {
     Hz60,
 }
 
-const LOCK_E: u32 = 1 << 24; // 1/256 turn
-const UNLOCK_E: u32 = 1 << 26; // 1/64 turn
-const LOCK_CYCLES: u8 = 6;
-const UNLOCK_CYCLES: u8 = 8;
+/// Pull-in settles below this error (1/64 turn per cycle).
+const COARSE_E: u32 = 1 << 26;
+/// Fine lock below this error (1/512 turn per cycle).
+const LOCK_E: u32 = 1 << 23;
+/// Cycles per fine measurement block (a power of two).
+const BLOCK_SHIFT: u32 = 3;
+const NO_REF: u8 = u8::MAX;
 
 /// Shared oscillator and frequency tracker state (one per detector).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -54,10 +67,14 @@ pub struct MainsTracker {
     /// Phase of the previous learning cycle, and on which channel.
     prev_phi: u32,
     prev_ref: u8,
+    /// Phase at the start of the fine block, and cycles into it.
+    block_phi: u32,
+    block_len: u8,
     /// Least per-cycle |i| + |q| (Q8 codes) that the loop learns from.
     min_l1: u32,
     good: u8,
     bad: u8,
+    fine: bool,
     locked: bool,
     system: MainsSystem,
 }
@@ -83,10 +100,13 @@ impl MainsTracker {
             rate_hz: rate,
             count: 0,
             prev_phi: 0,
-            prev_ref: u8::MAX,
+            prev_ref: NO_REF,
+            block_phi: 0,
+            block_len: 0,
             min_l1,
             good: 0,
             bad: 0,
+            fine: false,
             locked: false,
             system,
         }
@@ -127,44 +147,79 @@ impl MainsTracker {
         }
         let Some((ch, z, l1)) = best else { return };
         if l1 < self.min_l1 || l1 == 0 {
-            // Too weak to learn from: hold frequency, forget the phase.
-            self.prev_ref = u8::MAX;
+            // Too weak to learn from: hold frequency, restart measuring.
+            self.prev_ref = NO_REF;
             return;
         }
         let phi = atan2_turns(z.q.saturating_neg(), z.i);
-        let had_prev = self.prev_ref == ch;
-        let e = phi.wrapping_sub(self.prev_phi) as i32;
+        let same_ref = self.prev_ref == ch;
+        let prev = self.prev_phi;
         self.prev_phi = phi;
         self.prev_ref = ch;
-        if !had_prev {
+        if !same_ref {
+            self.block_phi = phi;
+            self.block_len = 0;
             return;
         }
-        // Frequency error times step: e is turns·2^32.
-        let full = (i64::from(e) * i64::from(self.step)) >> 32;
-        let corr = if self.locked { full >> 3 } else { full >> 1 };
-        let step =
-            (i64::from(self.step) + corr).clamp(i64::from(self.min_step), i64::from(self.max_step));
-        self.step = step as u32;
-        self.update_lock(e.unsigned_abs());
+        if self.fine {
+            self.block_len += 1;
+            if u32::from(self.block_len) < (1 << BLOCK_SHIFT) {
+                return;
+            }
+            let e = (phi.wrapping_sub(self.block_phi) as i32) >> BLOCK_SHIFT;
+            self.block_phi = phi;
+            self.block_len = 0;
+            self.correct(e);
+            self.fine_verdict(e.unsigned_abs());
+        } else {
+            let e = phi.wrapping_sub(prev) as i32;
+            self.correct(e);
+            self.coarse_verdict(e.unsigned_abs(), phi);
+        }
     }
 
-    fn update_lock(&mut self, e: u32) {
+    /// `step += e · step / 2`, clamped.
+    fn correct(&mut self, e: i32) {
+        let full = (i64::from(e) * i64::from(self.step)) >> 32;
+        let step = (i64::from(self.step) + (full >> 1))
+            .clamp(i64::from(self.min_step), i64::from(self.max_step));
+        self.step = step as u32;
+    }
+
+    fn coarse_verdict(&mut self, e: u32, phi: u32) {
+        if e >= COARSE_E {
+            self.good = 0;
+            return;
+        }
+        self.good = self.good.saturating_add(1);
+        if self.good >= 4 {
+            self.fine = true;
+            self.good = 0;
+            self.bad = 0;
+            self.block_phi = phi;
+            self.block_len = 0;
+            if self.system == MainsSystem::Unknown {
+                self.choose_system();
+            }
+        }
+    }
+
+    fn fine_verdict(&mut self, e: u32) {
         if e < LOCK_E {
             self.bad = 0;
             self.good = self.good.saturating_add(1);
-            if !self.locked && self.good >= LOCK_CYCLES {
+            if self.good >= 2 {
                 self.locked = true;
-                if self.system == MainsSystem::Unknown {
-                    self.choose_system();
-                }
             }
-        } else {
-            self.good = 0;
-            if e > UNLOCK_E {
-                self.bad = self.bad.saturating_add(1);
-                if self.bad >= UNLOCK_CYCLES {
-                    self.locked = false;
-                }
+            return;
+        }
+        self.good = 0;
+        if e > COARSE_E {
+            self.bad = self.bad.saturating_add(1);
+            if self.bad >= 2 {
+                self.fine = false;
+                self.locked = false;
+                self.bad = 0;
             }
         }
     }
