@@ -47,9 +47,10 @@ pub struct DecisionTuning {
 impl DecisionTuning {
     /// Converts a validated config.
     pub fn new(cfg: &Config) -> Self {
-        use micromath::F32Ext;
         let mut level_q8 = [u32::MAX; MAX_LEVELS];
-        let step = 10f32.powf(cfg.level_step_db / 20.0);
+        // micromath, called by its trait path so host tests and targets use
+        // the same routine (std's would differ in the last bits).
+        let step = micromath::F32Ext::powf(10f32, cfg.level_step_db / 20.0);
         let mut r = cfg.on_ratio;
         for slot in level_q8.iter_mut().take(usize::from(cfg.levels)) {
             *slot = f32_to_fixed(r, 8);
@@ -67,7 +68,7 @@ impl DecisionTuning {
             min_active: cfg.min_active_cycles,
             max_active: cfg.max_active_cycles,
             levels: cfg.levels,
-            hyst_q8: f32_to_fixed(10f32.powf(-cfg.level_hysteresis_db / 20.0), 8),
+            hyst_q8: f32_to_fixed(micromath::F32Ext::powf(10f32, -cfg.level_hysteresis_db / 20.0), 8),
             level_q8,
         }
     }

@@ -56,11 +56,10 @@ impl Event {
     /// computed with `micromath` (within about 0.01 dB; for display).
     /// Returns 0 when either is zero.
     pub fn strength_db(&self) -> f32 {
-        use micromath::F32Ext;
         if self.amplitude_q8 == 0 || self.baseline_q8 == 0 {
             return 0.0;
         }
         let r = self.amplitude_q8 as f32 / self.baseline_q8 as f32;
-        20.0 * r.log10()
+        20.0 * micromath::F32Ext::log10(r)
     }
 }

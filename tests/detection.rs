@@ -1,4 +1,5 @@
 //! Behaviour of the whole detector on synthetic signals (tests/support).
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::indexing_slicing, clippy::panic)]
 
 mod support;
 

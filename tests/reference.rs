@@ -1,6 +1,7 @@
 //! The demodulator checked against sources outside the project: a
 //! general-purpose FFT crate, the Fourier series of the half-wave rectified
 //! sine, and the statistics of the quadrature detector in white noise.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::indexing_slicing, clippy::panic)]
 
 mod support;
 
