@@ -68,7 +68,10 @@ impl DecisionTuning {
             min_active: cfg.min_active_cycles,
             max_active: cfg.max_active_cycles,
             levels: cfg.levels,
-            hyst_q8: f32_to_fixed(micromath::F32Ext::powf(10f32, -cfg.level_hysteresis_db / 20.0), 8),
+            hyst_q8: f32_to_fixed(
+                micromath::F32Ext::powf(10f32, -cfg.level_hysteresis_db / 20.0),
+                8,
+            ),
             level_q8,
         }
     }
