@@ -22,12 +22,12 @@ pub struct EsdWaveform {
     pub kv: f64,
 }
 
-const A1: f64 = 4.886;
-const R1: f64 = 0.5165e-9;
-const D1: f64 = 3.111e-9;
-const A2: f64 = 4.016;
-const R2: f64 = 4.507e-9;
-const D2: f64 = 43.09e-9;
+const A1: f64 = 6.7499;
+const R1: f64 = 0.673_89e-9;
+const D1: f64 = 2.876_33e-9;
+const A2: f64 = 5.420_94;
+const R2: f64 = 10.988_5e-9;
+const D2: f64 = 35.909_25e-9;
 
 impl EsdWaveform {
     /// Contact discharge at `kv` kilovolts (IEC levels 2, 4, 6, 8).
