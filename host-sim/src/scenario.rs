@@ -937,13 +937,33 @@ impl Scenario {
                     let line = before.matches('\n').count() + 1;
                     let col = before.len() - before.rfind('\n').map_or(0, |i| i + 1) + 1;
                     let text = src.lines().nth(line - 1).unwrap_or("");
-                    let section = src
-                        .lines()
-                        .take(line)
-                        .filter_map(header_of)
-                        .last()
-                        .map(|(_, n)| n.to_string());
-                    let key = line_key(text).map(|k| match &section {
+                    // The enclosing table, with its index for arrays of tables.
+                    let mut section: Option<String> = None;
+                    let mut counts: Vec<(String, usize)> = Vec::new();
+                    for l in src.lines().take(line) {
+                        if let Some((array, name)) = header_of(l) {
+                            section = Some(if array {
+                                let k = match counts.iter_mut().find(|(n, _)| n == name) {
+                                    Some((_, k)) => {
+                                        *k += 1;
+                                        *k
+                                    }
+                                    None => {
+                                        counts.push((name.to_string(), 0));
+                                        0
+                                    }
+                                };
+                                format!("{name}[{k}]")
+                            } else {
+                                name.to_string()
+                            });
+                        }
+                    }
+                    let missing = e
+                        .message()
+                        .strip_prefix("missing field `")
+                        .and_then(|r| r.split('`').next());
+                    let key = missing.or_else(|| line_key(text)).map(|k| match &section {
                         Some(s) => format!("{s}.{k}"),
                         None => k.to_string(),
                     });
@@ -956,7 +976,7 @@ impl Scenario {
                 line,
                 column,
                 key,
-                message: e.message().trim().to_string(),
+                message: e.message().trim().lines().collect::<Vec<_>>().join("; "),
             }
         })?;
         Self::validate(parsed, src, file)

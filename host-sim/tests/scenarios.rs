@@ -1,0 +1,439 @@
+//! Scenario format, built-ins, labels and streaming.
+
+use humsim::builtin;
+use humsim::scenario::{LabelKind, RenderOptions, Scenario, ScenarioError};
+
+fn render_all(s: &Scenario, seconds: Option<f64>, seed: Option<u64>) -> Vec<u16> {
+    let mut r = s.render(&RenderOptions { seconds, seed }).unwrap();
+    let mut all = Vec::new();
+    let mut block = vec![0u16; 1024 * r.channels()];
+    loop {
+        let n = r.fill(&mut block);
+        if n == 0 {
+            break;
+        }
+        all.extend_from_slice(&block[..n * r.channels()]);
+    }
+    all
+}
+
+const GOOD: &str = r#"
+name = "bench-test"
+description = "a test scenario"
+duration_s = 2.0
+seed = 3
+
+[mains]
+preset = "120v-60hz"
+harmonics = [{ order = 3, percent = 2.0 }]
+
+[adc]
+bits = 10
+rate_hz = 2300.0
+
+[frontend]
+kind = "comparator"
+threshold_v = 0.2
+hysteresis_v = 0.02
+
+[[channel]]
+name = "left"
+
+[[channel]]
+name = "right"
+skin = true
+
+[[lamp]]
+name = "desk"
+coupling_pf = 0.001
+
+[[conductor]]
+name = "lead"
+shape = "fixed"
+coupling_pf = 0.01
+channels = ["right"]
+
+[[event]]
+kind = "touch"
+at_s = 0.5
+channel = "right"
+hold_s = 0.3
+
+[[event]]
+kind = "lamp-on"
+at_s = 1.0
+lamp = "desk"
+"#;
+
+#[test]
+fn good_file_round_trips() {
+    let s = Scenario::from_toml_str(GOOD, "good.toml").unwrap();
+    assert_eq!(s.channel_names(), vec!["left", "right"]);
+    assert_eq!(s.adc.bits, 10);
+    assert_eq!(s.mains.frequency_hz, 60.0);
+    let text = s.to_toml().unwrap();
+    let back = Scenario::from_toml_str(&text, "round-trip").unwrap();
+    assert_eq!(back.file, s.file);
+    assert_eq!(render_all(&back, None, None), render_all(&s, None, None));
+}
+
+#[test]
+fn every_builtin_round_trips_and_renders() {
+    assert!(builtin::names().len() >= 10);
+    for name in builtin::names() {
+        let s = Scenario::builtin(name).unwrap();
+        assert_eq!(s.name(), name, "file name and `name` key agree");
+        assert!(!s.description().is_empty());
+        let back = Scenario::from_toml_str(&s.to_toml().unwrap(), "rt").unwrap();
+        assert_eq!(back.file, s.file, "{name}");
+        let codes = render_all(&s, None, None);
+        let frames = (s.duration_s() * s.adc.rate_hz).round() as usize;
+        assert_eq!(codes.len(), frames * s.channels.len(), "{name}");
+        let max = s.adc.max_code();
+        assert!(codes.iter().all(|&c| c <= max), "{name}");
+    }
+}
+
+/// Expects an error whose text names the file, the key and the line.
+fn expect_err(src: &str, key: &str, line: usize, words: &str) -> ScenarioError {
+    let e = Scenario::from_toml_str(src, "bad.toml").unwrap_err();
+    let text = e.to_string();
+    assert_eq!(e.key.as_deref(), Some(key), "{text}");
+    assert_eq!(e.line, Some(line), "{text}");
+    assert!(text.starts_with(&format!("bad.toml:{line}")), "{text}");
+    assert!(text.contains(&format!("`{key}`")), "{text}");
+    assert!(text.contains(words), "{text}");
+    e
+}
+
+const HEAD: &str = "name = \"x\"\nduration_s = 1.0\n[[channel]]\nname = \"a\"\n";
+
+#[test]
+fn bad_files_name_key_and_line() {
+    expect_err(
+        "name = \"x\"\nduration_s = 1.0\n[adc]\nbitz = 12\n[[channel]]\nname = \"a\"\n",
+        "adc.bitz",
+        4,
+        "expected one of `bits`",
+    );
+    expect_err(
+        "name = \"x\"\nduration_s = 1.0\n[adc]\nrate_hz = \"fast\"\n[[channel]]\nname = \"a\"\n",
+        "adc.rate_hz",
+        4,
+        "expected f64",
+    );
+    expect_err(
+        "name = \"x\"\nduration_s = 1.0\n[adc]\nbits = 20\n[[channel]]\nname = \"a\"\n",
+        "adc.bits",
+        4,
+        "8..=16",
+    );
+    expect_err(
+        &format!("{HEAD}[[event]]\nkind = \"touch\"\nat_s = 0.1\nhold_s = 0.3\nchannel = \"b\"\n"),
+        "event[0].channel",
+        9,
+        "unknown channel `b`",
+    );
+    expect_err(
+        &format!("{HEAD}[[event]]\nkind = \"touch\"\nat_s = 0.1\nchannel = \"a\"\n"),
+        "event[0].hold_s",
+        5,
+        "needs hold_s",
+    );
+    expect_err(
+        &format!(
+            "{HEAD}[[event]]\nkind = \"dip\"\nat_s = 0.1\nduration_s = 0.1\nresidual_percent = 95.0\n"
+        ),
+        "event[0].residual_percent",
+        9,
+        "below 90 %",
+    );
+    expect_err(
+        &format!("{HEAD}[[event]]\nkind = \"esd\"\nat_s = 0.1\nkv = 4.0\n[[event]]\nkind = \"touch\"\nat_s = 0.5\nchannel = \"a\"\nhold_s = 0.2\nkv = 3.0\n"),
+        "event[1].kv",
+        14,
+        "does not apply",
+    );
+    expect_err(
+        &format!("{HEAD}[[event]]\nkind = \"tuch\"\nat_s = 0.1\n"),
+        "event[0].kind",
+        6,
+        "unknown variant `tuch`",
+    );
+    expect_err(
+        "name = \"x\"\nduration_s = 1.0\n[frontend]\nkind = \"comparator\"\nrf_ohm = 3.0\nthreshold_v = 0.1\n[[channel]]\nname = \"a\"\n",
+        "frontend.rf_ohm",
+        5,
+        "does not apply",
+    );
+    expect_err(
+        "name = \"x\"\nduration_s = 1.0\n[mains]\nfrequency_hz = 60.0\n[[channel]]\nname = \"a\"\n",
+        "mains.frequency_hz",
+        4,
+        "inside range_hz",
+    );
+    expect_err(
+        "duration_s = 1.0\n[[channel]]\nname = \"a\"\n",
+        "name",
+        1,
+        "missing field `name`",
+    );
+    // A syntax error still gives file and line.
+    let e = Scenario::from_toml_str("name = \"x\"\n[[channel]\n", "bad.toml").unwrap_err();
+    assert_eq!(e.line, Some(2), "{e}");
+    // No channels at all.
+    let e = Scenario::from_toml_str("name = \"x\"\nduration_s = 1.0\n", "bad.toml").unwrap_err();
+    assert!(e.to_string().contains("[[channel]]"), "{e}");
+}
+
+#[test]
+fn unknown_builtin_and_missing_file_are_clear() {
+    let e = Scenario::load("no-such-thing").unwrap_err();
+    assert!(e.to_string().contains("no-such-thing"));
+    assert!(
+        e.to_string().contains("kitchen-panel"),
+        "lists the built-ins: {e}"
+    );
+    let e = Scenario::from_file(std::path::Path::new("/nonexistent/x.toml")).unwrap_err();
+    assert!(
+        e.to_string()
+            .starts_with("/nonexistent/x.toml: cannot read"),
+        "{e}"
+    );
+}
+
+#[test]
+fn labels_are_sane() {
+    for name in builtin::names() {
+        let s = Scenario::builtin(name).unwrap();
+        let d = s.duration_s();
+        let labels = s.labels(d);
+        let names = s.channel_names();
+        for l in &labels {
+            assert!(l.start_s < l.end_s, "{name}: {l:?}");
+            assert!(l.start_s >= 0.0 && l.end_s <= d + 1e-9, "{name}: {l:?}");
+            assert!(names.contains(&l.channel), "{name}: {l:?}");
+        }
+        let touches = s
+            .file
+            .events
+            .iter()
+            .filter(|e| e.kind == humsim::scenario::EventKind::Touch)
+            .count();
+        let n_touch = labels.iter().filter(|l| l.kind == LabelKind::Touch).count();
+        assert_eq!(n_touch, touches, "{name}");
+        let n_field = labels.iter().filter(|l| l.kind == LabelKind::Field).count();
+        match name {
+            "wall-scan" => assert_eq!(n_field, 2, "two passes: {labels:?}"),
+            "mains-events" => assert_eq!(n_field, 1, "{labels:?}"),
+            _ => assert_eq!(n_field, 0, "{name}"),
+        }
+    }
+    // wall-scan: each pass is centred on the moment the probe is over the
+    // cable (8 s; and 20-22 s, where it rests), symmetric by the geometry.
+    let s = Scenario::builtin("wall-scan").unwrap();
+    let f: Vec<_> = s
+        .labels(30.0)
+        .into_iter()
+        .filter(|l| l.kind == LabelKind::Field)
+        .collect();
+    assert!(
+        ((f[0].start_s + f[0].end_s) / 2.0 - 8.0).abs() < 0.01,
+        "{f:?}"
+    );
+    assert!(
+        ((f[1].start_s + f[1].end_s) / 2.0 - 21.0).abs() < 0.01,
+        "{f:?}"
+    );
+}
+
+#[test]
+fn repeat_extends_the_timeline() {
+    let s = Scenario::builtin("esd-bench").unwrap();
+    let one = s.plan(60.0).discharges.len();
+    let ten = s.plan(600.0).discharges.len();
+    assert_eq!(one, 3 + 1 + 2 + 5);
+    assert_eq!(ten, 10 * one);
+    assert!(s.labels(600.0).is_empty(), "ambient only: no labels");
+}
+
+#[test]
+fn deterministic_given_seed() {
+    let s = Scenario::builtin("kitchen-panel").unwrap();
+    let a = render_all(&s, Some(1.0), Some(7));
+    let b = render_all(&s, Some(1.0), Some(7));
+    let c = render_all(&s, Some(1.0), Some(8));
+    assert_eq!(a, b);
+    assert_ne!(a, c);
+}
+
+/// Standard deviation of each 100 ms window of channel `c`, split into
+/// windows inside a label of that channel and windows clear of any label.
+fn window_levels(s: &Scenario, codes: &[u16], c: usize) -> (Vec<f64>, Vec<f64>) {
+    let nch = s.channels.len();
+    let rate = s.adc.rate_hz;
+    let win = (rate * 0.1) as usize;
+    let x: Vec<f64> = codes
+        .iter()
+        .skip(c)
+        .step_by(nch)
+        .map(|&v| f64::from(v))
+        .collect();
+    let labels = s.labels(s.duration_s());
+    let name = &s.channels[c].name;
+    let (mut inside, mut clear) = (Vec::new(), Vec::new());
+    for w0 in (0..x.len().saturating_sub(win)).step_by(win) {
+        let seg = &x[w0..w0 + win];
+        let m = seg.iter().sum::<f64>() / win as f64;
+        let sd = (seg.iter().map(|v| (v - m).powi(2)).sum::<f64>() / win as f64).sqrt();
+        let (t0, t1) = (w0 as f64 / rate, (w0 + win) as f64 / rate);
+        let mine = |l: &&humsim::scenario::Label| &l.channel == name;
+        if labels
+            .iter()
+            .filter(mine)
+            .any(|l| l.start_s <= t0 && l.end_s >= t1)
+        {
+            inside.push(sd);
+        } else if !labels
+            .iter()
+            .any(|l| l.start_s < t1 + 0.05 && l.end_s > t0 - 0.05)
+        {
+            clear.push(sd);
+        }
+    }
+    (inside, clear)
+}
+
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v.get(v.len() / 2).copied().unwrap_or(f64::NAN)
+}
+
+// Touch amplitudes follow from the physics (DESIGN.md §1): ambient hum tens
+// of codes, a finger through a thin overlay 10–100x more, a thick overlay
+// about 4x; dead-band front ends show only noise until touched.
+#[test]
+fn builtin_touches_raise_the_hum_as_designed() {
+    let expect: &[(&str, f64, f64)] = &[
+        ("kitchen-panel", 10.0, 100.0),
+        ("workshop-60hz", 5.0, 100.0),
+        ("clipping-amp", 5.0, 100.0),
+        ("battery-float", 5.0, 100.0),
+        ("thick-overlay", 3.0, 5.5),
+        ("odd-rate", 10.0, 100.0),
+        ("drift-50hz", 5.0, 100.0),
+        ("mains-events", 5.0, 100.0),
+        ("comparator-pad", 50.0, f64::INFINITY),
+        ("follower-chain", 50.0, f64::INFINITY),
+    ];
+    for &(name, lo, hi) in expect {
+        let s = Scenario::builtin(name).unwrap();
+        let codes = render_all(&s, None, None);
+        for c in 0..s.channels.len() {
+            let (inside, clear) = window_levels(&s, &codes, c);
+            if inside.is_empty() {
+                continue;
+            }
+            let (t, a) = (median(inside), median(clear));
+            let ratio = t / a.max(0.3);
+            assert!(
+                ratio >= lo && ratio <= hi,
+                "{name}/{c}: touch {t:.1} ambient {a:.1} ratio {ratio:.1}"
+            );
+            if lo < 50.0 {
+                assert!(
+                    (5.0..=300.0).contains(&a),
+                    "{name}/{c}: ambient {a:.1} codes RMS"
+                );
+            }
+        }
+    }
+}
+
+// ESD (DESIGN.md §1: "at the ADC, a few saturated samples"): every discharge
+// in esd-bench shows as 1–4 samples far (> 1000 codes) from mid-scale on the
+// channels it reaches, and nothing else in the run comes near that.
+#[test]
+fn esd_shows_as_a_few_large_samples() {
+    let s = Scenario::builtin("esd-bench").unwrap();
+    let codes = render_all(&s, None, None);
+    let plan = s.plan(s.duration_s());
+    let rate = s.adc.rate_hz;
+    let nch = s.channels.len();
+    for c in 0..nch {
+        let big: Vec<usize> = codes
+            .iter()
+            .skip(c)
+            .step_by(nch)
+            .enumerate()
+            .filter(|(_, &v)| (f64::from(v) - 2048.0).abs() > 1000.0)
+            .map(|(k, _)| k)
+            .collect();
+        let mut expected = 0;
+        for (d, target) in &plan.discharges {
+            if target.is_some_and(|t| t != c) {
+                continue;
+            }
+            expected += 1;
+            let k0 = (d.at_s * rate).floor() as usize;
+            let n = big.iter().filter(|&&k| k >= k0 && k <= k0 + 10).count();
+            assert!(
+                (1..=4).contains(&n),
+                "channel {c}, discharge at {}: {n} large samples",
+                d.at_s
+            );
+        }
+        let near_any = |k: usize| {
+            plan.discharges.iter().any(|(d, _)| {
+                let k0 = (d.at_s * rate).floor() as usize;
+                k >= k0 && k <= k0 + 10
+            })
+        };
+        assert!(
+            big.iter().all(|&k| near_any(k)),
+            "channel {c}: large samples away from ESD"
+        );
+        assert!(expected > 0);
+    }
+}
+
+// Streaming keeps memory bounded: ten minutes rendered block by block
+// without keeping samples must not grow the resident set by more than the
+// samples themselves would take (4.8 MB here) — we allow 2 MB.
+#[test]
+fn ten_minutes_stream_in_bounded_memory() {
+    fn rss_kb() -> Option<u64> {
+        let s = std::fs::read_to_string("/proc/self/status").ok()?;
+        let line = s.lines().find(|l| l.starts_with("VmRSS:"))?;
+        line.split_whitespace().nth(1)?.parse().ok()
+    }
+    let s = Scenario::builtin("esd-bench").unwrap();
+    let mut r = s
+        .render(&RenderOptions {
+            seconds: Some(600.0),
+            seed: None,
+        })
+        .unwrap();
+    let mut block = vec![0u16; 4096 * r.channels()];
+    let mut frames = 0u64;
+    let mut checksum = 0u64;
+    let n = r.fill(&mut block);
+    frames += n as u64;
+    let before = rss_kb();
+    loop {
+        let n = r.fill(&mut block);
+        if n == 0 {
+            break;
+        }
+        frames += n as u64;
+        checksum += block[..n * r.channels()]
+            .iter()
+            .map(|&c| u64::from(c))
+            .sum::<u64>();
+    }
+    assert_eq!(frames, 1_200_000);
+    assert!(checksum > 0);
+    if let (Some(a), Some(b)) = (before, rss_kb()) {
+        assert!(b.saturating_sub(a) < 2048, "RSS grew {} kB", b - a);
+    }
+}
