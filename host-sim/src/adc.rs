@@ -132,6 +132,32 @@ mod tests {
         assert!(Adc { bits: 16, ..a }.validate().is_ok());
     }
 
+    // Aperture jitter σ_j on a sine of amplitude A at f adds noise of RMS
+    // A·2πf·σ_j/√2, i.e. SNR = −20 log10(2π f σ_j) (common practice; Kester,
+    // Analog Devices MT-007, from memory). 16 bits so quantisation is small.
+    #[test]
+    fn jitter_noise_follows_slope() {
+        let a = Adc {
+            bits: 16,
+            vref_v: 2.0,
+            rate_hz: 100_000.0,
+            noise_v: 0.0,
+            jitter_s: 1e-6,
+        };
+        let mut s = AdcState::new(Rng::new(5, 5));
+        let (amp, f) = (0.9, 1000.0);
+        let n = 100_000;
+        let mut pe = 0.0;
+        for k in 0..n {
+            let v = 1.0 + amp * (std::f64::consts::TAU * f * k as f64 / a.rate_hz).sin();
+            let e = f64::from(a.sample(&mut s, v)) * a.lsb_v() - v;
+            pe += e * e;
+        }
+        let rms = (pe / n as f64).sqrt();
+        let want = amp * std::f64::consts::TAU * f * 1e-6 / 2f64.sqrt();
+        assert!((rms / want - 1.0).abs() < 0.05, "{rms} vs {want}");
+    }
+
     #[test]
     fn noise_rms_is_as_configured() {
         // A constant input plus N(0, σ²): the codes' standard deviation is

@@ -129,8 +129,9 @@ impl Render {
     }
 
     /// Fills `out` with whole interleaved frames (`channels()` codes each, in
-    /// channel order) and returns the number of frames written; 0 when the
-    /// run is complete. Never panics.
+    /// channel order) and returns the number of frames written: 0 when the
+    /// run is complete (or `out` cannot hold one frame). A trailing partial
+    /// frame's slots are left untouched. Never panics.
     pub fn fill(&mut self, out: &mut [u16]) -> usize {
         let nch = self.runs.len().max(1);
         let mut frames = 0;

@@ -832,6 +832,8 @@ pub struct Scenario {
     pub file: ScenarioFile,
     /// Where it came from (file name or `builtin:NAME`).
     pub origin: String,
+    /// The TOML text it was parsed from (for locating keys in later errors).
+    pub source: String,
     /// Supply.
     pub mains: MainsConfig,
     /// Converter.
@@ -1069,7 +1071,12 @@ impl Scenario {
             "a duration in seconds",
         )?;
         if let Some(p) = f.repeat_s {
-            positive(&ctx, KeyPath::top("repeat_s"), p, "a period in seconds")?;
+            if !(p.is_finite() && p >= 1.0) {
+                return Err(ctx.err(
+                    KeyPath::top("repeat_s"),
+                    format!("expected a period of at least 1 second, got {p}"),
+                ));
+            }
         }
 
         // mains
@@ -1493,6 +1500,7 @@ impl Scenario {
 
         Ok(Scenario {
             origin: file.to_string(),
+            source: src.to_string(),
             mains,
             adc,
             frontend,
@@ -2001,6 +2009,19 @@ impl Scenario {
                 column: None,
                 key: Some("seconds".into()),
                 message: format!("expected a run length 0 < seconds <= 1e7, got {seconds}"),
+            });
+        }
+        let reps = self.file.repeat_s.map_or(1.0, |p| (seconds / p).ceil());
+        let expanded = reps * self.actions.len() as f64;
+        if expanded > 5e6 {
+            return Err(ScenarioError {
+                file: self.origin.clone(),
+                line: locate(&self.source, &KeyPath::top("repeat_s")),
+                column: None,
+                key: Some("repeat_s".into()),
+                message: format!(
+                    "the timeline repeated over {seconds} s expands to {expanded:.0} events; expected at most 5000000 (use a longer repeat_s or a shorter run)"
+                ),
             });
         }
         crate::render::Render::new(self, seconds, opts.seed.unwrap_or(self.file.seed)).map_err(

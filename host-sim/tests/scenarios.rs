@@ -437,3 +437,68 @@ fn ten_minutes_stream_in_bounded_memory() {
         assert!(b.saturating_sub(a) < 2048, "RSS grew {} kB", b - a);
     }
 }
+
+// A floating (battery) board sees a touch through its small capacitance to
+// earth and from a ground that itself hums, so touches are weaker while it
+// floats than while it sits on its earthed charger (DESIGN.md §1: "the board's
+// own ground floating on battery power (everything scales)").
+#[test]
+fn floating_ground_weakens_touches() {
+    let s = Scenario::builtin("battery-float").unwrap();
+    let codes = render_all(&s, None, None);
+    let rate = s.adc.rate_hz;
+    let level = |c: usize, t0: f64| {
+        let k0 = ((t0 + 0.1) * rate) as usize;
+        let seg: Vec<f64> = codes
+            .iter()
+            .skip(c)
+            .step_by(2)
+            .skip(k0)
+            .take(400)
+            .map(|&v| f64::from(v))
+            .collect();
+        let m = seg.iter().sum::<f64>() / seg.len() as f64;
+        (seg.iter().map(|v| (v - m).powi(2)).sum::<f64>() / seg.len() as f64).sqrt()
+    };
+    // "on" touched at 3 s (floating) and 13 s (earthed); "off" at 6 and 16 s.
+    let (on_f, on_e) = (level(0, 3.0), level(0, 13.0));
+    let (off_f, off_e) = (level(1, 6.0), level(1, 16.0));
+    assert!(
+        on_e > 1.5 * on_f,
+        "on: floating {on_f:.1}, earthed {on_e:.1}"
+    );
+    assert!(
+        off_e > 1.5 * off_f,
+        "off: floating {off_f:.1}, earthed {off_e:.1}"
+    );
+}
+
+#[test]
+fn huge_repeated_timelines_are_refused() {
+    expect_err(
+        "name = \"x\"\nduration_s = 1.0\nrepeat_s = 0.5\n[[channel]]\nname = \"a\"\n",
+        "repeat_s",
+        3,
+        "at least 1 second",
+    );
+    let s = Scenario::from_toml_str(
+        "name = \"x\"\nduration_s = 1.0\nrepeat_s = 1.0\n[[channel]]\nname = \"a\"\n[[event]]\nkind = \"esd\"\nat_s = 0.5\nkv = 4.0\n",
+        "x.toml",
+    )
+    .unwrap();
+    let e = s
+        .render(&RenderOptions {
+            seconds: Some(9e6),
+            seed: None,
+        })
+        .err()
+        .unwrap();
+    assert_eq!(e.key.as_deref(), Some("repeat_s"), "{e}");
+    assert_eq!(e.line, Some(3), "{e}");
+    assert!(s
+        .render(&RenderOptions {
+            seconds: Some(100.0),
+            seed: None
+        })
+        .is_ok());
+}
