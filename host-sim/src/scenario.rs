@@ -355,7 +355,9 @@ fn d_amb_pf() -> f64 {
     0.002
 }
 fn d_amb_noise() -> f64 {
-    50e-6
+    // kT/C noise of a 10 pF node at 300 K: sqrt(1.380649e-23 * 300 / 10e-12)
+    // = 20.4 µV RMS (standard thermodynamics; computed).
+    20e-6
 }
 fn d_drift() -> f64 {
     0.03
@@ -374,7 +376,8 @@ pub struct AmbientSection {
     /// Wiring-to-pad coupling, pF (default 0.002).
     #[serde(default = "d_amb_pf")]
     pub coupling_pf: f64,
-    /// Broadband noise at the sense node, volts RMS (default 50 µV).
+    /// Broadband noise at the sense node, volts RMS (default 20 µV, about the
+    /// kT/C noise of a 10 pF node).
     #[serde(default = "d_amb_noise")]
     pub noise_v: f64,
     /// Relative standard deviation of the slow drift (default 0.03).
