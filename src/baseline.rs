@@ -75,6 +75,13 @@ impl BaselineState {
         self.base_q12 = q8_to_q12(amp_q8);
     }
 
+    /// Multiplies baseline and noise by `ratio_q8 / 256` (a common ambient
+    /// change across a panel), saturating.
+    pub fn rescale(&mut self, ratio_q8: u32) {
+        self.base_q12 = crate::fixed::mul_q8(self.base_q12, ratio_q8);
+        self.noise_q12 = crate::fixed::mul_q8(self.noise_q12, ratio_q8);
+    }
+
     /// Learns from one cycle's amplitude (Q8 codes). Per cycle.
     pub fn update(&mut self, amp_q8: u32, t: &BaselineTuning) {
         let a = q8_to_q12(amp_q8);

@@ -31,6 +31,18 @@ pub enum Profile {
     Field,
 }
 
+/// How the channels of a multi-pad panel share touches.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum PanelMode {
+    /// Only the pad with the largest rise relative to its own baseline may
+    /// turn on, and only while no other pad is on: a finger leaking into its
+    /// neighbours through a shared overlay is one touch.
+    StrongestPad,
+    /// Every pad decides for itself (multi-touch layouts).
+    Independent,
+}
+
 /// Everything the detector needs to know, in the units each field names.
 ///
 /// Start from [`Config::touch`] or [`Config::field`] (defaults for a 12-bit
@@ -115,6 +127,32 @@ pub struct Config {
     /// Hysteresis below each level boundary before the level drops, in dB
     /// (0 to 20, below `level_step_db`).
     pub level_hysteresis_db: f32,
+    /// Multi-channel panels: strongest pad only, or independent pads.
+    pub panel: PanelMode,
+    /// Multi-channel panels of three or more channels: when the weakest
+    /// quarter of the channels (the smallest, for four) all rise or fall by
+    /// at least this ratio together, the change is ambient (a lamp, the
+    /// device picked up, the ground reference moving): every baseline and
+    /// noise estimate is rescaled by the common ratio at once, so no touch
+    /// follows from it and a touch on top of it still stands out
+    /// (1.05 to 100; 100 turns the rule off in practice).
+    pub ambient_ratio: f32,
+    /// Cycles of saturation, while not active, before a
+    /// [`Fault::Saturated`](crate::Fault::Saturated) (1 to 65 535).
+    pub fault_saturation_cycles: u16,
+    /// Cycles with every sample at one code before a
+    /// [`Fault::Stuck`](crate::Fault::Stuck) (1 to 65 535).
+    pub fault_stuck_cycles: u16,
+    /// Amplitude, in ADC codes, below which a cycle counts as without hum
+    /// (0 to 10 000); the fault clears above twice this.
+    pub nohum_codes: f32,
+    /// Cycles without hum before a [`Fault::NoHum`](crate::Fault::NoHum)
+    /// (1 to 65 535).
+    pub nohum_cycles: u16,
+    /// Cycles unlocked before a [`Fault::MainsLost`](crate::Fault::MainsLost),
+    /// and pinned at a range limit before an out-of-range or rate-mismatch
+    /// fault (1 to 65 535).
+    pub mains_lost_cycles: u16,
 }
 
 impl Config {
@@ -150,6 +188,13 @@ impl Config {
             levels: 1,
             level_step_db: 3.0,
             level_hysteresis_db: 1.0,
+            panel: PanelMode::StrongestPad,
+            ambient_ratio: 1.3,
+            fault_saturation_cycles: 50,
+            fault_stuck_cycles: 25,
+            nohum_codes: 1.0,
+            nohum_cycles: 1_500,
+            mains_lost_cycles: 250,
         }
     }
 
@@ -191,7 +236,7 @@ impl Config {
     /// The same configuration for another ADC resolution.
     ///
     /// The amplitude floors (`spike_floor_codes`, `track_min_codes`,
-    /// `floor_codes`) are rescaled from their values at 12 bits, so a
+    /// `floor_codes`, `nohum_codes`) are rescaled from their values at 12 bits, so a
     /// profile keeps its meaning in volts at the ADC pin.
     pub fn with_adc_bits(mut self, bits: u8) -> Self {
         let scale = if bits >= self.adc_bits {
@@ -202,6 +247,7 @@ impl Config {
         self.spike_floor_codes = ((self.spike_floor_codes as f32 * scale) as u16).max(1);
         self.track_min_codes *= scale;
         self.floor_codes *= scale;
+        self.nohum_codes *= scale;
         self.adc_bits = bits;
         self
     }
@@ -270,6 +316,27 @@ impl Config {
             self.level_hysteresis_db,
             "level_step_db",
             self.level_step_db,
+        )?;
+        range_f("ambient_ratio", self.ambient_ratio, 1.05, 100.0)?;
+        range_u(
+            "fault_saturation_cycles",
+            self.fault_saturation_cycles.into(),
+            1,
+            65_535,
+        )?;
+        range_u(
+            "fault_stuck_cycles",
+            self.fault_stuck_cycles.into(),
+            1,
+            65_535,
+        )?;
+        range_f("nohum_codes", self.nohum_codes, 0.0, 10_000.0)?;
+        range_u("nohum_cycles", self.nohum_cycles.into(), 1, 65_535)?;
+        range_u(
+            "mains_lost_cycles",
+            self.mains_lost_cycles.into(),
+            1,
+            65_535,
         )?;
         // Every demodulated bin must lie below Nyquist at the top of the
         // tracking range, with 10 % to spare.

@@ -139,19 +139,31 @@ impl DecisionState {
         self.level
     }
 
+    /// Whether the channel is above its on threshold but not yet on.
+    pub const fn pending(&self) -> bool {
+        !self.active && self.count > 0
+    }
+
     /// Decides one cycle with amplitude `a`, baseline `b` and noise `n`
     /// (Q8 codes). Returns the event, if any, and what to do with the
-    /// baseline. Per cycle.
+    /// baseline. `may_turn_on` is the panel's permission: without it the
+    /// channel stays idle however high it is (and does not learn from it).
+    /// Per cycle.
     pub fn step(
         &mut self,
         a: u32,
         b: u32,
         n: u32,
+        may_turn_on: bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
         let (on, off) = t.thresholds(b, n);
         let touch = t.profile == Profile::Touch;
         if !self.active {
+            if a > on && !may_turn_on {
+                self.count = 0;
+                return (None, Verdict::Freeze);
+            }
             if a > on {
                 self.count = self.count.saturating_add(1);
                 if self.count >= t.debounce_on {
@@ -207,16 +219,7 @@ impl DecisionState {
     }
 
     fn update_level(&mut self, a: u32, b: u32, t: &DecisionTuning) -> Option<u8> {
-        let ratio = if b == 0 {
-            u32::MAX
-        } else {
-            let r = (u64::from(a) << 8) / u64::from(b);
-            if r > u64::from(u32::MAX) {
-                u32::MAX
-            } else {
-                r as u32
-            }
-        };
+        let ratio = ratio_q8(a, b);
         let l = self.level;
         if l < t.levels && ratio >= t.level_at(l) {
             self.level = l + 1;
@@ -227,6 +230,19 @@ impl DecisionState {
             return Some(self.level);
         }
         None
+    }
+}
+
+/// `a / b` in Q8, saturating; `u32::MAX` when `b` is 0.
+pub fn ratio_q8(a: u32, b: u32) -> u32 {
+    if b == 0 {
+        return u32::MAX;
+    }
+    let r = (u64::from(a) << 8) / u64::from(b);
+    if r > u64::from(u32::MAX) {
+        u32::MAX
+    } else {
+        r as u32
     }
 }
 
@@ -257,15 +273,18 @@ mod tests {
         let t = tuning(Config::touch());
         let mut d = DecisionState::new();
         let b = 10 * 256;
-        assert_eq!(d.step(40 * 256, b, 0, &t), (None, Verdict::Freeze));
-        assert_eq!(d.step(40 * 256, b, 0, &t).0, Some(EventKind::TouchOn));
+        assert_eq!(d.step(40 * 256, b, 0, true, &t), (None, Verdict::Freeze));
+        assert_eq!(d.step(40 * 256, b, 0, true, &t).0, Some(EventKind::TouchOn));
         // Between off (18 codes) and on (28 codes): stays on.
         for _ in 0..10 {
-            assert_eq!(d.step(20 * 256, b, 0, &t).0, None);
+            assert_eq!(d.step(20 * 256, b, 0, true, &t).0, None);
         }
-        assert_eq!(d.step(12 * 256, b, 0, &t).0, None);
-        assert_eq!(d.step(12 * 256, b, 0, &t).0, None);
-        assert_eq!(d.step(12 * 256, b, 0, &t).0, Some(EventKind::TouchOff));
+        assert_eq!(d.step(12 * 256, b, 0, true, &t).0, None);
+        assert_eq!(d.step(12 * 256, b, 0, true, &t).0, None);
+        assert_eq!(
+            d.step(12 * 256, b, 0, true, &t).0,
+            Some(EventKind::TouchOff)
+        );
         assert!(!d.active());
     }
 
@@ -277,7 +296,7 @@ mod tests {
         let mut d = DecisionState::new();
         let mut seen = None;
         for k in 0..10 {
-            let (e, v) = d.step(100 * 256, 10 * 256, 0, &t);
+            let (e, v) = d.step(100 * 256, 10 * 256, 0, true, &t);
             if v == Verdict::Relearn {
                 seen = Some((k, e));
                 break;
@@ -292,15 +311,21 @@ mod tests {
         let mut d = DecisionState::new();
         let b = 100 * 256;
         for _ in 0..5 {
-            d.step(160 * 256, b, 0, &t);
+            d.step(160 * 256, b, 0, true, &t);
         }
         assert!(d.active());
         assert_eq!(d.level(), 1);
         // 3 dB above the on ratio (1.5 · 1.413 = 2.12): level 2.
-        assert_eq!(d.step(215 * 256, b, 0, &t).0, Some(EventKind::Level(2)));
+        assert_eq!(
+            d.step(215 * 256, b, 0, true, &t).0,
+            Some(EventKind::Level(2))
+        );
         // Just below the level-2 boundary but within 1 dB: stays.
-        assert_eq!(d.step(200 * 256, b, 0, &t).0, None);
+        assert_eq!(d.step(200 * 256, b, 0, true, &t).0, None);
         // More than 1 dB below it: back to level 1.
-        assert_eq!(d.step(185 * 256, b, 0, &t).0, Some(EventKind::Level(1)));
+        assert_eq!(
+            d.step(185 * 256, b, 0, true, &t).0,
+            Some(EventKind::Level(1))
+        );
     }
 }

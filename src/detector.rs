@@ -12,24 +12,34 @@
 //! The split lets a host tool record the [`Cycle`]s of a log once and run
 //! many [`Backend`] configurations over them: the events are the same as a
 //! full run's, because a full run is exactly this composition.
+//!
+//! Above the per-channel decisions sit the panel rules (three or more
+//! channels: a common ambient change rescales every baseline; two or more:
+//! only the strongest pad may turn on, unless pads are independent) and the
+//! fault logic. Each channel reports at most one event per mains cycle: a
+//! decision event first, else the next change of its fault set.
 
 use crate::baseline::{BaselineState, BaselineTuning};
-use crate::config::Config;
-use crate::decision::{DecisionState, DecisionTuning, Verdict};
+use crate::config::{Config, PanelMode};
+use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
 use crate::demod::{DemodState, Iq};
 use crate::error::ConfigError;
-use crate::event::Event;
-use crate::fixed::isqrt_u64;
+use crate::event::{Event, EventKind, Fault, Faults};
+use crate::fixed::{f32_to_fixed, isqrt_u64};
 use crate::impulse::ImpulseState;
-use crate::mains::{MainsSystem, MainsTracker};
+use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
 
 /// An integer ADC sample type the detector accepts.
 pub trait AdcSample: Copy {
+    /// Whether codes are two's complement around 0 (`i16`) rather than
+    /// offset binary from 0 (`u16`); sets the rails for saturation.
+    const SIGNED: bool;
     /// The code as `i32`.
     fn code(self) -> i32;
 }
 
 impl AdcSample for u16 {
+    const SIGNED: bool = false;
     #[inline(always)]
     fn code(self) -> i32 {
         i32::from(self)
@@ -37,6 +47,7 @@ impl AdcSample for u16 {
 }
 
 impl AdcSample for i16 {
+    const SIGNED: bool = true;
     #[inline(always)]
     fn code(self) -> i32 {
         i32::from(self)
@@ -60,6 +71,14 @@ pub struct Cycle<const N: usize, const H: usize> {
     pub fund: [Iq; N],
     /// Harmonic I/Q per channel (orders 2 to H + 1), Q8 codes.
     pub harm: [[Iq; H]; N],
+    /// Mean input level per channel over the cycle, ADC codes.
+    pub dc: [i32; N],
+    /// Per channel: every sample of the cycle had the same code.
+    pub flat: [bool; N],
+    /// Health of the mains reference after this cycle.
+    pub health: MainsHealth,
+    /// Lowest and highest code of the ADC (the rails), for saturation.
+    pub rails: (i32, i32),
 }
 
 /// Per-sample half of the pipeline: impulse gate, demodulator and the shared
@@ -73,6 +92,7 @@ pub struct Frontend<const N: usize, const H: usize> {
     next_sample: u64,
     spike_max_len: u8,
     spike_floor: u16,
+    adc_bits: u8,
 }
 
 impl<const N: usize, const H: usize> Frontend<N, H> {
@@ -87,6 +107,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             next_sample: 0,
             spike_max_len: cfg.spike_max_len,
             spike_floor: cfg.spike_floor_codes,
+            adc_bits: cfg.adc_bits,
         })
     }
 
@@ -94,14 +115,20 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     /// sample completed a mains cycle. Never panics.
     #[inline]
     pub fn push_frame<S: AdcSample>(&mut self, frame: &[S; N]) -> Option<Cycle<N, H>> {
+        self.push_codes(frame.iter().map(|x| x.code()), S::SIGNED)
+    }
+
+    #[inline]
+    fn push_codes(
+        &mut self,
+        codes: impl Iterator<Item = i32>,
+        signed: bool,
+    ) -> Option<Cycle<N, H>> {
         let phase = self.tracker.phase();
         let max_len = self.spike_max_len;
-        for ((x, gate), dem) in frame
-            .iter()
-            .zip(self.impulse.iter_mut())
-            .zip(self.demod.iter_mut())
-        {
-            let v = gate.filter(x.code(), max_len);
+        let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
+        for (x, (gate, dem)) in codes.zip(stages) {
+            let v = gate.filter(x, max_len);
             dem.push(v, phase);
         }
         let index = self.next_sample;
@@ -110,23 +137,37 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         if n == 0 {
             return None;
         }
-        Some(self.end_cycle(index, n))
+        Some(self.end_cycle(index, n, signed))
     }
 
     #[inline(never)]
-    fn end_cycle(&mut self, index: u64, n: u32) -> Cycle<N, H> {
+    fn end_cycle(&mut self, index: u64, n: u32, signed: bool) -> Cycle<N, H> {
+        let span = 1i32 << self.adc_bits;
+        let rails = if signed {
+            (-span / 2, span / 2 - 1)
+        } else {
+            (0, span - 1)
+        };
         let mut cycle = Cycle {
             end_sample: index,
             samples: n,
             fund: [Iq::default(); N],
             harm: [[Iq::default(); H]; N],
+            dc: [0; N],
+            flat: [false; N],
+            health: MainsHealth::Ok,
+            rails,
         };
-        let chans = self.demod.iter_mut().zip(self.impulse.iter_mut());
-        for (((dem, gate), f), h) in chans.zip(cycle.fund.iter_mut()).zip(cycle.harm.iter_mut()) {
+        let stages = self.demod.iter_mut().zip(self.impulse.iter_mut());
+        let outs = cycle.fund.iter_mut().zip(cycle.harm.iter_mut());
+        let extras = cycle.dc.iter_mut().zip(cycle.flat.iter_mut());
+        for ((dem, gate), ((f, h), (dc, flat))) in stages.zip(outs.zip(extras)) {
             (*f, *h) = dem.end_cycle(n);
-            gate.end_cycle(self.spike_max_len, self.spike_floor);
+            *dc = dem.dc();
+            *flat = gate.end_cycle(self.spike_max_len, self.spike_floor);
         }
         self.tracker.end_cycle(cycle.fund.iter().copied());
+        cycle.health = self.tracker.health();
         cycle
     }
 
@@ -147,6 +188,33 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     }
 }
 
+/// Fault counters of one channel (8 bytes).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct FaultState {
+    saturated: u16,
+    stuck: u16,
+    nohum: u16,
+    /// Faults present now.
+    present: Faults,
+    /// Faults reported by events so far.
+    reported: Faults,
+}
+
+/// The fault and panel constants (from [`Config`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct PanelTuning {
+    independent: bool,
+    ambient_q8: u32,
+    ambient_inv_q8: u32,
+    floor_q8: u32,
+    saturated_cycles: u16,
+    stuck_cycles: u16,
+    nohum_q8: u32,
+    nohum_cycles: u16,
+}
+
 /// Per-channel state of the per-cycle half.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -156,10 +224,26 @@ struct ChannelBack<const H: usize> {
     amp_q8: u32,
     baseline: BaselineState,
     decision: DecisionState,
+    faults: FaultState,
 }
 
-/// A read-only view of one channel after its latest cycle.
+/// What a channel is doing.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ChannelState {
+    /// Learning the baseline after start-up; no decisions yet.
+    Learning,
+    /// Below the on threshold.
+    Idle,
+    /// Above the on threshold, debouncing.
+    Pending,
+    /// Touched, or field present.
+    Active,
+}
+
+/// A read-only view of one channel after its latest cycle. Computed only
+/// when asked for.
+#[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub struct ChannelSnapshot {
@@ -173,21 +257,49 @@ pub struct ChannelSnapshot {
     pub on_q8: u32,
     /// Off threshold for the next cycle, Q8 codes.
     pub off_q8: u32,
-    /// Whether the channel is active.
-    pub active: bool,
+    /// What the channel is doing.
+    pub state: ChannelState,
     /// Present level (see [`DecisionState::level`]).
     pub level: u8,
+    /// Faults present now.
+    pub faults: Faults,
+    /// Mains reference frequency in hertz (0 from a bare [`Backend`]).
+    pub mains_hz: f32,
+    /// Whether the mains tracker is locked (false from a bare [`Backend`]).
+    pub mains_locked: bool,
+    /// Samples processed per channel (from a bare [`Backend`]: up to the
+    /// end of the latest cycle).
+    pub samples: u64,
 }
 
-/// Per-cycle half of the pipeline: coherent averaging, amplitude, baseline,
-/// noise and decision for `N` channels with `H` extra harmonic bins.
+impl ChannelSnapshot {
+    /// Amplitude over noise in dB, `20·log10(amplitude / noise)` (micromath,
+    /// within about 0.01 dB); 0 when either is zero.
+    pub fn snr_db(&self) -> f32 {
+        if self.amplitude_q8 == 0 || self.noise_q8 == 0 {
+            return 0.0;
+        }
+        20.0 * micromath::F32Ext::log10(self.amplitude_q8 as f32 / self.noise_q8 as f32)
+    }
+
+    /// Whether the channel is active.
+    pub fn active(&self) -> bool {
+        self.state == ChannelState::Active
+    }
+}
+
+/// Per-cycle half of the pipeline: coherent averaging, amplitude, panel
+/// rules, baseline, noise, decision and faults for `N` channels with `H`
+/// extra harmonic bins.
 #[derive(Clone, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Backend<const N: usize, const H: usize> {
     ch: [ChannelBack<H>; N],
     baseline_t: BaselineTuning,
     decision_t: DecisionTuning,
+    panel_t: PanelTuning,
     avg_shift: u8,
+    last_sample: u64,
 }
 
 impl<const N: usize, const H: usize> Backend<N, H> {
@@ -201,7 +313,9 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             amp_q8: 0,
             baseline: BaselineState::new(),
             decision: DecisionState::new(),
+            faults: FaultState::default(),
         };
+        let ambient_q8 = f32_to_fixed(cfg.ambient_ratio, 8).max(257);
         Ok(Self {
             ch: [fresh; N],
             baseline_t: BaselineTuning {
@@ -211,40 +325,80 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 startup_cycles: cfg.startup_cycles,
             },
             decision_t: DecisionTuning::new(cfg),
+            panel_t: PanelTuning {
+                independent: cfg.panel == PanelMode::Independent,
+                ambient_q8,
+                ambient_inv_q8: (1u32 << 16) / ambient_q8,
+                floor_q8: f32_to_fixed(cfg.floor_codes, 8).max(1),
+                saturated_cycles: cfg.fault_saturation_cycles,
+                stuck_cycles: cfg.fault_stuck_cycles,
+                nohum_q8: f32_to_fixed(cfg.nohum_codes, 8),
+                nohum_cycles: cfg.nohum_cycles,
+            },
             avg_shift: cfg.avg_shift,
+            last_sample: 0,
         })
     }
 
     /// Decides one cycle on every channel; calls `emit` for each event
     /// (at most one per channel). Never panics.
     pub fn process(&mut self, cycle: &Cycle<N, H>, mut emit: impl FnMut(Event)) {
+        self.last_sample = cycle.end_sample;
         let k = self.avg_shift;
-        let items = self
-            .ch
-            .iter_mut()
-            .zip(cycle.fund.iter())
-            .zip(cycle.harm.iter());
-        for (channel, ((c, f), h)) in (0u8..).zip(items) {
+        let inputs = cycle.fund.iter().zip(cycle.harm.iter());
+        for (c, (f, h)) in self.ch.iter_mut().zip(inputs) {
             average(&mut c.avg, f, k);
             let mut power = c.avg.power();
             for (a, z) in c.avg_h.iter_mut().zip(h.iter()) {
                 average(a, z, k);
                 power = power.saturating_add(a.power());
             }
-            let amp = isqrt_u64(power);
-            c.amp_q8 = amp;
-            if !c.baseline.settled(&self.baseline_t) {
+            c.amp_q8 = isqrt_u64(power);
+        }
+        if N >= 3 {
+            self.ambient_rule();
+        }
+        let winner = self.strongest();
+        let mut active_mask: u32 = 0;
+        for (i, c) in self.ch.iter().enumerate() {
+            if c.decision.active() {
+                active_mask |= 1 << i;
+            }
+        }
+        let pt = self.panel_t;
+        let items = self
+            .ch
+            .iter_mut()
+            .zip(cycle.dc.iter().zip(cycle.flat.iter()));
+        for (channel, (c, (dc, flat))) in (0u8..).zip(items) {
+            let amp = c.amp_q8;
+            let bit = 1u32 << channel;
+            let mut event = None;
+            let b = c.baseline.baseline_q8();
+            if c.baseline.settled(&self.baseline_t) {
+                let n = c.baseline.noise_q8();
+                let others_active = active_mask & !bit != 0;
+                let may_on = pt.independent || (winner == Some(channel) && !others_active);
+                let (e, verdict) = c.decision.step(amp, b, n, may_on, &self.decision_t);
+                match verdict {
+                    Verdict::Learn => c.baseline.update(amp, &self.baseline_t),
+                    Verdict::Freeze => {}
+                    Verdict::Relearn => c.baseline.relearn(amp),
+                }
+                if c.decision.active() {
+                    active_mask |= bit;
+                } else {
+                    active_mask &= !bit;
+                }
+                event = e;
+            } else {
                 // Start-up: learn only, decide nothing.
                 c.baseline.update(amp, &self.baseline_t);
-                continue;
             }
-            let b = c.baseline.baseline_q8();
-            let n = c.baseline.noise_q8();
-            let (event, verdict) = c.decision.step(amp, b, n, &self.decision_t);
-            match verdict {
-                Verdict::Learn => c.baseline.update(amp, &self.baseline_t),
-                Verdict::Freeze => {}
-                Verdict::Relearn => c.baseline.relearn(amp),
+            let active = c.decision.active();
+            let present = update_faults(&mut c.faults, amp, *dc, *flat, active, cycle, &pt);
+            if event.is_none() {
+                event = fault_change(&mut c.faults, present);
             }
             if let Some(kind) = event {
                 emit(Event {
@@ -258,21 +412,154 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         }
     }
 
+    /// Panel rule for a common ambient change: the weakest quarter of the
+    /// eligible channels (settled, with hum, not stuck) rising by at least
+    /// `ambient_ratio` together, or the strongest quarter falling by it, is
+    /// ambient; every settled baseline is rescaled by that ratio.
+    fn ambient_rule(&mut self) {
+        let mut ratios = [0u32; N];
+        let mut count = 0usize;
+        for c in self.ch.iter() {
+            let eligible = c.baseline.settled(&self.baseline_t)
+                && !c.faults.present.contains(Fault::NoHum)
+                && !c.faults.present.contains(Fault::Stuck);
+            if !eligible {
+                continue;
+            }
+            let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
+            if let Some(slot) = ratios.get_mut(count) {
+                *slot = ratio_q8(c.amp_q8, b);
+                count += 1;
+            }
+        }
+        if count < 3 {
+            return;
+        }
+        let Some(sorted) = ratios.get_mut(..count) else {
+            return;
+        };
+        sorted.sort_unstable();
+        let k = (count - 1) / 4;
+        let low = sorted.get(k).copied().unwrap_or(256);
+        let high = sorted.get(count - 1 - k).copied().unwrap_or(256);
+        let factor = if low >= self.panel_t.ambient_q8 {
+            low
+        } else if high <= self.panel_t.ambient_inv_q8 {
+            high.max(1)
+        } else {
+            return;
+        };
+        for c in self.ch.iter_mut() {
+            if c.baseline.settled(&self.baseline_t) {
+                c.baseline.rescale(factor);
+            }
+        }
+    }
+
+    /// The channel with the largest rise over its own baseline, among
+    /// settled channels.
+    fn strongest(&self) -> Option<u8> {
+        let mut best: Option<(u8, u32)> = None;
+        for (i, c) in (0u8..).zip(self.ch.iter()) {
+            if !c.baseline.settled(&self.baseline_t) {
+                continue;
+            }
+            let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
+            let r = ratio_q8(c.amp_q8, b);
+            if best.is_none_or(|(_, rb)| r > rb) {
+                best = Some((i, r));
+            }
+        }
+        best.map(|(i, _)| i)
+    }
+
     /// A view of channel `ch`, or `None` past the last channel.
     pub fn snapshot(&self, ch: usize) -> Option<ChannelSnapshot> {
         let c = self.ch.get(ch)?;
         let b = c.baseline.baseline_q8();
         let (on_q8, off_q8) = self.decision_t.thresholds(b, c.baseline.noise_q8());
+        let state = if !c.baseline.settled(&self.baseline_t) {
+            ChannelState::Learning
+        } else if c.decision.active() {
+            ChannelState::Active
+        } else if c.decision.pending() {
+            ChannelState::Pending
+        } else {
+            ChannelState::Idle
+        };
         Some(ChannelSnapshot {
             amplitude_q8: c.amp_q8,
             baseline_q8: b,
             noise_q8: c.baseline.noise_q8(),
             on_q8,
             off_q8,
-            active: c.decision.active(),
+            state,
             level: c.decision.level(),
+            faults: c.faults.present,
+            mains_hz: 0.0,
+            mains_locked: false,
+            samples: self.last_sample.wrapping_add(1),
         })
     }
+}
+
+/// Updates a channel's fault counters from one cycle; returns the faults
+/// present now.
+fn update_faults<const N: usize, const H: usize>(
+    f: &mut FaultState,
+    amp_q8: u32,
+    dc: i32,
+    flat: bool,
+    active: bool,
+    cycle: &Cycle<N, H>,
+    t: &PanelTuning,
+) -> Faults {
+    let (lo, hi) = cycle.rails;
+    let span = hi.saturating_sub(lo).max(1);
+    let full = span.unsigned_abs();
+    // A full-scale sine has amplitude span/2, that is span·128 in Q8;
+    // beyond 0.52 of it the input must be clipping at both rails.
+    let swing_on = amp_q8 > full.saturating_mul(67);
+    let swing_off = amp_q8 < full.saturating_mul(61);
+    let top_on = dc >= hi - span / 32;
+    let top_off = dc < hi - span / 16;
+    if active || (swing_off && top_off) {
+        f.saturated = 0;
+    } else if swing_on || top_on {
+        f.saturated = f.saturated.saturating_add(1);
+    }
+    f.stuck = if flat { f.stuck.saturating_add(1) } else { 0 };
+    if amp_q8 < t.nohum_q8 {
+        f.nohum = f.nohum.saturating_add(1);
+    } else if amp_q8 > t.nohum_q8.saturating_mul(2) {
+        f.nohum = 0;
+    }
+    let stuck = f.stuck >= t.stuck_cycles;
+    let present = Faults::NONE
+        .with(Fault::Saturated, f.saturated >= t.saturated_cycles)
+        .with(Fault::Stuck, stuck)
+        .with(Fault::NoHum, !stuck && f.nohum >= t.nohum_cycles);
+    f.present = match cycle.health {
+        MainsHealth::Ok => present,
+        MainsHealth::Lost => present.with(Fault::MainsLost, true),
+        MainsHealth::OutOfRange => present.with(Fault::MainsOutOfRange, true),
+        MainsHealth::RateMismatch => present.with(Fault::RateMismatch, true),
+    };
+    f.present
+}
+
+/// The next fault event to report, if the present set differs from the
+/// reported one: new faults first, then clears, each in bit order.
+fn fault_change(f: &mut FaultState, present: Faults) -> Option<EventKind> {
+    if let Some(new) = present.first_not_in(f.reported) {
+        f.reported = f.reported.with(new, true);
+        return Some(EventKind::Fault(new));
+    }
+    if let Some(gone) = f.reported.first_not_in(present) {
+        f.reported = f.reported.with(gone, false);
+        return Some(EventKind::FaultClear(gone));
+    }
+    None
 }
 
 /// Complex exponential average `a += (z − a) >> k` (k = 0: `a = z`).
@@ -352,7 +639,9 @@ impl<const N: usize, const H: usize> Detector<N, H> {
             if usize::from(self.carry_len) == N {
                 self.carry_len = 0;
                 let frame = self.carry;
-                self.push_frame(&frame.map(Code), &mut emit);
+                if let Some(cycle) = self.front.push_codes(frame.into_iter(), S::SIGNED) {
+                    self.back.process(&cycle, &mut emit);
+                }
             }
         }
         let mut chunks = rest.chunks_exact(N);
@@ -367,10 +656,16 @@ impl<const N: usize, const H: usize> Detector<N, H> {
         }
     }
 
-    /// A view of channel `ch` after its latest cycle, or `None` past the
-    /// last channel.
+    /// A view of channel `ch` after its latest cycle (amplitude, baseline,
+    /// noise, SNR, state, level, faults, mains frequency and lock, samples
+    /// processed), or `None` past the last channel. Costs nothing until
+    /// called. Never panics.
     pub fn snapshot(&self, ch: usize) -> Option<ChannelSnapshot> {
-        self.back.snapshot(ch)
+        let mut s = self.back.snapshot(ch)?;
+        s.mains_hz = self.mains_hz();
+        s.mains_locked = self.mains_locked();
+        s.samples = self.samples_seen();
+        Some(s)
     }
 
     /// Present mains reference frequency in hertz.
@@ -412,16 +707,5 @@ impl<const H: usize> Detector<1, H> {
         let mut out = None;
         self.push_frame(&[sample], |e| out = Some(e));
         out
-    }
-}
-
-/// A carried code already in `i32`.
-#[derive(Clone, Copy)]
-struct Code(i32);
-
-impl AdcSample for Code {
-    #[inline(always)]
-    fn code(self) -> i32 {
-        self.0
     }
 }

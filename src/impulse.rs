@@ -69,11 +69,15 @@ impl ImpulseState {
     }
 
     /// Ends a mains cycle: sets the limit for the next cycle from this one's
-    /// largest accepted step. Per cycle.
-    pub fn end_cycle(&mut self, max_len: u8, floor: u16) {
+    /// largest accepted step. Returns whether the cycle was flat (no
+    /// accepted sample differed from the one before it: a stuck input).
+    /// Per cycle.
+    pub fn end_cycle(&mut self, max_len: u8, floor: u16) -> bool {
         let factor = u32::from(max_len) + 1;
+        let flat = self.max_step == 0;
         self.limit = u32::from(self.max_step) * factor + u32::from(floor);
         self.max_step = 0;
+        flat
     }
 
     /// The present gate limit in codes (`u32::MAX` before the first cycle).
@@ -90,7 +94,7 @@ mod tests {
         for (x, o) in xs.iter().zip(out.iter_mut()) {
             *o = g.filter(*x, 3);
         }
-        g.end_cycle(3, 4);
+        let _ = g.end_cycle(3, 4);
     }
 
     #[test]
@@ -124,7 +128,12 @@ mod tests {
         for x in [i32::MIN, i32::MAX, 0, i32::MIN] {
             let _ = g.filter(x, 8);
         }
-        g.end_cycle(8, u16::MAX);
+        assert!(!g.end_cycle(8, u16::MAX));
         assert_eq!(g.limit(), 0xffff * 9 + 0xffff);
+        // A cycle of one repeated code is flat.
+        for _ in 0..10 {
+            let _ = g.filter(i32::MIN, 8);
+        }
+        assert!(g.end_cycle(8, 1));
     }
 }

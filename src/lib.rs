@@ -14,8 +14,8 @@ pub mod impulse;
 pub mod mains;
 pub mod nco;
 
-pub use config::{Config, MainsMode, Profile};
+pub use config::{Config, MainsMode, PanelMode, Profile};
 pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};
 pub use error::ConfigError;
-pub use event::{Event, EventKind};
+pub use event::{Event, EventKind, Fault, Faults};
 pub use mains::MainsSystem;

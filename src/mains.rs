@@ -45,6 +45,27 @@ pub enum MainsSystem {
     Hz60,
 }
 
+/// How well the mains reference is doing, for the fault logic.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum MainsHealth {
+    /// Locked, or not unlocked for long.
+    Ok,
+    /// Unlocked for `mains_lost_cycles` cycles (no hum, or hum too
+    /// disturbed to follow).
+    Lost,
+    /// Pinned at a range limit for `mains_lost_cycles` learning cycles with
+    /// the hum's apparent frequency within 44–66 Hz: a real mains frequency
+    /// outside the configured system's range.
+    OutOfRange,
+    /// Pinned at a range limit with an apparent frequency outside 44–66 Hz:
+    /// no mains system looks like that, so the sample rate is wrong.
+    RateMismatch,
+}
+
+/// Apparent frequencies that a real mains supply can have, mHz.
+const PLAUSIBLE_MHZ: (u32, u32) = (44_000, 66_000);
+
 /// Pull-in settles below this error (1/64 turn per cycle).
 const COARSE_E: u32 = 1 << 26;
 /// Fine lock below this error (1/512 turn per cycle).
@@ -77,6 +98,13 @@ pub struct MainsTracker {
     fine: bool,
     locked: bool,
     system: MainsSystem,
+    /// Cycles since the loop was last locked, saturating.
+    unlocked_cycles: u16,
+    /// Learning cycles in a row pinned at a range limit.
+    pinned_cycles: u16,
+    /// Apparent mains frequency of the last pinned cycle, mHz.
+    apparent_mhz: u32,
+    lost_after: u16,
 }
 
 impl MainsTracker {
@@ -109,6 +137,10 @@ impl MainsTracker {
             fine: false,
             locked: false,
             system,
+            unlocked_cycles: 0,
+            pinned_cycles: 0,
+            apparent_mhz: 0,
+            lost_after: cfg.mains_lost_cycles,
         }
     }
 
@@ -138,6 +170,15 @@ impl MainsTracker {
     /// fundamental; the strongest channel (by |i| + |q|) is the reference.
     /// Per cycle.
     pub fn end_cycle(&mut self, fund: impl Iterator<Item = Iq>) {
+        self.learn(fund);
+        self.unlocked_cycles = if self.locked {
+            0
+        } else {
+            self.unlocked_cycles.saturating_add(1)
+        };
+    }
+
+    fn learn(&mut self, fund: impl Iterator<Item = Iq>) {
         let mut best: Option<(u8, Iq, u32)> = None;
         for (ch, z) in (0u8..).zip(fund) {
             let l1 = z.i.unsigned_abs().saturating_add(z.q.unsigned_abs());
@@ -178,12 +219,43 @@ impl MainsTracker {
         }
     }
 
-    /// `step += e · step / 2`, clamped.
+    /// `step += e · step / 2`, clamped; counts cycles pinned at a limit.
     fn correct(&mut self, e: i32) {
         let full = (i64::from(e) * i64::from(self.step)) >> 32;
-        let step = (i64::from(self.step) + (full >> 1))
-            .clamp(i64::from(self.min_step), i64::from(self.max_step));
+        let wanted = i64::from(self.step) + (full >> 1);
+        let step = wanted.clamp(i64::from(self.min_step), i64::from(self.max_step));
+        let pinned = (wanted < step || wanted > step) && e.unsigned_abs() >= COARSE_E;
+        if pinned {
+            self.pinned_cycles = self.pinned_cycles.saturating_add(1);
+            // f_mains = f_ref · (1 + e), in mHz.
+            let ref_mhz = (u64::from(self.step) * u64::from(self.rate_hz) * 1000) >> 32;
+            let app = ref_mhz as i64 + ((ref_mhz as i64 * i64::from(e)) >> 32);
+            self.apparent_mhz = app.clamp(0, i64::from(u32::MAX)) as u32;
+        } else {
+            self.pinned_cycles = 0;
+        }
         self.step = step as u32;
+    }
+
+    /// Health of the reference for the fault logic. Per cycle.
+    pub fn health(&self) -> MainsHealth {
+        if self.pinned_cycles >= self.lost_after {
+            let (lo, hi) = PLAUSIBLE_MHZ;
+            if (lo..=hi).contains(&self.apparent_mhz) {
+                return MainsHealth::OutOfRange;
+            }
+            return MainsHealth::RateMismatch;
+        }
+        if self.unlocked_cycles >= self.lost_after {
+            return MainsHealth::Lost;
+        }
+        MainsHealth::Ok
+    }
+
+    /// Apparent mains frequency in hertz while pinned at a range limit
+    /// (diagnostics; 0 before any pinned cycle).
+    pub fn apparent_hz(&self) -> f32 {
+        self.apparent_mhz as f32 / 1000.0
     }
 
     fn coarse_verdict(&mut self, e: u32, phi: u32) {
