@@ -7,7 +7,8 @@
 //! comparator) → [`adc`] (quantised codes), plus [`interference`] (ESD,
 //! lamps, drift). [`scenario`] reads TOML scenarios, validates them and
 //! yields ground-truth labels; [`render`] streams codes in blocks;
-//! [`builtin`] holds the named scenarios.
+//! [`builtin`] holds the named scenarios; [`output`] writes CSV, WAV and
+//! label files.
 //!
 //! ```
 //! use humsim::scenario::{Scenario, RenderOptions};

@@ -1466,7 +1466,7 @@ impl Scenario {
         // events
         let mut actions = Vec::new();
         for (i, e) in f.events.iter().enumerate() {
-            actions.push(Self::event(&ctx, i, e, &f, &channels, &mains, &body)?);
+            actions.push(Self::event(&ctx, i, e, &f, &channels, &mains)?);
         }
         if let Some(period) = f.repeat_s {
             for (i, e) in f.events.iter().enumerate() {
@@ -1683,7 +1683,7 @@ impl Scenario {
         })
     }
 
-    #[allow(clippy::too_many_arguments, clippy::too_many_lines)]
+    #[allow(clippy::too_many_lines)]
     fn event(
         ctx: &Ctx,
         i: usize,
@@ -1691,7 +1691,6 @@ impl Scenario {
         f: &ScenarioFile,
         channels: &[Channel],
         mains: &MainsConfig,
-        _body: &Body,
     ) -> Result<Action, ScenarioError> {
         let p = |k: &'static str| KeyPath::item("event", i, k);
         let given: [(&'static str, bool); 17] = [
