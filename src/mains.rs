@@ -224,7 +224,7 @@ impl MainsTracker {
         let full = (i64::from(e) * i64::from(self.step)) >> 32;
         let wanted = i64::from(self.step) + (full >> 1);
         let step = wanted.clamp(i64::from(self.min_step), i64::from(self.max_step));
-        let pinned = (wanted < step || wanted > step) && e.unsigned_abs() >= COARSE_E;
+        let pinned = wanted != step && e.unsigned_abs() >= COARSE_E;
         if pinned {
             self.pinned_cycles = self.pinned_cycles.saturating_add(1);
             // f_mains = f_ref · (1 + e), in mHz.
