@@ -1,5 +1,10 @@
 //! Behaviour of the whole detector on synthetic signals (tests/support).
-#![allow(clippy::unwrap_used, clippy::expect_used, clippy::indexing_slicing, clippy::panic)]
+#![allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::indexing_slicing,
+    clippy::panic
+)]
 
 mod support;
 
@@ -110,7 +115,7 @@ fn ambient_only_with_drift_spikes_and_lamp_steps_gives_no_event() {
     let mut len = 1usize;
     while k + 3 < x.len() {
         for j in 0..len {
-            x[k + j] = if (k / 740) % 2 == 0 { 4095 } else { 0 };
+            x[k + j] = if (k / 740).is_multiple_of(2) { 4095 } else { 0 };
         }
         len = len % 3 + 1;
         k += 740;
