@@ -171,6 +171,10 @@ impl MainsTracker {
     /// Per cycle.
     pub fn end_cycle(&mut self, fund: impl Iterator<Item = Iq>) {
         self.learn(fund);
+        self.settle_lock();
+    }
+
+    fn settle_lock(&mut self) {
         self.unlocked_cycles = if self.locked {
             0
         } else {
@@ -179,14 +183,26 @@ impl MainsTracker {
     }
 
     fn learn(&mut self, fund: impl Iterator<Item = Iq>) {
+        // The reference channel is sticky: another channel takes over only
+        // when it is twice as strong (or the present one is gone), so that
+        // pads of similar strength do not swap every cycle and restart the
+        // phase measurement.
         let mut best: Option<(u8, Iq, u32)> = None;
+        let mut current: Option<(u8, Iq, u32)> = None;
         for (ch, z) in (0u8..).zip(fund) {
             let l1 = z.i.unsigned_abs().saturating_add(z.q.unsigned_abs());
+            if ch == self.prev_ref {
+                current = Some((ch, z, l1));
+            }
             if best.is_none_or(|(_, _, b)| l1 > b) {
                 best = Some((ch, z, l1));
             }
         }
-        let Some((ch, z, l1)) = best else { return };
+        let chosen = match (current, best) {
+            (Some(c), Some(b)) if b.2 / 2 <= c.2 => Some(c),
+            (_, b) => b,
+        };
+        let Some((ch, z, l1)) = chosen else { return };
         if l1 < self.min_l1 || l1 == 0 {
             // Too weak to learn from: hold frequency, restart measuring.
             self.prev_ref = NO_REF;

@@ -147,3 +147,38 @@ pub fn match_presses(
     }
     Ok((lat_on, lat_off))
 }
+
+/// Renders `channels` interleaved channels of hum sharing one mains phase;
+/// `amp(ch, t)` is each channel's hum amplitude in codes.
+pub fn render_panel(
+    channels: usize,
+    rate_hz: f64,
+    seconds: f64,
+    seed: u64,
+    amp: impl Fn(usize, f64) -> f64,
+) -> Vec<u16> {
+    let n = (seconds * rate_hz).round() as usize;
+    let mut rng = Rng::new(seed);
+    let mut out = Vec::with_capacity(n * channels);
+    for k in 0..n {
+        let t = k as f64 / rate_hz;
+        let s = (TAU * 50.0 * t + 0.3).sin();
+        for ch in 0..channels {
+            let x = 2048.0 + amp(ch, t) * s + rng.gauss();
+            out.push(x.round().clamp(0.0, 4095.0) as u16);
+        }
+    }
+    out
+}
+
+/// Every event of a multi-channel run, with its time in seconds.
+pub fn run_panel<const N: usize>(
+    cfg: humsense::Config,
+    samples: &[u16],
+) -> Vec<(f64, humsense::Event)> {
+    let rate = f64::from(cfg.sample_rate_hz);
+    let mut det = humsense::Detector::<N, 0>::new(cfg).expect("valid config");
+    let mut out = Vec::new();
+    det.push_block(samples, |e| out.push((e.sample as f64 / rate, e)));
+    out
+}
