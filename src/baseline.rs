@@ -75,6 +75,12 @@ impl BaselineState {
         self.base_q12 = q8_to_q12(amp_q8);
     }
 
+    /// Starts learning again from the next cycle, with the start-up rates
+    /// (after a fault on the channel has ended).
+    pub fn restart(&mut self) {
+        self.cycles = 0;
+    }
+
     /// Multiplies baseline and noise by `ratio_q8 / 256` (a common ambient
     /// change across a panel), saturating.
     pub fn rescale(&mut self, ratio_q8: u32) {

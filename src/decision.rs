@@ -211,6 +211,21 @@ impl DecisionState {
         )
     }
 
+    /// Ends an active state without waiting for the signal (a fault on the
+    /// channel); returns the off event if the channel was active.
+    pub fn force_off(&mut self, t: &DecisionTuning) -> Option<EventKind> {
+        if !self.active {
+            self.count = 0;
+            return None;
+        }
+        self.release();
+        Some(if t.profile == Profile::Touch {
+            EventKind::TouchOff
+        } else {
+            EventKind::FieldOff
+        })
+    }
+
     fn release(&mut self) {
         self.active = false;
         self.count = 0;

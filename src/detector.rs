@@ -231,8 +231,11 @@ struct ChannelBack<const H: usize> {
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum ChannelState {
-    /// Learning the baseline after start-up; no decisions yet.
+    /// Learning the baseline after start-up or after a fault; no decisions
+    /// yet.
     Learning,
+    /// The input is saturated, stuck or without hum; no decisions.
+    Faulted,
     /// Below the on threshold.
     Idle,
     /// Above the on threshold, debouncing.
@@ -375,7 +378,19 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             let bit = 1u32 << channel;
             let mut event = None;
             let b = c.baseline.baseline_q8();
-            if c.baseline.settled(&self.baseline_t) {
+            let was_faulted = c.faults.present.intersects(SIGNAL_FAULTS);
+            let active = c.decision.active();
+            let present = update_faults(&mut c.faults, amp, *dc, *flat, active, cycle, &pt);
+            if present.intersects(SIGNAL_FAULTS) {
+                // No decisions on a broken input; an active channel is
+                // released first.
+                event = c.decision.force_off(&self.decision_t);
+                active_mask &= !bit;
+            } else if was_faulted {
+                // The fault has ended: learn the baseline afresh.
+                c.baseline.restart();
+                c.baseline.update(amp, &self.baseline_t);
+            } else if c.baseline.settled(&self.baseline_t) {
                 let n = c.baseline.noise_q8();
                 let others_active = active_mask & !bit != 0;
                 let may_on = pt.independent || (winner == Some(channel) && !others_active);
@@ -395,8 +410,6 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 // Start-up: learn only, decide nothing.
                 c.baseline.update(amp, &self.baseline_t);
             }
-            let active = c.decision.active();
-            let present = update_faults(&mut c.faults, amp, *dc, *flat, active, cycle, &pt);
             if event.is_none() {
                 event = fault_change(&mut c.faults, present);
             }
@@ -478,7 +491,9 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         let c = self.ch.get(ch)?;
         let b = c.baseline.baseline_q8();
         let (on_q8, off_q8) = self.decision_t.thresholds(b, c.baseline.noise_q8());
-        let state = if !c.baseline.settled(&self.baseline_t) {
+        let state = if c.faults.present.intersects(SIGNAL_FAULTS) {
+            ChannelState::Faulted
+        } else if !c.baseline.settled(&self.baseline_t) {
             ChannelState::Learning
         } else if c.decision.active() {
             ChannelState::Active
@@ -502,6 +517,11 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         })
     }
 }
+
+/// Faults of the input itself, during which the channel decides nothing
+/// and after which its baseline is learnt afresh.
+const SIGNAL_FAULTS: Faults =
+    Faults(Fault::Saturated.bit() | Fault::Stuck.bit() | Fault::NoHum.bit());
 
 /// Updates a channel's fault counters from one cycle; returns the faults
 /// present now.

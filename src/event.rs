@@ -113,6 +113,11 @@ impl Faults {
         }
     }
 
+    /// Whether the two sets share a fault.
+    pub const fn intersects(self, other: Faults) -> bool {
+        self.0 & other.0 != 0
+    }
+
     /// Whether the set is empty.
     pub const fn is_empty(self) -> bool {
         self.0 == 0

@@ -13,9 +13,11 @@ pub mod fixed;
 pub mod impulse;
 pub mod mains;
 pub mod nco;
+pub mod queue;
 
 pub use config::{Config, MainsMode, PanelMode, Profile};
 pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};
 pub use error::ConfigError;
 pub use event::{Event, EventKind, Fault, Faults};
-pub use mains::MainsSystem;
+pub use mains::{MainsHealth, MainsSystem};
+pub use queue::EventQueue;

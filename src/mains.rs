@@ -23,7 +23,8 @@
 //! `|e| < 1/512` turn (0.2 %, 0.1 Hz at 50 Hz) and falls back to pull-in
 //! after 2 blocks with `|e| > 1/64` turn. The loop learns only from cycles
 //! whose amplitude is at least `track_min_codes`; weaker cycles hold the
-//! frequency and restart the measurement.
+//! frequency and restart the measurement, and after 50 of them in a row
+//! the loop counts as unlocked and starts again with pull-in.
 //!
 //! In [`MainsMode::Auto`] the reference starts at 55 Hz between the two
 //! systems; at the hand-over to fine the system is chosen (below 55 Hz:
@@ -73,6 +74,8 @@ const LOCK_E: u32 = 1 << 23;
 /// Cycles per fine measurement block (a power of two).
 const BLOCK_SHIFT: u32 = 3;
 const NO_REF: u8 = u8::MAX;
+/// Cycles too weak to learn from before the lock is dropped.
+const WEAK_UNLOCK_CYCLES: u16 = 50;
 
 /// Shared oscillator and frequency tracker state (one per detector).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -100,6 +103,8 @@ pub struct MainsTracker {
     system: MainsSystem,
     /// Cycles since the loop was last locked, saturating.
     unlocked_cycles: u16,
+    /// Cycles in a row too weak to learn from, saturating.
+    weak_cycles: u16,
     /// Learning cycles in a row pinned at a range limit.
     pinned_cycles: u16,
     /// Apparent mains frequency of the last pinned cycle, mHz.
@@ -138,6 +143,7 @@ impl MainsTracker {
             locked: false,
             system,
             unlocked_cycles: 0,
+            weak_cycles: 0,
             pinned_cycles: 0,
             apparent_mhz: 0,
             lost_after: cfg.mains_lost_cycles,
@@ -204,10 +210,18 @@ impl MainsTracker {
         };
         let Some((ch, z, l1)) = chosen else { return };
         if l1 < self.min_l1 || l1 == 0 {
-            // Too weak to learn from: hold frequency, restart measuring.
+            // Too weak to learn from: hold frequency, restart measuring;
+            // after a second of that the lock is no longer known.
             self.prev_ref = NO_REF;
+            self.weak_cycles = self.weak_cycles.saturating_add(1);
+            if self.weak_cycles >= WEAK_UNLOCK_CYCLES {
+                self.locked = false;
+                self.fine = false;
+                self.good = 0;
+            }
             return;
         }
+        self.weak_cycles = 0;
         let phi = atan2_turns(z.q.saturating_neg(), z.i);
         let same_ref = self.prev_ref == ch;
         let prev = self.prev_phi;
