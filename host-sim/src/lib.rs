@@ -8,7 +8,7 @@
 //! lamps, drift). [`scenario`] reads TOML scenarios, validates them and
 //! yields ground-truth labels; [`render`] streams codes in blocks;
 //! [`builtin`] holds the named scenarios; [`output`] writes CSV, WAV and
-//! label files.
+//! label files. [`score`] matches detector events to labels.
 //!
 //! ```
 //! use humsim::scenario::{Scenario, RenderOptions};
@@ -32,3 +32,4 @@ pub mod output;
 pub mod render;
 pub mod rng;
 pub mod scenario;
+pub mod score;
