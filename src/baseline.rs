@@ -9,9 +9,14 @@
 //! - afterwards: `b += (a − b) >> rise` when `a > b`, and
 //!   `b −= (b − a) >> fall` when `a < b` (fall ≤ rise: it falls faster).
 //!
-//! The noise estimate `σ̂` is an exponential mean absolute deviation,
-//! `σ̂ += (min(|a − b|, 4σ̂ + 1 code) − σ̂) >> noise_shift` (`>> 3` during
-//! start-up); the clip keeps a step or a touch from inflating it at once.
+//! The noise estimate `σ̂` is an exponential average of a per-cycle noise
+//! sample `d`, `σ̂ += (min(d, 4σ̂ + 1 code) − σ̂) >> noise_shift` (`>> 3`
+//! during start-up); the clip keeps a step or a touch from inflating it at
+//! once. The caller forms `d` from the change of amplitude between
+//! consecutive cycles, scaled so that its mean equals the mean absolute
+//! deviation of the amplitude (see `Backend`): unlike the deviation from
+//! the baseline, it does not grow while the amplitude ramps slowly (an
+//! approach to a conductor) or drifts.
 //!
 //! Start-up convergence: after `startup_cycles` cycles the baseline has
 //! closed all but (3/4)^startup_cycles of its initial error (0.08 % for the
@@ -88,8 +93,9 @@ impl BaselineState {
         self.noise_q12 = crate::fixed::mul_q8(self.noise_q12, ratio_q8);
     }
 
-    /// Learns from one cycle's amplitude (Q8 codes). Per cycle.
-    pub fn update(&mut self, amp_q8: u32, t: &BaselineTuning) {
+    /// Learns from one cycle's amplitude and noise sample (Q8 codes).
+    /// Per cycle.
+    pub fn update(&mut self, amp_q8: u32, noise_q8: u32, t: &BaselineTuning) {
         let a = q8_to_q12(amp_q8);
         let b = self.base_q12;
         let startup = self.cycles < t.startup_cycles;
@@ -107,7 +113,7 @@ impl BaselineState {
                 .noise_q12
                 .saturating_mul(4)
                 .saturating_add(ONE_CODE_Q12);
-            let dev = a.abs_diff(b).min(clip);
+            let dev = q8_to_q12(noise_q8).min(clip);
             let s = if startup { 3 } else { t.noise_shift };
             let n = self.noise_q12;
             self.noise_q12 = if dev > n {
@@ -143,9 +149,9 @@ mod tests {
     #[test]
     fn converges_within_startup() {
         let mut b = BaselineState::new();
-        b.update(0, &T);
+        b.update(0, 0, &T);
         for _ in 0..25 {
-            b.update(100 * 256, &T);
+            b.update(100 * 256, 0, &T);
         }
         // (3/4)^24 of the error left after the seeding cycle.
         let err = 100.0 * 256.0 - b.baseline_q8() as f64;
@@ -157,12 +163,12 @@ mod tests {
         let mut up = BaselineState::new();
         let mut down = BaselineState::new();
         for _ in 0..30 {
-            up.update(100 * 256, &T);
-            down.update(100 * 256, &T);
+            up.update(100 * 256, 0, &T);
+            down.update(100 * 256, 0, &T);
         }
         for _ in 0..16 {
-            up.update(200 * 256, &T);
-            down.update(50 * 256, &T);
+            up.update(200 * 256, 0, &T);
+            down.update(50 * 256, 0, &T);
         }
         let rise = up.baseline_q8() as f64 / 256.0 - 100.0;
         let fall = 100.0 - down.baseline_q8() as f64 / 256.0;
@@ -175,10 +181,28 @@ mod tests {
     }
 
     #[test]
+    fn noise_follows_its_samples_within_the_clip() {
+        let mut b = BaselineState::new();
+        for _ in 0..400 {
+            b.update(100 * 256, 3 * 256, &T);
+        }
+        // An exponential average of a constant converges to it.
+        assert!(
+            (b.noise_q8() as i64 - 3 * 256).abs() < 8,
+            "{}",
+            b.noise_q8()
+        );
+        // One huge sample moves it by at most (4σ + 1 code) >> shift.
+        let before = b.noise_q8();
+        b.update(100 * 256, 1_000 * 256, &T);
+        assert!(b.noise_q8() <= before + (4 * before + 256) / 64 + 1);
+    }
+
+    #[test]
     fn saturates_instead_of_overflowing() {
         let mut b = BaselineState::new();
         for a in [u32::MAX, 0, u32::MAX, 1] {
-            b.update(a, &T);
+            b.update(a, a, &T);
         }
         assert!(b.baseline_q8() > 0);
     }

@@ -25,7 +25,7 @@ use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
 use crate::demod::{DemodState, Iq};
 use crate::error::ConfigError;
 use crate::event::{Event, EventKind, Fault, Faults};
-use crate::fixed::{f32_to_fixed, isqrt_u64};
+use crate::fixed::{f32_to_fixed, isqrt_u64, mul_q8};
 use crate::impulse::ImpulseState;
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
 
@@ -302,8 +302,16 @@ pub struct Backend<const N: usize, const H: usize> {
     decision_t: DecisionTuning,
     panel_t: PanelTuning,
     avg_shift: u8,
+    /// Scales |a_k − a_{k−1}| to the mean absolute deviation of a:
+    /// 1/√(2α) with α = 2^-avg_shift, in Q8. For white noise the change of
+    /// an exponential average has variance 2α times the average's own
+    /// (standard EMA result: var(y) = α/(2−α)·σ², var(Δy) = 2α²/(2−α)·σ²).
+    diff_gain_q8: u32,
     last_sample: u64,
 }
+
+/// `256 · 2^(k/2) / √2` for k = 0..=4 (computed).
+const DIFF_GAIN_Q8: [u32; 5] = [181, 256, 362, 512, 724];
 
 impl<const N: usize, const H: usize> Backend<N, H> {
     /// Validates `cfg` and builds the back end. Never panics.
@@ -339,6 +347,10 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 nohum_cycles: cfg.nohum_cycles,
             },
             avg_shift: cfg.avg_shift,
+            diff_gain_q8: DIFF_GAIN_Q8
+                .get(usize::from(cfg.avg_shift))
+                .copied()
+                .unwrap_or(724),
             last_sample: 0,
         })
     }
@@ -349,14 +361,19 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         self.last_sample = cycle.end_sample;
         let k = self.avg_shift;
         let inputs = cycle.fund.iter().zip(cycle.harm.iter());
-        for (c, (f, h)) in self.ch.iter_mut().zip(inputs) {
+        let mut noise = [0u32; N];
+        for ((c, (f, h)), d) in self.ch.iter_mut().zip(inputs).zip(noise.iter_mut()) {
             average(&mut c.avg, f, k);
             let mut power = c.avg.power();
             for (a, z) in c.avg_h.iter_mut().zip(h.iter()) {
                 average(a, z, k);
                 power = power.saturating_add(a.power());
             }
-            c.amp_q8 = isqrt_u64(power);
+            let amp = isqrt_u64(power);
+            // Noise sample: the change since the last cycle, scaled to a
+            // mean absolute deviation (see `diff_gain_q8`).
+            *d = mul_q8(amp.abs_diff(c.amp_q8), self.diff_gain_q8);
+            c.amp_q8 = amp;
         }
         if N >= 3 {
             self.ambient_rule();
@@ -369,11 +386,8 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             }
         }
         let pt = self.panel_t;
-        let items = self
-            .ch
-            .iter_mut()
-            .zip(cycle.dc.iter().zip(cycle.flat.iter()));
-        for (channel, (c, (dc, flat))) in (0u8..).zip(items) {
+        let extras = cycle.dc.iter().zip(cycle.flat.iter()).zip(noise.iter());
+        for (channel, (c, ((dc, flat), d))) in (0u8..).zip(self.ch.iter_mut().zip(extras)) {
             let amp = c.amp_q8;
             let bit = 1u32 << channel;
             let mut event = None;
@@ -389,14 +403,14 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             } else if was_faulted {
                 // The fault has ended: learn the baseline afresh.
                 c.baseline.restart();
-                c.baseline.update(amp, &self.baseline_t);
+                c.baseline.update(amp, *d, &self.baseline_t);
             } else if c.baseline.settled(&self.baseline_t) {
                 let n = c.baseline.noise_q8();
                 let others_active = active_mask & !bit != 0;
                 let may_on = pt.independent || (winner == Some(channel) && !others_active);
                 let (e, verdict) = c.decision.step(amp, b, n, may_on, &self.decision_t);
                 match verdict {
-                    Verdict::Learn => c.baseline.update(amp, &self.baseline_t),
+                    Verdict::Learn => c.baseline.update(amp, *d, &self.baseline_t),
                     Verdict::Freeze => {}
                     Verdict::Relearn => c.baseline.relearn(amp),
                 }
@@ -408,7 +422,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 event = e;
             } else {
                 // Start-up: learn only, decide nothing.
-                c.baseline.update(amp, &self.baseline_t);
+                c.baseline.update(amp, *d, &self.baseline_t);
             }
             if event.is_none() {
                 event = fault_change(&mut c.faults, present);

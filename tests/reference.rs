@@ -1,7 +1,12 @@
 //! The demodulator checked against sources outside the project: a
 //! general-purpose FFT crate, the Fourier series of the half-wave rectified
 //! sine, and the statistics of the quadrature detector in white noise.
-#![allow(clippy::unwrap_used, clippy::expect_used, clippy::indexing_slicing, clippy::panic)]
+#![allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::indexing_slicing,
+    clippy::panic
+)]
 
 mod support;
 
@@ -204,4 +209,45 @@ fn coherent_averaging_gains_as_an_exponential_average() {
     };
     let ratio = mean_sq(&cfg2) / mean_sq(&cfg0);
     assert!((ratio - 1.0 / 7.0).abs() < 0.01, "variance ratio {ratio}");
+}
+
+#[test]
+fn noise_estimate_is_the_mean_absolute_deviation_of_the_amplitude() {
+    // The back end estimates noise from the change of amplitude between
+    // cycles, scaled by 1/√(2α) for an exponential average with α = 2^-k
+    // (standard EMA result: var(Δy) = 2α·var(y) for white input) and by
+    // √(2/π)/(2/√π) = 1/√2 from E|Δ| to the mean absolute deviation of a
+    // Gaussian. Checked against the empirical MAD of the amplitudes.
+    use humsense::Detector;
+    for k in [0u8, 2] {
+        let mut cfg = fixed_50();
+        cfg.avg_shift = k;
+        let mut rng = Rng::new(u64::from(k) + 40);
+        let x: Vec<u16> = (0..N * 8000)
+            .map(|i| {
+                let th = std::f64::consts::TAU * 50.0 * i as f64 / RATE;
+                (2048.0 + 200.0 * th.sin() + 20.0 * rng.gauss()).round() as u16
+            })
+            .collect();
+        let mut det: Detector = Detector::new(cfg).expect("valid");
+        let mut amps = Vec::new();
+        let mut noise_sum = 0.0;
+        for (i, &s) in x.iter().enumerate() {
+            let _ = det.push(s);
+            if i % N == N - 1 && i > N * 500 {
+                let snap = det.snapshot(0).expect("ch 0");
+                amps.push(f64::from(snap.amplitude_q8) / 256.0);
+                noise_sum += f64::from(snap.noise_q8) / 256.0;
+            }
+        }
+        // The estimate's own average over the run (a single value of an
+        // exponential average with α = 1/64 scatters by about 7 %).
+        let noise = noise_sum / amps.len() as f64;
+        let mean = amps.iter().sum::<f64>() / amps.len() as f64;
+        let mad = amps.iter().map(|a| (a - mean).abs()).sum::<f64>() / amps.len() as f64;
+        assert!(
+            (noise / mad - 1.0).abs() < 0.05,
+            "avg_shift {k}: estimate {noise}, MAD {mad}"
+        );
+    }
 }
