@@ -20,14 +20,16 @@
 //! decision event first, else the next change of its fault set.
 
 use crate::baseline::{BaselineState, BaselineTuning};
-use crate::config::{Config, PanelMode};
+use crate::config::Config;
 use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
 use crate::demod::{DemodState, Iq};
 use crate::error::ConfigError;
-use crate::event::{Event, EventKind, Fault, Faults};
-use crate::fixed::{f32_to_fixed, isqrt_u64, mul_q8};
+use crate::event::{Event, Faults};
+use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
+use crate::fixed::{isqrt_u64, mul_q8};
 use crate::impulse::ImpulseState;
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
+use crate::panel::{strongest, PanelTuning};
 
 /// An integer ADC sample type the detector accepts.
 pub trait AdcSample: Copy {
@@ -188,33 +190,6 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     }
 }
 
-/// Fault counters of one channel (8 bytes).
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-struct FaultState {
-    saturated: u16,
-    stuck: u16,
-    nohum: u16,
-    /// Faults present now.
-    present: Faults,
-    /// Faults reported by events so far.
-    reported: Faults,
-}
-
-/// The fault and panel constants (from [`Config`]).
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-struct PanelTuning {
-    independent: bool,
-    ambient_q8: u32,
-    ambient_inv_q8: u32,
-    floor_q8: u32,
-    saturated_cycles: u16,
-    stuck_cycles: u16,
-    nohum_q8: u32,
-    nohum_cycles: u16,
-}
-
 /// Per-channel state of the per-cycle half.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -301,6 +276,7 @@ pub struct Backend<const N: usize, const H: usize> {
     baseline_t: BaselineTuning,
     decision_t: DecisionTuning,
     panel_t: PanelTuning,
+    fault_t: FaultTuning,
     avg_shift: u8,
     /// Scales |a_k − a_{k−1}| to the mean absolute deviation of a:
     /// 1/√(2α) with α = 2^-avg_shift, in Q8. For white noise the change of
@@ -324,9 +300,8 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             amp_q8: 0,
             baseline: BaselineState::new(),
             decision: DecisionState::new(),
-            faults: FaultState::default(),
+            faults: FaultState::new(),
         };
-        let ambient_q8 = f32_to_fixed(cfg.ambient_ratio, 8).max(257);
         Ok(Self {
             ch: [fresh; N],
             baseline_t: BaselineTuning {
@@ -336,16 +311,8 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 startup_cycles: cfg.startup_cycles,
             },
             decision_t: DecisionTuning::new(cfg),
-            panel_t: PanelTuning {
-                independent: cfg.panel == PanelMode::Independent,
-                ambient_q8,
-                ambient_inv_q8: (1u32 << 16) / ambient_q8,
-                floor_q8: f32_to_fixed(cfg.floor_codes, 8).max(1),
-                saturated_cycles: cfg.fault_saturation_cycles,
-                stuck_cycles: cfg.fault_stuck_cycles,
-                nohum_q8: f32_to_fixed(cfg.nohum_codes, 8),
-                nohum_cycles: cfg.nohum_cycles,
-            },
+            panel_t: PanelTuning::new(cfg),
+            fault_t: FaultTuning::new(cfg),
             avg_shift: cfg.avg_shift,
             diff_gain_q8: DIFF_GAIN_Q8
                 .get(usize::from(cfg.avg_shift))
@@ -378,7 +345,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         if N >= 3 {
             self.ambient_rule();
         }
-        let winner = self.strongest();
+        let winner = strongest(self.rises().into_iter());
         let mut active_mask: u32 = 0;
         for (i, c) in self.ch.iter().enumerate() {
             if c.decision.active() {
@@ -392,9 +359,16 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             let bit = 1u32 << channel;
             let mut event = None;
             let b = c.baseline.baseline_q8();
-            let was_faulted = c.faults.present.intersects(SIGNAL_FAULTS);
-            let active = c.decision.active();
-            let present = update_faults(&mut c.faults, amp, *dc, *flat, active, cycle, &pt);
+            let was_faulted = c.faults.present().intersects(SIGNAL_FAULTS);
+            let input = FaultInput {
+                amp_q8: amp,
+                dc: *dc,
+                flat: *flat,
+                active: c.decision.active(),
+                rails: cycle.rails,
+                health: cycle.health,
+            };
+            let present = c.faults.update(&input, &self.fault_t);
             if present.intersects(SIGNAL_FAULTS) {
                 // No decisions on a broken input; an active channel is
                 // released first.
@@ -425,7 +399,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 c.baseline.update(amp, *d, &self.baseline_t);
             }
             if event.is_none() {
-                event = fault_change(&mut c.faults, present);
+                event = c.faults.next_change();
             }
             if let Some(kind) = event {
                 emit(Event {
@@ -439,65 +413,42 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         }
     }
 
-    /// Panel rule for a common ambient change: the weakest quarter of the
-    /// eligible channels (settled, with hum, not stuck) rising by at least
-    /// `ambient_ratio` together, or the strongest quarter falling by it, is
-    /// ambient; every settled baseline is rescaled by that ratio.
-    fn ambient_rule(&mut self) {
-        let mut ratios = [0u32; N];
-        let mut count = 0usize;
-        for c in self.ch.iter() {
-            let eligible = c.baseline.settled(&self.baseline_t)
-                && !c.faults.present.contains(Fault::NoHum)
-                && !c.faults.present.contains(Fault::Stuck);
-            if !eligible {
-                continue;
-            }
-            let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
-            if let Some(slot) = ratios.get_mut(count) {
-                *slot = ratio_q8(c.amp_q8, b);
-                count += 1;
+    /// Rises of the channels over their baselines (Q8), for the panel
+    /// rules: `None` for channels not deciding (learning or faulted).
+    fn rises(&self) -> [Option<u32>; N] {
+        let mut out = [None; N];
+        for (r, c) in out.iter_mut().zip(self.ch.iter()) {
+            let deciding = c.baseline.settled(&self.baseline_t)
+                && !c.faults.present().intersects(SIGNAL_FAULTS);
+            if deciding {
+                let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
+                *r = Some(ratio_q8(c.amp_q8, b));
             }
         }
-        if count < 3 {
-            return;
-        }
-        let Some(sorted) = ratios.get_mut(..count) else {
-            return;
-        };
-        sorted.sort_unstable();
-        let k = (count - 1) / 4;
-        let low = sorted.get(k).copied().unwrap_or(256);
-        let high = sorted.get(count - 1 - k).copied().unwrap_or(256);
-        let factor = if low >= self.panel_t.ambient_q8 {
-            low
-        } else if high <= self.panel_t.ambient_inv_q8 {
-            high.max(1)
-        } else {
-            return;
-        };
-        for c in self.ch.iter_mut() {
-            if c.baseline.settled(&self.baseline_t) {
-                c.baseline.rescale(factor);
-            }
-        }
+        out
     }
 
-    /// The channel with the largest rise over its own baseline, among
-    /// settled channels.
-    fn strongest(&self) -> Option<u8> {
-        let mut best: Option<(u8, u32)> = None;
-        for (i, c) in (0u8..).zip(self.ch.iter()) {
-            if !c.baseline.settled(&self.baseline_t) {
-                continue;
-            }
-            let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
-            let r = ratio_q8(c.amp_q8, b);
-            if best.is_none_or(|(_, rb)| r > rb) {
-                best = Some((i, r));
+    /// The ambient rule: rescale every settled baseline by the common
+    /// ratio when the panel rose or fell together.
+    fn ambient_rule(&mut self) {
+        let mut ratios = [0u32; N];
+        let mut n = 0usize;
+        for r in self.rises().into_iter().flatten() {
+            if let Some(slot) = ratios.get_mut(n) {
+                *slot = r;
+                n += 1;
             }
         }
-        best.map(|(i, _)| i)
+        let Some(eligible) = ratios.get_mut(..n) else {
+            return;
+        };
+        if let Some(factor) = self.panel_t.common_ratio(eligible) {
+            for c in self.ch.iter_mut() {
+                if c.baseline.settled(&self.baseline_t) {
+                    c.baseline.rescale(factor);
+                }
+            }
+        }
     }
 
     /// A view of channel `ch`, or `None` past the last channel.
@@ -505,7 +456,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         let c = self.ch.get(ch)?;
         let b = c.baseline.baseline_q8();
         let (on_q8, off_q8) = self.decision_t.thresholds(b, c.baseline.noise_q8());
-        let state = if c.faults.present.intersects(SIGNAL_FAULTS) {
+        let state = if c.faults.present().intersects(SIGNAL_FAULTS) {
             ChannelState::Faulted
         } else if !c.baseline.settled(&self.baseline_t) {
             ChannelState::Learning
@@ -524,76 +475,12 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             off_q8,
             state,
             level: c.decision.level(),
-            faults: c.faults.present,
+            faults: c.faults.present(),
             mains_hz: 0.0,
             mains_locked: false,
             samples: self.last_sample.wrapping_add(1),
         })
     }
-}
-
-/// Faults of the input itself, during which the channel decides nothing
-/// and after which its baseline is learnt afresh.
-const SIGNAL_FAULTS: Faults =
-    Faults(Fault::Saturated.bit() | Fault::Stuck.bit() | Fault::NoHum.bit());
-
-/// Updates a channel's fault counters from one cycle; returns the faults
-/// present now.
-fn update_faults<const N: usize, const H: usize>(
-    f: &mut FaultState,
-    amp_q8: u32,
-    dc: i32,
-    flat: bool,
-    active: bool,
-    cycle: &Cycle<N, H>,
-    t: &PanelTuning,
-) -> Faults {
-    let (lo, hi) = cycle.rails;
-    let span = hi.saturating_sub(lo).max(1);
-    let full = span.unsigned_abs();
-    // A full-scale sine has amplitude span/2, that is span·128 in Q8;
-    // beyond 0.52 of it the input must be clipping at both rails.
-    let swing_on = amp_q8 > full.saturating_mul(67);
-    let swing_off = amp_q8 < full.saturating_mul(61);
-    let top_on = dc >= hi - span / 32;
-    let top_off = dc < hi - span / 16;
-    if active || (swing_off && top_off) {
-        f.saturated = 0;
-    } else if swing_on || top_on {
-        f.saturated = f.saturated.saturating_add(1);
-    }
-    f.stuck = if flat { f.stuck.saturating_add(1) } else { 0 };
-    if amp_q8 < t.nohum_q8 {
-        f.nohum = f.nohum.saturating_add(1);
-    } else if amp_q8 > t.nohum_q8.saturating_mul(2) {
-        f.nohum = 0;
-    }
-    let stuck = f.stuck >= t.stuck_cycles;
-    let present = Faults::NONE
-        .with(Fault::Saturated, f.saturated >= t.saturated_cycles)
-        .with(Fault::Stuck, stuck)
-        .with(Fault::NoHum, !stuck && f.nohum >= t.nohum_cycles);
-    f.present = match cycle.health {
-        MainsHealth::Ok => present,
-        MainsHealth::Lost => present.with(Fault::MainsLost, true),
-        MainsHealth::OutOfRange => present.with(Fault::MainsOutOfRange, true),
-        MainsHealth::RateMismatch => present.with(Fault::RateMismatch, true),
-    };
-    f.present
-}
-
-/// The next fault event to report, if the present set differs from the
-/// reported one: new faults first, then clears, each in bit order.
-fn fault_change(f: &mut FaultState, present: Faults) -> Option<EventKind> {
-    if let Some(new) = present.first_not_in(f.reported) {
-        f.reported = f.reported.with(new, true);
-        return Some(EventKind::Fault(new));
-    }
-    if let Some(gone) = f.reported.first_not_in(present) {
-        f.reported = f.reported.with(gone, false);
-        return Some(EventKind::FaultClear(gone));
-    }
-    None
 }
 
 /// Complex exponential average `a += (z − a) >> k` (k = 0: `a = z`).

@@ -9,10 +9,12 @@ pub mod demod;
 pub mod detector;
 pub mod error;
 pub mod event;
+pub mod fault;
 pub mod fixed;
 pub mod impulse;
 pub mod mains;
 pub mod nco;
+pub mod panel;
 pub mod queue;
 
 pub use config::{Config, MainsMode, PanelMode, Profile};

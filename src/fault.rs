@@ -1,0 +1,204 @@
+//! Fault detection per channel, once per mains cycle.
+//!
+//! With amplitude `a` (Q8 codes), cycle mean `m` and the ADC rails
+//! `lo..=hi` (span `s = hi − lo`):
+//!
+//! - **saturated**: `a > 0.52 · s/2` (a sine clipped at both rails; an
+//!   unclipped full-scale sine has `a = s/2`) or `m ≥ hi − s/32` (sitting at
+//!   the top rail), for `fault_saturation_cycles` cycles in a row while the
+//!   channel is not active; cleared when `a < 0.48 · s/2` and
+//!   `m < hi − s/16`, or when the channel is active. Sitting at the bottom
+//!   rail is what a single-supply front end biased at 0 V does at rest, so
+//!   it is not saturation (a bottom rail with no movement at all is stuck).
+//! - **stuck**: every sample of the cycle had one code, for
+//!   `fault_stuck_cycles` cycles; cleared by the first cycle that moves.
+//! - **no hum**: `a < nohum_codes` for `nohum_cycles` cycles (not while
+//!   stuck); cleared once `a > 2 · nohum_codes`.
+//! - **mains** faults mirror [`MainsHealth`].
+//!
+//! Saturated, stuck and no-hum are faults of the input itself
+//! ([`SIGNAL_FAULTS`]): the channel decides nothing while one is present
+//! and learns its baseline afresh when it ends.
+
+use crate::config::Config;
+use crate::event::{EventKind, Fault, Faults};
+use crate::fixed::f32_to_fixed;
+use crate::mains::MainsHealth;
+
+/// Faults of the input itself.
+pub const SIGNAL_FAULTS: Faults =
+    Faults(Fault::Saturated.bit() | Fault::Stuck.bit() | Fault::NoHum.bit());
+
+/// The fault stage's constants (from [`Config`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FaultTuning {
+    saturated_cycles: u16,
+    stuck_cycles: u16,
+    nohum_q8: u32,
+    nohum_cycles: u16,
+}
+
+impl FaultTuning {
+    /// Converts a validated config.
+    pub fn new(cfg: &Config) -> Self {
+        Self {
+            saturated_cycles: cfg.fault_saturation_cycles,
+            stuck_cycles: cfg.fault_stuck_cycles,
+            nohum_q8: f32_to_fixed(cfg.nohum_codes, 8),
+            nohum_cycles: cfg.nohum_cycles,
+        }
+    }
+}
+
+/// What the fault stage sees of one channel's cycle.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct FaultInput {
+    /// Amplitude, Q8 codes.
+    pub amp_q8: u32,
+    /// Mean level, codes.
+    pub dc: i32,
+    /// Every sample of the cycle had one code.
+    pub flat: bool,
+    /// The channel is active (a touch may saturate).
+    pub active: bool,
+    /// ADC rails.
+    pub rails: (i32, i32),
+    /// The mains reference's health.
+    pub health: MainsHealth,
+}
+
+/// Per-channel fault counters and sets (8 bytes).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FaultState {
+    saturated: u16,
+    stuck: u16,
+    nohum: u16,
+    present: Faults,
+    reported: Faults,
+}
+
+impl FaultState {
+    /// No fault.
+    pub const fn new() -> Self {
+        Self {
+            saturated: 0,
+            stuck: 0,
+            nohum: 0,
+            present: Faults::NONE,
+            reported: Faults::NONE,
+        }
+    }
+
+    /// Faults present after the latest cycle.
+    pub const fn present(&self) -> Faults {
+        self.present
+    }
+
+    /// Updates the counters from one cycle; returns the faults present now.
+    pub fn update(&mut self, x: &FaultInput, t: &FaultTuning) -> Faults {
+        let (lo, hi) = x.rails;
+        let span = hi.saturating_sub(lo).max(1);
+        let full = span.unsigned_abs();
+        // span/2 of amplitude is span·128 in Q8: 0.52 of it is span·66.6.
+        let swing_on = x.amp_q8 > full.saturating_mul(67);
+        let swing_off = x.amp_q8 < full.saturating_mul(61);
+        let top_on = x.dc >= hi - span / 32;
+        let top_off = x.dc < hi - span / 16;
+        if x.active || (swing_off && top_off) {
+            self.saturated = 0;
+        } else if swing_on || top_on {
+            self.saturated = self.saturated.saturating_add(1);
+        }
+        self.stuck = if x.flat {
+            self.stuck.saturating_add(1)
+        } else {
+            0
+        };
+        if x.amp_q8 < t.nohum_q8 {
+            self.nohum = self.nohum.saturating_add(1);
+        } else if x.amp_q8 > t.nohum_q8.saturating_mul(2) {
+            self.nohum = 0;
+        }
+        let stuck = self.stuck >= t.stuck_cycles;
+        let present = Faults::NONE
+            .with(Fault::Saturated, self.saturated >= t.saturated_cycles)
+            .with(Fault::Stuck, stuck)
+            .with(Fault::NoHum, !stuck && self.nohum >= t.nohum_cycles);
+        self.present = match x.health {
+            MainsHealth::Ok => present,
+            MainsHealth::Lost => present.with(Fault::MainsLost, true),
+            MainsHealth::OutOfRange => present.with(Fault::MainsOutOfRange, true),
+            MainsHealth::RateMismatch => present.with(Fault::RateMismatch, true),
+        };
+        self.present
+    }
+
+    /// The next fault event to report, if the present set differs from the
+    /// reported one: new faults first, then clears, each in bit order.
+    pub fn next_change(&mut self) -> Option<EventKind> {
+        if let Some(new) = self.present.first_not_in(self.reported) {
+            self.reported = self.reported.with(new, true);
+            return Some(EventKind::Fault(new));
+        }
+        if let Some(gone) = self.reported.first_not_in(self.present) {
+            self.reported = self.reported.with(gone, false);
+            return Some(EventKind::FaultClear(gone));
+        }
+        None
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn input(amp_codes: u32, dc: i32, flat: bool) -> FaultInput {
+        FaultInput {
+            amp_q8: amp_codes * 256,
+            dc,
+            flat,
+            active: false,
+            rails: (0, 4095),
+            health: MainsHealth::Ok,
+        }
+    }
+
+    #[test]
+    fn reports_one_change_per_call_in_bit_order() {
+        let t = FaultTuning::new(&Config::touch());
+        let mut f = FaultState::new();
+        let mut x = input(0, 4095, true);
+        x.health = MainsHealth::Lost;
+        for _ in 0..60 {
+            f.update(&x, &t);
+        }
+        assert_eq!(f.next_change(), Some(EventKind::Fault(Fault::Saturated)));
+        assert_eq!(f.next_change(), Some(EventKind::Fault(Fault::Stuck)));
+        assert_eq!(f.next_change(), Some(EventKind::Fault(Fault::MainsLost)));
+        assert_eq!(f.next_change(), None);
+        f.update(&input(30, 2048, false), &t);
+        assert_eq!(
+            f.next_change(),
+            Some(EventKind::FaultClear(Fault::Saturated))
+        );
+        assert_eq!(f.next_change(), Some(EventKind::FaultClear(Fault::Stuck)));
+        assert_eq!(
+            f.next_change(),
+            Some(EventKind::FaultClear(Fault::MainsLost))
+        );
+        assert_eq!(f.next_change(), None);
+    }
+
+    #[test]
+    fn resting_at_the_bottom_rail_is_not_saturation() {
+        // A single-supply front end at rest: mean a few codes above 0.
+        let t = FaultTuning::new(&Config::touch());
+        let mut f = FaultState::new();
+        for _ in 0..1000 {
+            f.update(&input(20, 6, false), &t);
+        }
+        assert!(f.present().is_empty(), "{:?}", f.present());
+    }
+}
