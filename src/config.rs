@@ -117,8 +117,8 @@ pub struct Config {
     pub min_active_cycles: u16,
     /// Longest active time in cycles before the channel is declared stuck:
     /// an off event, and the baseline re-learns from the present amplitude
-    /// (0 = never).
-    pub max_active_cycles: u32,
+    /// (0 = never; at most 65 535, 21 minutes at 50 Hz).
+    pub max_active_cycles: u16,
     /// Number of graded levels in the field profile (1 to 16; the touch
     /// profile ignores it).
     pub levels: u8,

@@ -36,7 +36,7 @@ pub struct DecisionTuning {
     debounce_on: u8,
     debounce_off: u8,
     min_active: u16,
-    max_active: u32,
+    max_active: u16,
     levels: u8,
     /// Level hysteresis factor h in Q8 (below 256).
     hyst_q8: u32,
@@ -107,11 +107,11 @@ pub enum Verdict {
     Relearn,
 }
 
-/// Per-channel decision state (8 bytes of data).
+/// Per-channel decision state (5 bytes of data).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct DecisionState {
-    active_cycles: u32,
+    active_cycles: u16,
     count: u8,
     level: u8,
     active: bool,
@@ -195,7 +195,7 @@ impl DecisionState {
         }
         if a < off {
             self.count = self.count.saturating_add(1);
-            if self.count >= t.debounce_off && self.active_cycles >= u32::from(t.min_active) {
+            if self.count >= t.debounce_off && self.active_cycles >= t.min_active {
                 self.release();
                 return (Some(off_kind), Verdict::Freeze);
             }

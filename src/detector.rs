@@ -22,7 +22,7 @@
 use crate::baseline::{BaselineState, BaselineTuning};
 use crate::config::Config;
 use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
-use crate::demod::{DemodState, Iq};
+use crate::demod::{DemodState, DemodTuning, Iq};
 use crate::error::ConfigError;
 use crate::event::{Event, Faults};
 use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
@@ -36,23 +36,25 @@ pub trait AdcSample: Copy {
     /// Whether codes are two's complement around 0 (`i16`) rather than
     /// offset binary from 0 (`u16`); sets the rails for saturation.
     const SIGNED: bool;
-    /// The code as `i32`.
-    fn code(self) -> i32;
+    /// The code in offset binary: `u16` as it is, `i16` plus 32 768 (one
+    /// instruction: the sign bit flipped). The whole pipeline works on
+    /// offset-binary codes.
+    fn offset_code(self) -> u16;
 }
 
 impl AdcSample for u16 {
     const SIGNED: bool = false;
     #[inline(always)]
-    fn code(self) -> i32 {
-        i32::from(self)
+    fn offset_code(self) -> u16 {
+        self
     }
 }
 
 impl AdcSample for i16 {
     const SIGNED: bool = true;
     #[inline(always)]
-    fn code(self) -> i32 {
-        i32::from(self)
+    fn offset_code(self) -> u16 {
+        (self as u16) ^ 0x8000
     }
 }
 
@@ -73,13 +75,15 @@ pub struct Cycle<const N: usize, const H: usize> {
     pub fund: [Iq; N],
     /// Harmonic I/Q per channel (orders 2 to H + 1), Q8 codes.
     pub harm: [[Iq; H]; N],
-    /// Mean input level per channel over the cycle, ADC codes.
-    pub dc: [i32; N],
+    /// Mean input level per channel over the cycle, offset-binary codes
+    /// (`i16` input plus 32 768).
+    pub dc: [u16; N],
     /// Per channel: every sample of the cycle had the same code.
     pub flat: [bool; N],
     /// Health of the mains reference after this cycle.
     pub health: MainsHealth,
-    /// Lowest and highest code of the ADC (the rails), for saturation.
+    /// Lowest and highest code of the ADC (the rails) in offset binary, for
+    /// saturation.
     pub rails: (i32, i32),
 }
 
@@ -91,10 +95,12 @@ pub struct Frontend<const N: usize, const H: usize> {
     tracker: MainsTracker,
     impulse: [ImpulseState; N],
     demod: [DemodState<H>; N],
+    demod_t: DemodTuning,
     next_sample: u64,
     spike_max_len: u8,
     spike_floor: u16,
     adc_bits: u8,
+    signed: bool,
 }
 
 impl<const N: usize, const H: usize> Frontend<N, H> {
@@ -102,14 +108,23 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     pub fn new(cfg: &Config) -> Result<Self, ConfigError> {
         const { assert!(N >= 1 && N <= MAX_CHANNELS && H <= MAX_HARMONICS) };
         cfg.validate(H)?;
+        let tracker = MainsTracker::new(cfg);
+        // Longest possible cycle: the lowest trackable frequency, plus one
+        // sample for the wrap.
+        let n_max = tracker.max_cycle_samples();
+        // Mid-scale of an unsigned converter; the first cycle's mean
+        // replaces it.
+        let mid = 1u16 << (cfg.adc_bits.clamp(1, 16) - 1);
         Ok(Self {
-            tracker: MainsTracker::new(cfg),
+            tracker,
             impulse: [ImpulseState::new(); N],
-            demod: [DemodState::new(); N],
+            demod: [DemodState::new(mid); N],
+            demod_t: DemodTuning::new(cfg.adc_bits, n_max),
             next_sample: 0,
             spike_max_len: cfg.spike_max_len,
             spike_floor: cfg.spike_floor_codes,
             adc_bits: cfg.adc_bits,
+            signed: false,
         })
     }
 
@@ -117,21 +132,13 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     /// sample completed a mains cycle. Never panics.
     #[inline]
     pub fn push_frame<S: AdcSample>(&mut self, frame: &[S; N]) -> Option<Cycle<N, H>> {
-        self.push_codes(frame.iter().map(|x| x.code()), S::SIGNED)
-    }
-
-    #[inline]
-    fn push_codes(
-        &mut self,
-        codes: impl Iterator<Item = i32>,
-        signed: bool,
-    ) -> Option<Cycle<N, H>> {
         let phase = self.tracker.phase();
         let max_len = self.spike_max_len;
+        let t = self.demod_t;
         let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
-        for (x, (gate, dem)) in codes.zip(stages) {
-            let v = gate.filter(x, max_len);
-            dem.push(v, phase);
+        for (x, (gate, dem)) in frame.iter().zip(stages) {
+            let v = gate.filter(x.offset_code(), max_len);
+            dem.push(v, phase, &t);
         }
         let index = self.next_sample;
         self.next_sample = index.wrapping_add(1);
@@ -139,14 +146,15 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         if n == 0 {
             return None;
         }
-        Some(self.end_cycle(index, n, signed))
+        Some(self.end_cycle(index, n, S::SIGNED))
     }
 
     #[inline(never)]
     fn end_cycle(&mut self, index: u64, n: u32, signed: bool) -> Cycle<N, H> {
+        self.signed = signed;
         let span = 1i32 << self.adc_bits;
         let rails = if signed {
-            (-span / 2, span / 2 - 1)
+            (32_768 - span / 2, 32_767 + span / 2)
         } else {
             (0, span - 1)
         };
@@ -164,7 +172,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let outs = cycle.fund.iter_mut().zip(cycle.harm.iter_mut());
         let extras = cycle.dc.iter_mut().zip(cycle.flat.iter_mut());
         for ((dem, gate), ((f, h), (dc, flat))) in stages.zip(outs.zip(extras)) {
-            (*f, *h) = dem.end_cycle(n);
+            (*f, *h) = dem.end_cycle(n, &self.demod_t);
             *dc = dem.dc();
             *flat = gate.end_cycle(self.spike_max_len, self.spike_floor);
         }
@@ -183,10 +191,11 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         self.next_sample
     }
 
-    /// Mean input level of channel `ch` over its last cycle, ADC codes, or
-    /// `None` past the last channel.
+    /// Mean input level of channel `ch` over its last cycle, in the input's
+    /// own codes, or `None` past the last channel.
     pub fn dc(&self, ch: usize) -> Option<i32> {
-        self.demod.get(ch).map(DemodState::dc)
+        let offset = if self.signed { 32_768 } else { 0 };
+        self.demod.get(ch).map(|d| i32::from(d.dc()) - offset)
     }
 }
 
@@ -362,7 +371,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             let was_faulted = c.faults.present().intersects(SIGNAL_FAULTS);
             let input = FaultInput {
                 amp_q8: amp,
-                dc: *dc,
+                dc: i32::from(*dc),
                 flat: *flat,
                 active: c.decision.active(),
                 rails: cycle.rails,
@@ -516,8 +525,6 @@ fn average(a: &mut Iq, z: &Iq, k: u8) {
 pub struct Detector<const N: usize = 1, const H: usize = 0> {
     front: Frontend<N, H>,
     back: Backend<N, H>,
-    carry: [i32; N],
-    carry_len: u8,
 }
 
 impl<const N: usize, const H: usize> Detector<N, H> {
@@ -527,8 +534,6 @@ impl<const N: usize, const H: usize> Detector<N, H> {
         Ok(Self {
             front: Frontend::new(&config)?,
             back: Backend::new(&config)?,
-            carry: [0; N],
-            carry_len: 0,
         })
     }
 
@@ -542,39 +547,24 @@ impl<const N: usize, const H: usize> Detector<N, H> {
     }
 
     /// Takes a block of interleaved samples (`ch0, ch1, …, ch0, ch1, …`),
-    /// for example a DMA buffer; calls `emit` for each event. A trailing
-    /// partial frame is kept and completed by the next call, so block
-    /// lengths need not be multiples of `N`. Never panics, never allocates.
-    pub fn push_block<S: AdcSample>(&mut self, samples: &[S], mut emit: impl FnMut(Event)) {
-        let mut rest = samples;
-        // Complete a partial frame left by the previous call.
-        while self.carry_len > 0 {
-            let Some((first, tail)) = rest.split_first() else {
-                return;
-            };
-            if let Some(slot) = self.carry.get_mut(usize::from(self.carry_len)) {
-                *slot = first.code();
-            }
-            rest = tail;
-            self.carry_len += 1;
-            if usize::from(self.carry_len) == N {
-                self.carry_len = 0;
-                let frame = self.carry;
-                if let Some(cycle) = self.front.push_codes(frame.into_iter(), S::SIGNED) {
-                    self.back.process(&cycle, &mut emit);
-                }
-            }
-        }
-        let mut chunks = rest.chunks_exact(N);
+    /// for example a DMA buffer; calls `emit` for each event. Returns how
+    /// many trailing samples it did not take because they do not make a
+    /// whole frame (0 when the block length is a multiple of `N`, as DMA
+    /// buffers of a scanning ADC are): nothing is dropped silently, and the
+    /// caller can hand them over again at the front of the next block.
+    /// Never panics, never allocates.
+    pub fn push_block<S: AdcSample>(
+        &mut self,
+        samples: &[S],
+        mut emit: impl FnMut(Event),
+    ) -> usize {
+        let mut chunks = samples.chunks_exact(N);
         for chunk in &mut chunks {
             if let Ok(frame) = <&[S; N]>::try_from(chunk) {
                 self.push_frame(frame, &mut emit);
             }
         }
-        for (slot, x) in self.carry.iter_mut().zip(chunks.remainder()) {
-            *slot = x.code();
-            self.carry_len += 1;
-        }
+        chunks.remainder().len()
     }
 
     /// A view of channel `ch` after its latest cycle (amplitude, baseline,

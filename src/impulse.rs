@@ -8,29 +8,28 @@
 //! The limit is set once per mains cycle from the largest accepted step of
 //! the cycle before:
 //!
-//! `limit = (spike_max_len + 1) · max_step + floor`
+//! `limit = min((spike_max_len + 1) · max_step + floor, 65 535)`
 //!
 //! The factor `spike_max_len + 1` lets the true signal move for that many
 //! held samples and still be accepted when the hold ends. A sinusoid of
 //! amplitude A with n samples per cycle steps at most 2πA/n per sample, so a
 //! full-scale spike on ambient hum is held, while a touch that raises the hum
 //! tenfold opens the gate within one cycle (the accepted steps of that cycle
-//! set the next limit).
+//! set the next limit). Codes are offset binary (`u16`), so every step fits
+//! `u16`. The first cycle accepts everything.
 
-/// Per-channel state of the impulse gate (12 bytes).
+/// Per-channel state of the impulse gate (8 bytes).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ImpulseState {
-    /// Last accepted sample, ADC codes.
-    last: i32,
-    /// Present gate limit in codes; `u32::MAX` accepts everything (start-up).
-    limit: u32,
-    /// Largest accepted step in the present cycle, codes, saturated at 2^16.
+    /// Last accepted sample, offset-binary code.
+    last: u16,
+    /// Present gate limit in codes; `u16::MAX` accepts everything.
+    limit: u16,
+    /// Largest accepted step in the present cycle, codes.
     max_step: u16,
     /// Samples held in a row.
     run: u8,
-    /// Whether `last` holds a sample yet.
-    primed: bool,
 }
 
 impl ImpulseState {
@@ -38,32 +37,25 @@ impl ImpulseState {
     pub const fn new() -> Self {
         Self {
             last: 0,
-            limit: u32::MAX,
+            limit: u16::MAX,
             max_step: 0,
             run: 0,
-            primed: false,
         }
     }
 
     /// Passes one sample through the gate and returns the sample to
     /// demodulate (the input, or the held sample). Never panics.
     #[inline(always)]
-    pub fn filter(&mut self, x: i32, max_len: u8) -> i32 {
+    pub fn filter(&mut self, x: u16, max_len: u8) -> u16 {
         let step = x.abs_diff(self.last);
-        if step > self.limit && self.run < max_len && self.primed {
+        if step > self.limit && self.run < max_len {
             self.run += 1;
             return self.last;
         }
         self.run = 0;
         self.last = x;
-        if !self.primed {
-            // The first sample has no step to measure.
-            self.primed = true;
-            return x;
-        }
-        let s = if step > 0xffff { 0xffff } else { step as u16 };
-        if s > self.max_step {
-            self.max_step = s;
+        if step > self.max_step {
+            self.max_step = step;
         }
         x
     }
@@ -75,13 +67,14 @@ impl ImpulseState {
     pub fn end_cycle(&mut self, max_len: u8, floor: u16) -> bool {
         let factor = u32::from(max_len) + 1;
         let flat = self.max_step == 0;
-        self.limit = u32::from(self.max_step) * factor + u32::from(floor);
+        let limit = u32::from(self.max_step) * factor + u32::from(floor);
+        self.limit = if limit > 0xffff { 0xffff } else { limit as u16 };
         self.max_step = 0;
         flat
     }
 
-    /// The present gate limit in codes (`u32::MAX` before the first cycle).
-    pub const fn limit(&self) -> u32 {
+    /// The present gate limit in codes (`u16::MAX` before the first cycle).
+    pub const fn limit(&self) -> u16 {
         self.limit
     }
 }
@@ -90,7 +83,7 @@ impl ImpulseState {
 mod tests {
     use super::*;
 
-    fn run_cycle(g: &mut ImpulseState, xs: &[i32], out: &mut [i32]) {
+    fn run_cycle(g: &mut ImpulseState, xs: &[u16], out: &mut [u16]) {
         for (x, o) in xs.iter().zip(out.iter_mut()) {
             *o = g.filter(*x, 3);
         }
@@ -100,12 +93,15 @@ mod tests {
     #[test]
     fn holds_short_spikes_and_passes_long_steps() {
         let mut g = ImpulseState::new();
-        let flat = [100i32; 20];
-        let mut out = [0i32; 20];
+        let flat = [100u16; 20];
+        let mut out = [0u16; 20];
+        // The first cycle's first step (from 0) sets a wide limit; the
+        // second flat cycle brings it down to the floor.
+        run_cycle(&mut g, &flat, &mut out);
         run_cycle(&mut g, &flat, &mut out);
         assert_eq!(g.limit(), 4);
         // A three-sample full-scale spike is held at 100.
-        let mut spike = [100i32; 20];
+        let mut spike = [100u16; 20];
         spike[5] = 4095;
         spike[6] = 4095;
         spike[7] = 0;
@@ -113,7 +109,7 @@ mod tests {
         assert!(out.iter().all(|v| *v == 100), "{out:?}");
         // A four-sample disturbance is longer than the gate allows: the
         // fourth sample passes, and the return step is then held in turn.
-        let mut long = [100i32; 20];
+        let mut long = [100u16; 20];
         long[2..6].copy_from_slice(&[3000, 3000, 3000, 3000]);
         run_cycle(&mut g, &long, &mut out);
         assert_eq!(
@@ -125,14 +121,14 @@ mod tests {
     #[test]
     fn extremes_do_not_overflow() {
         let mut g = ImpulseState::new();
-        for x in [i32::MIN, i32::MAX, 0, i32::MIN] {
+        for x in [0, u16::MAX, 0, u16::MAX] {
             let _ = g.filter(x, 8);
         }
         assert!(!g.end_cycle(8, u16::MAX));
-        assert_eq!(g.limit(), 0xffff * 9 + 0xffff);
+        assert_eq!(g.limit(), u16::MAX);
         // A cycle of one repeated code is flat.
         for _ in 0..10 {
-            let _ = g.filter(i32::MIN, 8);
+            let _ = g.filter(u16::MAX, 8);
         }
         assert!(g.end_cycle(8, 1));
     }

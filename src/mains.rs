@@ -150,6 +150,13 @@ impl MainsTracker {
         }
     }
 
+    /// Most samples a cycle can have: at the lowest frequency the tracker
+    /// may reach (in either system before the automatic choice), plus one.
+    pub const fn max_cycle_samples(&self) -> u32 {
+        let min_step = if self.min_step == 0 { 1 } else { self.min_step };
+        ((1u64 << 32) / min_step as u64) as u32 + 2
+    }
+
     /// Reference phase for the present sample (before [`advance`](Self::advance)).
     #[inline(always)]
     pub const fn phase(&self) -> u32 {

@@ -104,7 +104,7 @@ fn any_config() -> impl Strategy<Value = Config> {
         1u8..=255,
         1u8..=255,
         any::<bool>(),
-        0u32..100,
+        0u16..100,
     )
         .prop_map(
             |(rate, bits, spike, avg, rise, noise, don, doff, field, maxa)| {
@@ -148,7 +148,8 @@ proptest! {
         }
     }
 
-    /// Splitting a block anywhere gives the same events as one call.
+    /// Splitting a block anywhere gives the same events as one call, and a
+    /// partial frame is returned to the caller, not dropped.
     #[test]
     fn block_boundaries_do_not_matter(split in 0usize..8001, seed in any::<u64>()) {
         // Two interleaved channels, 2 s at 2 kHz; channel 0 is touched
@@ -168,9 +169,33 @@ proptest! {
         let mut eb = Vec::new();
         a.push_block(&xs, |e| ea.push(e));
         let (l, r) = xs.split_at(split.min(xs.len()));
-        b.push_block(l, |e| eb.push(e));
-        b.push_block(r, |e| eb.push(e));
+        // A split inside a frame leaves its first half with the caller,
+        // who hands it over again at the front of the next block.
+        let left = b.push_block(l, |e| eb.push(e));
+        prop_assert_eq!(left, l.len() % 2);
+        let mut rest = l[l.len() - left..].to_vec();
+        rest.extend_from_slice(r);
+        prop_assert_eq!(b.push_block(&rest, |e| eb.push(e)), 0);
         prop_assert_eq!(ea.len(), 2, "one touch on and off expected: {:?}", ea);
         prop_assert_eq!(ea, eb);
     }
+}
+
+#[test]
+fn state_sizes_stay_within_the_ram_budget() {
+    // The design budget for the Cortex-M builds (issue: 64 bytes per
+    // channel plus 256 fixed); the benchmark prints the measured sizes.
+    // This test pins the per-channel growth so a change that breaks the
+    // budget is seen in review.
+    use core::mem::size_of;
+    let one = size_of::<Detector<1, 0>>();
+    let eight = size_of::<Detector<8, 0>>();
+    let per_channel = (eight - one) / 7;
+    println!("Detector<1>: {one} B, Detector<8>: {eight} B, per channel {per_channel} B");
+    assert!(per_channel <= 64, "{per_channel} bytes per channel");
+    assert!(
+        one - per_channel <= 256,
+        "{} bytes fixed",
+        one - per_channel
+    );
 }
