@@ -8,7 +8,10 @@
 //! lamps, drift). [`scenario`] reads TOML scenarios, validates them and
 //! yields ground-truth labels; [`render`] streams codes in blocks;
 //! [`builtin`] holds the named scenarios; [`output`] writes CSV, WAV and
-//! label files. [`score`] matches detector events to labels.
+//! label files. [`score`] matches detector events to labels; [`replay`]
+//! reads logs (CSV, WAV, raw) and runs the detector; [`configfile`] reads and
+//! writes detector configurations; [`plot`] draws runs; [`demo`] is
+//! `humsim demo`.
 //!
 //! ```
 //! use humsim::scenario::{Scenario, RenderOptions};
@@ -24,12 +27,16 @@
 pub mod adc;
 pub mod body;
 pub mod builtin;
+pub mod configfile;
 pub mod coupling;
+pub mod demo;
 pub mod frontend;
 pub mod interference;
 pub mod mains;
 pub mod output;
+pub mod plot;
 pub mod render;
+pub mod replay;
 pub mod rng;
 pub mod scenario;
 pub mod score;

@@ -40,6 +40,97 @@ enum Command {
     },
     /// List the built-in scenarios with a one-line description each.
     Scenarios,
+    /// Run the built-in four-pad panel scenario through the detector with
+    /// the default touch settings: event table, score, plot.
+    Demo {
+        /// Where to write the plot (default: humsim-demo.png in the system
+        /// temp directory).
+        #[arg(long, value_name = "FILE.png")]
+        plot: Option<PathBuf>,
+    },
+    /// Run the detector on a logged file (CSV, WAV or raw) and print its
+    /// events as CSV `time_s,channel,event,value`.
+    Replay {
+        #[command(flatten)]
+        input: InputArgs,
+        /// Detector options.
+        #[command(flatten)]
+        detector: DetectorArgs,
+        /// A detector configuration TOML (fields of humsense::Config).
+        #[arg(long, value_name = "FILE.toml")]
+        config: Option<PathBuf>,
+        /// Ground-truth labels (channel,kind,start_s,end_s): print a score
+        /// to stderr.
+        #[arg(long, value_name = "FILE")]
+        labels: Option<PathBuf>,
+        /// Write the events here instead of stdout.
+        #[arg(long, value_name = "FILE")]
+        out: Option<PathBuf>,
+        /// Draw the run (signal, amplitude, baseline, thresholds, events).
+        #[arg(long, value_name = "FILE.png")]
+        plot: Option<PathBuf>,
+    },
+}
+
+/// How to read an input file.
+#[derive(clap::Args)]
+struct InputArgs {
+    /// The log: CSV (header row of channel names, optional time_s), WAV
+    /// (integer PCM) or raw binary (with --raw).
+    input: PathBuf,
+    /// Sample rate per channel in hertz (required for CSV without time_s and
+    /// for raw).
+    #[arg(long, value_name = "HZ")]
+    rate: Option<f64>,
+    /// ADC resolution of the codes (default 12 for CSV and raw, the PCM
+    /// width for WAV).
+    #[arg(long, value_name = "N")]
+    bits: Option<u8>,
+    /// Raw little-endian binary input: u16le or i16le.
+    #[arg(long, value_name = "FORMAT", value_parser = ["u16le", "i16le"])]
+    raw: Option<String>,
+    /// Channels of a raw input.
+    #[arg(long, value_name = "N")]
+    channels: Option<usize>,
+}
+
+/// Detector choices shared by replay and tune.
+#[derive(clap::Args)]
+struct DetectorArgs {
+    /// Mains system: auto, 50 or 60 (default auto).
+    #[arg(long, value_name = "auto|50|60", value_parser = ["auto", "50", "60"])]
+    mains: Option<String>,
+    /// Event profile: touch or field (default touch).
+    #[arg(long, value_name = "touch|field", value_parser = ["touch", "field"])]
+    profile: Option<String>,
+}
+
+impl InputArgs {
+    fn spec(&self) -> humsim::replay::InputSpec {
+        humsim::replay::InputSpec {
+            path: self.input.clone(),
+            rate_hz: self.rate,
+            bits: self.bits,
+            raw: self
+                .raw
+                .as_deref()
+                .and_then(humsim::replay::RawFormat::parse),
+            channels: self.channels,
+        }
+    }
+}
+
+impl DetectorArgs {
+    fn mains(&self) -> Option<humsense::MainsMode> {
+        self.mains
+            .as_deref()
+            .and_then(humsim::configfile::parse_mains)
+    }
+    fn profile(&self) -> Option<humsense::Profile> {
+        self.profile
+            .as_deref()
+            .and_then(humsim::configfile::parse_profile)
+    }
 }
 
 fn main() -> ExitCode {
@@ -53,6 +144,23 @@ fn main() -> ExitCode {
             time_column,
         } => simulate(&scenario, &output, seconds, seed, time_column),
         Command::Scenarios => scenarios(),
+        Command::Demo { plot } => demo(plot),
+        Command::Replay {
+            input,
+            detector,
+            config,
+            labels,
+            out,
+            plot,
+        } => humsim::replay::command(&humsim::replay::ReplayCommand {
+            input: input.spec(),
+            mains: detector.mains(),
+            profile: detector.profile(),
+            config,
+            labels,
+            out,
+            plot,
+        }),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
@@ -61,6 +169,13 @@ fn main() -> ExitCode {
             ExitCode::FAILURE
         }
     }
+}
+
+fn demo(plot: Option<PathBuf>) -> Result<(), String> {
+    let path = plot.unwrap_or_else(humsim::demo::default_plot_path);
+    let report = humsim::demo::run(&path)?;
+    print!("{}", report.text);
+    Ok(())
 }
 
 fn scenarios() -> Result<(), String> {
