@@ -1,21 +1,22 @@
 //! Mains-cycle-synchronous quadrature demodulation (lock-in at the mains
 //! fundamental and, optionally, its harmonics).
 //!
-//! Per sample (integer only, no division), with codes in offset binary:
+//! Per sample (integer only, no division, no clamp), with codes in offset
+//! binary (`u16`):
 //!
-//! `xc[n] = clamp(x[n] − dc, ±lim)` (`lim = 2^bits − 1`),
+//! `xc[n] = x[n] − dc` (|xc| ≤ 65 535),
 //! `I += (xc[n] · cos(θ[n]) + r) >> s`, `Q += (xc[n] · sin(θ[n]) + r) >> s`
 //! (Q15 table values; `s` and `r = 2^(s−1)` fixed at construction), and for
 //! harmonic h the same with `h·θ[n]`; `S += x[n]`.
 //!
 //! `θ[n]` is the shared oscillator phase; a cycle ends when it wraps, so
 //! every window spans one whole turn of the reference at any sample rate.
-//! The shift `s` is the least that keeps a whole cycle's sum inside `i32`:
-//! `|xc · table| < 2^(bits+15)` and at most `n_max` samples per cycle, so
-//! `s = max(0, bits + 15 + ⌈log2 n_max⌉ − 31)` (2 for 12 bits at 2 kHz, 11
-//! for 16 bits at 50 kHz). Rounding each product costs a uniform error of
-//! ±2^(s−1), whose effect on a cycle's amplitude is below 10^-4 codes at 12
-//! bits and 2 kHz.
+//! The shift `s` is the least that keeps a whole cycle's sum inside `i32`
+//! for any `u16` input: `|xc · table| ≤ 65 535 · 32 767 < 2^31` and at most
+//! `n_max` samples per cycle, so `s = ⌈log2 n_max⌉` (6 at 2 kHz, 11 at
+//! 50 kHz). Rounding each product costs a uniform error of ±2^(s−1), whose
+//! effect on a cycle's amplitude is 2^s · 2 / (32 767 · √(12 n)) codes:
+//! 2·10^-4 codes at 2 kHz, 10^-3 at 50 kHz.
 //!
 //! At the end of a cycle of `n` samples (once per cycle):
 //!
@@ -53,19 +54,16 @@ pub struct DemodTuning {
     shift: u32,
     /// Rounding term `2^(s−1)` (0 when `s = 0`).
     round: i32,
-    /// Clamp on `|xc|`, `2^bits − 1`.
-    lim: i32,
 }
 
 impl DemodTuning {
-    /// Constants for `bits`-bit codes and at most `n_max` samples a cycle.
-    pub const fn new(bits: u8, n_max: u32) -> Self {
-        let lim = (1i32 << bits) - 1;
-        let bound = (lim as u64) * 32_767 * (n_max as u64);
+    /// Constants for at most `n_max` samples a cycle.
+    pub const fn new(n_max: u32) -> Self {
+        let bound = 65_535u64 * 32_767 * (n_max as u64);
         let need = 64 - bound.leading_zeros();
         let shift = need.saturating_sub(31);
         let round = if shift == 0 { 0 } else { 1i32 << (shift - 1) };
-        Self { shift, round, lim }
+        Self { shift, round }
     }
 
     /// The product shift `s`.
@@ -106,11 +104,12 @@ impl<const H: usize> DemodState<H> {
     /// Accumulates one sample `x` at reference phase `phase`.
     #[inline(always)]
     pub fn push(&mut self, x: u16, phase: u32, t: &DemodTuning) {
-        let xc = (i32::from(x) - i32::from(self.dc)).clamp(-t.lim, t.lim);
+        let xc = i32::from(x) - i32::from(self.dc);
         let [ai, aq] = &mut self.acc;
         // |xc · table| ≤ 65 535 · 32 767 < 2^31 − 2^16, so adding the
         // rounding term cannot overflow; the shift keeps the cycle's sum
-        // inside i32 (wrapping add only guards misuse).
+        // inside i32 (the wrapping add only keeps debug builds panic-free
+        // should a cycle ever run longer than n_max).
         *ai = ai.wrapping_add((xc * i32::from(cos_q15(phase)) + t.round) >> t.shift);
         *aq = aq.wrapping_add((xc * i32::from(sin_q15(phase)) + t.round) >> t.shift);
         for (order, [hi, hq]) in (2u32..).zip(self.harm.iter_mut()) {
@@ -168,7 +167,7 @@ mod tests {
     /// per cycle and returns the last cycle's result.
     fn run(amp: f64, phi: f64, dc: f64, cycles: usize) -> (Iq, [Iq; 2]) {
         let step = phase_step(50_000, 2_000);
-        let t = DemodTuning::new(12, 42);
+        let t = DemodTuning::new(42);
         let mut d = DemodState::<2>::new(2048);
         let mut phase: u32 = 0;
         let mut out = (Iq::default(), [Iq::default(); 2]);
@@ -200,15 +199,15 @@ mod tests {
 
     #[test]
     fn shift_matches_its_formula() {
-        // bits + 15 + ⌈log2 n_max⌉ − 31, at least 0.
-        assert_eq!(DemodTuning::new(12, 46).shift(), 2);
-        assert_eq!(DemodTuning::new(16, 1_140).shift(), 11);
-        assert_eq!(DemodTuning::new(8, 10).shift(), 0);
+        // ⌈log2(65 535 · 32 767 · n_max)⌉ − 31.
+        assert_eq!(DemodTuning::new(46).shift(), 6);
+        assert_eq!(DemodTuning::new(1_140).shift(), 11);
+        assert_eq!(DemodTuning::new(1).shift(), 0);
     }
 
     #[test]
     fn extreme_codes_do_not_overflow() {
-        let t = DemodTuning::new(16, 1_140);
+        let t = DemodTuning::new(1_140);
         let mut d = DemodState::<2>::new(32_768);
         let step = phase_step(44_000, 50_000);
         let mut phase = 0u32;
@@ -226,7 +225,7 @@ mod tests {
     fn full_scale_square_wave_at_16_bits_and_50_khz() {
         // A square wave of peak-to-peak S has a fundamental of amplitude
         // (4/π)·S/2 (Fourier series of a square wave, standard).
-        let t = DemodTuning::new(16, 1_140);
+        let t = DemodTuning::new(1_140);
         let mut d = DemodState::<0>::new(32_768);
         let step = phase_step(50_000, 50_000);
         let mut phase = 0u32;

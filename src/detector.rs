@@ -96,7 +96,8 @@ pub struct Frontend<const N: usize, const H: usize> {
     impulse: [ImpulseState; N],
     demod: [DemodState<H>; N],
     demod_t: DemodTuning,
-    next_sample: u64,
+    /// Index of the first sample of the present cycle.
+    cycle_start: u64,
     spike_max_len: u8,
     spike_floor: u16,
     adc_bits: u8,
@@ -119,8 +120,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             tracker,
             impulse: [ImpulseState::new(); N],
             demod: [DemodState::new(mid); N],
-            demod_t: DemodTuning::new(cfg.adc_bits, n_max),
-            next_sample: 0,
+            demod_t: DemodTuning::new(n_max),
+            cycle_start: 0,
             spike_max_len: cfg.spike_max_len,
             spike_floor: cfg.spike_floor_codes,
             adc_bits: cfg.adc_bits,
@@ -140,18 +141,18 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             let v = gate.filter(x.offset_code(), max_len);
             dem.push(v, phase, &t);
         }
-        let index = self.next_sample;
-        self.next_sample = index.wrapping_add(1);
         let n = self.tracker.advance();
         if n == 0 {
             return None;
         }
-        Some(self.end_cycle(index, n, S::SIGNED))
+        Some(self.end_cycle(n, S::SIGNED))
     }
 
     #[inline(never)]
-    fn end_cycle(&mut self, index: u64, n: u32, signed: bool) -> Cycle<N, H> {
+    fn end_cycle(&mut self, n: u32, signed: bool) -> Cycle<N, H> {
         self.signed = signed;
+        let index = self.cycle_start.wrapping_add(u64::from(n) - 1);
+        self.cycle_start = self.cycle_start.wrapping_add(u64::from(n));
         let span = 1i32 << self.adc_bits;
         let rails = if signed {
             (32_768 - span / 2, 32_767 + span / 2)
@@ -188,7 +189,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
 
     /// Samples taken per channel so far.
     pub const fn samples_seen(&self) -> u64 {
-        self.next_sample
+        self.cycle_start
+            .wrapping_add(self.tracker.samples_in_cycle() as u64)
     }
 
     /// Mean input level of channel `ch` over its last cycle, in the input's

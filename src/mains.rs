@@ -157,6 +157,11 @@ impl MainsTracker {
         ((1u64 << 32) / min_step as u64) as u32 + 2
     }
 
+    /// Samples taken in the present, unfinished cycle.
+    pub const fn samples_in_cycle(&self) -> u32 {
+        self.count
+    }
+
     /// Reference phase for the present sample (before [`advance`](Self::advance)).
     #[inline(always)]
     pub const fn phase(&self) -> u32 {
@@ -229,31 +234,35 @@ impl MainsTracker {
             return;
         }
         self.weak_cycles = 0;
-        let phi = atan2_turns(z.q.saturating_neg(), z.i);
         let same_ref = self.prev_ref == ch;
+        self.prev_ref = ch;
+        if self.fine && same_ref {
+            // Fine stage: only the block ends need the phase, so the
+            // CORDIC runs once every 8 cycles while locked.
+            self.block_len += 1;
+            if u32::from(self.block_len) < (1 << BLOCK_SHIFT) {
+                return;
+            }
+            let phi = atan2_turns(z.q.saturating_neg(), z.i);
+            let e = (phi.wrapping_sub(self.block_phi) as i32) >> BLOCK_SHIFT;
+            self.block_phi = phi;
+            self.block_len = 0;
+            self.prev_phi = phi;
+            self.correct(e);
+            self.fine_verdict(e.unsigned_abs());
+            return;
+        }
+        let phi = atan2_turns(z.q.saturating_neg(), z.i);
         let prev = self.prev_phi;
         self.prev_phi = phi;
-        self.prev_ref = ch;
         if !same_ref {
             self.block_phi = phi;
             self.block_len = 0;
             return;
         }
-        if self.fine {
-            self.block_len += 1;
-            if u32::from(self.block_len) < (1 << BLOCK_SHIFT) {
-                return;
-            }
-            let e = (phi.wrapping_sub(self.block_phi) as i32) >> BLOCK_SHIFT;
-            self.block_phi = phi;
-            self.block_len = 0;
-            self.correct(e);
-            self.fine_verdict(e.unsigned_abs());
-        } else {
-            let e = phi.wrapping_sub(prev) as i32;
-            self.correct(e);
-            self.coarse_verdict(e.unsigned_abs(), phi);
-        }
+        let e = phi.wrapping_sub(prev) as i32;
+        self.correct(e);
+        self.coarse_verdict(e.unsigned_abs(), phi);
     }
 
     /// `step += e · step / 2`, clamped; counts cycles pinned at a limit.
