@@ -550,6 +550,9 @@ impl WavSource {
             hound::Error::IoError(ref io) if io.kind() == std::io::ErrorKind::UnexpectedEof => {
                 format!("{name}: truncated WAV: the file ends inside its header")
             }
+            other if other.to_string().contains("enough bytes") => {
+                format!("{name}: truncated WAV: the file ends inside its header ({other})")
+            }
             other => format!("{name}: not a readable WAV file: {other}"),
         })?;
         let spec = reader.spec();
@@ -652,18 +655,11 @@ impl FrameSource for WavSource {
                 }
                 Some(Err(e)) => {
                     let at = self.read + got as u64;
-                    return Err(match e {
-                        hound::Error::IoError(io)
-                            if io.kind() == std::io::ErrorKind::UnexpectedEof =>
-                        {
-                            format!(
-                                "{name}: truncated WAV: the header declares {declared} samples \
-                                 but the data ends after {at} (frame {})",
-                                at / nch as u64
-                            )
-                        }
-                        other => format!("{name}: cannot read sample {at}: {other}"),
-                    });
+                    return Err(format!(
+                        "{name}: truncated WAV: the header declares {declared} samples but \
+                         sample {at} (frame {}) cannot be read: {e}",
+                        at / nch as u64
+                    ));
                 }
             }
         }

@@ -1,0 +1,512 @@
+//! `humsim replay`: round trips, agreement with the detector, the score of a
+//! hand-made file, and every bad input.
+#![allow(clippy::unwrap_used)]
+
+use humsense::{Config, Detector, Event};
+use humsim::replay::{replay, RenderSource};
+use humsim::scenario::{RenderOptions, Scenario};
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn humsim() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_humsim"))
+}
+
+fn tmp(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("humsim-replay-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir.join(name)
+}
+
+fn run(args: &[&str]) -> (i32, String, String) {
+    let o = humsim().args(args).output().unwrap();
+    (
+        o.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&o.stdout).into_owned(),
+        String::from_utf8_lossy(&o.stderr).into_owned(),
+    )
+}
+
+fn p(path: &Path) -> &str {
+    path.to_str().unwrap()
+}
+
+/// Rows of a replay output without the channel column (names differ
+/// between CSV and WAV), with the channel's index instead.
+fn rows_by_index(out: &str, names: &[&str]) -> Vec<String> {
+    let mut lines = out.lines();
+    assert_eq!(lines.next(), Some("time_s,channel,event,value"));
+    lines
+        .map(|l| {
+            let c: Vec<&str> = l.split(',').collect();
+            assert_eq!(c.len(), 4, "{l}");
+            let idx = names
+                .iter()
+                .position(|n| *n == c[1])
+                .or_else(|| c[1].strip_prefix("ch").and_then(|s| s.parse().ok()))
+                .unwrap();
+            format!("{},{idx},{},{}", c[0], c[2], c[3])
+        })
+        .collect()
+}
+
+#[test]
+fn csv_and_wav_of_one_simulation_replay_to_identical_events() {
+    let csv = tmp("rt.csv");
+    let wav = tmp("rt.wav");
+    for (out, extra) in [(&csv, Some("--time-column")), (&wav, None)] {
+        let mut args = vec!["simulate", "kitchen-panel", "--seconds", "8", "-o", p(out)];
+        args.extend(extra);
+        let (code, _, err) = run(&args);
+        assert_eq!(code, 0, "{err}");
+    }
+    let (code, a, err) = run(&["replay", p(&csv)]);
+    assert_eq!(code, 0, "{err}");
+    // The simulator stores 12-bit codes unchanged in 16-bit PCM.
+    let (code, b, err) = run(&["replay", p(&wav), "--bits", "12"]);
+    assert_eq!(code, 0, "{err}");
+    let names = ["power", "minus", "plus", "timer"];
+    let ra = rows_by_index(&a, &names);
+    let rb = rows_by_index(&b, &names);
+    // kitchen-panel's first 8 s hold four touches (2, 5, 6, 7 s): eight events.
+    assert_eq!(ra.len(), 8, "{a}");
+    assert_eq!(ra, rb);
+    // The same CSV without its time column, with --rate: identical too.
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let plain: String = text
+        .lines()
+        .map(|l| l.split_once(',').unwrap().1.to_string() + "\n")
+        .collect();
+    let plain_path = tmp("rt-plain.csv");
+    std::fs::write(&plain_path, plain).unwrap();
+    let (code, c, err) = run(&["replay", p(&plain_path), "--rate", "2000"]);
+    assert_eq!(code, 0, "{err}");
+    assert_eq!(c, a);
+    // And a raw u16le file of the same codes.
+    let mut raw = Vec::new();
+    for l in text.lines().skip(1) {
+        for cell in l.split(',').skip(1) {
+            raw.extend_from_slice(&cell.parse::<u16>().unwrap().to_le_bytes());
+        }
+    }
+    let raw_path = tmp("rt.bin");
+    std::fs::write(&raw_path, raw).unwrap();
+    let (code, d, err) = run(&[
+        "replay",
+        p(&raw_path),
+        "--raw",
+        "u16le",
+        "--channels",
+        "4",
+        "--rate",
+        "2000",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert_eq!(rows_by_index(&d, &names), ra);
+}
+
+#[test]
+fn replay_equals_the_detector_itself() {
+    let s = Scenario::builtin("kitchen-panel").unwrap();
+    let opts = RenderOptions {
+        seconds: Some(10.0),
+        seed: None,
+    };
+    // The detector as firmware uses it: interleaved blocks into push_block.
+    let mut r = s.render(&opts).unwrap();
+    let mut det: Detector<4> = Detector::new(Config::touch()).unwrap();
+    let mut want: Vec<Event> = Vec::new();
+    let mut block = vec![0u16; 1000];
+    loop {
+        let n = r.fill(&mut block);
+        if n == 0 {
+            break;
+        }
+        det.push_block(&block[..n * 4], |e| want.push(e));
+    }
+    let mut src = RenderSource::new(s.render(&opts).unwrap());
+    let got = replay(&mut src, &Config::touch(), &mut |_| Ok(()), None, true).unwrap();
+    assert_eq!(got.frames, 20_000);
+    // Touches at 2, 5, 6, 7 s and one from 9 s still held at 10 s.
+    assert_eq!(want.len(), 9);
+    assert_eq!(got.events, want);
+}
+
+/// 50 Hz at 2 kHz, 12-bit around 2048: 20 codes of hum, 400 while touched.
+fn three_touch_csv(path: &Path) {
+    let touches = [(1.0, 1.5), (2.0, 2.3), (3.0, 3.6)];
+    let mut s = String::from("time_s,pad\n");
+    for n in 0..8000u32 {
+        let t = f64::from(n) / 2000.0;
+        let a = if touches.iter().any(|&(a, b)| t >= a && t < b) {
+            400.0
+        } else {
+            20.0
+        };
+        let x = 2048.0 + a * (std::f64::consts::TAU * 50.0 * t).sin();
+        s.push_str(&format!("{t:.4},{}\n", x.round() as i64));
+    }
+    std::fs::write(path, s).unwrap();
+}
+
+#[test]
+fn three_touch_file_scores_as_worked_by_hand() {
+    let input = tmp("three.csv");
+    three_touch_csv(&input);
+    let labels = tmp("three.labels.csv");
+    std::fs::write(
+        &labels,
+        "channel,kind,start_s,end_s\npad,touch,1.0,1.5\npad,touch,2.0,2.3\npad,touch,3.0,3.6\n",
+    )
+    .unwrap();
+    let out = tmp("three.events.csv");
+    let (code, stdout, err) = run(&[
+        "replay",
+        p(&input),
+        "--labels",
+        p(&labels),
+        "--out",
+        p(&out),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(stdout.is_empty());
+    let text = std::fs::read_to_string(&out).unwrap();
+    let rows: Vec<Vec<String>> = text
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').map(str::to_string).collect())
+        .collect();
+    let kinds: Vec<&str> = rows.iter().map(|r| r[2].as_str()).collect();
+    assert_eq!(
+        kinds,
+        [
+            "touch-on",
+            "touch-off",
+            "touch-on",
+            "touch-off",
+            "touch-on",
+            "touch-off"
+        ],
+        "{text}"
+    );
+    // Worked by hand: an on event needs debounce_on = 2 cycles above the
+    // threshold. The cycle in which the step falls counts when the step
+    // covers enough of it (a 20x rise over a 2.8x threshold: about a
+    // seventh), so the on event ends the 2nd or 3rd cycle boundary after the
+    // step: 20·(1 + 1/7) ≈ 23 ms to 60 ms. The off event needs
+    // debounce_off = 3 cycles below: 60 to 80 ms after the release.
+    let starts = [1.0, 2.0, 3.0];
+    let ends = [1.5, 2.3, 3.6];
+    for k in 0..3 {
+        let on: f64 = rows[2 * k][0].parse().unwrap();
+        let off: f64 = rows[2 * k + 1][0].parse().unwrap();
+        let lat_on = (on - starts[k]) * 1000.0;
+        let lat_off = (off - ends[k]) * 1000.0;
+        assert!((22.0..=60.0).contains(&lat_on), "on latency {lat_on} ms");
+        assert!((60.0..=80.0).contains(&lat_off), "off latency {lat_off} ms");
+        // Strength: 20·log10(400/20) ≈ 26 dB for a fully touched cycle.
+        let db: f64 = rows[2 * k][3].parse().unwrap();
+        assert!((15.0..=27.0).contains(&db), "{db} dB");
+        // time_s = sample index / rate, 6 decimals: a whole sample at 2 kHz.
+        assert_eq!(rows[2 * k][0].split('.').nth(1).unwrap().len(), 6);
+        assert!(((on * 2000.0) - (on * 2000.0).round()).abs() < 1e-6);
+    }
+    // The score on stderr: 3 labels, 3 detected, 0 missed, 0 false.
+    let all = err.lines().find(|l| l.starts_with("all ")).unwrap();
+    let cells: Vec<&str> = all.split_whitespace().collect();
+    assert_eq!(&cells[1..6], ["3", "3", "0", "0", "0"], "{err}");
+}
+
+#[test]
+fn replay_plot_is_a_png() {
+    let input = tmp("plot.csv");
+    three_touch_csv(&input);
+    let png = tmp("plot.png");
+    let (code, out, err) = run(&["replay", p(&input), "--plot", p(&png)]);
+    assert_eq!(code, 0, "{err}");
+    assert_eq!(out.lines().count(), 7);
+    assert!(err.contains("plot: "));
+    assert_eq!(&std::fs::read(&png).unwrap()[..4], b"\x89PNG");
+}
+
+fn bad(name: &str, content: &[u8], extra: &[&str], want: &[&str]) {
+    let path = tmp(name);
+    std::fs::write(&path, content).unwrap();
+    let mut args = vec!["replay", p(&path)];
+    args.extend_from_slice(extra);
+    let (code, _, err) = run(&args);
+    assert_eq!(code, 1, "{name}: {err}");
+    for w in want {
+        let w = w.replace("{F}", p(&path));
+        assert!(err.contains(&w), "{name}: expected `{w}` in: {err}");
+    }
+    assert!(!err.contains("panicked"), "{err}");
+}
+
+#[test]
+fn bad_csv_inputs_are_located() {
+    bad("empty.csv", b"", &["--rate", "2000"], &["{F}: empty file"]);
+    bad(
+        "header-only.csv",
+        b"a,b\n",
+        &["--rate", "2000"],
+        &["{F}: no data rows"],
+    );
+    bad(
+        "ragged.csv",
+        b"a,b\n1,2\n3\n",
+        &["--rate", "2000"],
+        &["{F}:3:2: expected 2 cells as in the header, found 1"],
+    );
+    bad(
+        "long.csv",
+        b"a,b\n1,2\n3,4,5\n",
+        &["--rate", "2000"],
+        &["{F}:3:5: expected 2 cells as in the header, found more"],
+    );
+    bad(
+        "float.csv",
+        b"a,b\n1,2\n3,4.5\n",
+        &["--rate", "2000"],
+        &["{F}:3:3: column `b`: `4.5` is not an integer ADC code"],
+    );
+    bad(
+        "range.csv",
+        b"a\n4095\n4096\n",
+        &["--rate", "2000"],
+        &["{F}:3:1: column `a`: 4096 is out of range for 12-bit codes (0 to 4095)"],
+    );
+    bad(
+        "range10.csv",
+        b"a\n1024\n",
+        &["--rate", "2000", "--bits", "10"],
+        &["{F}:2:1: column `a`: 1024 is out of range for 10-bit codes (0 to 1023)"],
+    );
+    bad(
+        "negative.csv",
+        b"a\n-1\n",
+        &["--rate", "2000"],
+        &["{F}:2:1: column `a`: -1 is out of range"],
+    );
+    bad(
+        "norate.csv",
+        b"a\n1\n",
+        &[],
+        &["{F}: no time_s column", "--rate"],
+    );
+    // time_s: 2 kHz, then one interval of 1 ms at line 6.
+    bad(
+        "jitter.csv",
+        b"time_s,a\n0.0000,1\n0.0005,1\n0.0010,1\n0.0015,1\n0.0025,1\n0.0030,1\n",
+        &[],
+        &["{F}:6:1: column `time_s`: interval", "by more than 1 %"],
+    );
+    bad(
+        "badtime.csv",
+        b"time_s,a\n0.0,1\nsoon,1\n",
+        &[],
+        &["{F}:3:1: column `time_s`: `soon` is not a time"],
+    );
+    bad(
+        "disagree.csv",
+        b"time_s,a\n0.0,1\n0.001,1\n0.002,1\n",
+        &["--rate", "2000"],
+        &["--rate 2000 disagrees with time_s, which gives 1000.000 Hz"],
+    );
+    bad(
+        "numheader.csv",
+        b"2048,2050\n2049,2051\n",
+        &["--rate", "2000"],
+        &["{F}:1:1: header cell `2048` is a number"],
+    );
+    bad(
+        "dup.csv",
+        b"a,a\n1,2\n",
+        &["--rate", "2000"],
+        &["{F}:1:3: column `a` appears twice"],
+    );
+    let wide: String = (0..17)
+        .map(|i| format!("c{i}"))
+        .collect::<Vec<_>>()
+        .join(",");
+    let row: String = vec!["1"; 17].join(",");
+    bad(
+        "wide.csv",
+        format!("{wide}\n{row}\n").as_bytes(),
+        &["--rate", "2000"],
+        &["{F}: 17 channels; replay handles 1 to 16"],
+    );
+    bad(
+        "missing.csv",
+        b"",
+        &["--rate", "2000", "--bits", "20"],
+        &["--bits 20: expected 8 to 16"],
+    );
+}
+
+fn wav_bytes(channels: u16, bits: u16, samples: &[i32]) -> Vec<u8> {
+    let path = tmp(&format!("tmp-{channels}-{bits}-{}.wav", samples.len()));
+    let spec = hound::WavSpec {
+        channels,
+        sample_rate: 2000,
+        bits_per_sample: bits,
+        sample_format: hound::SampleFormat::Int,
+    };
+    let mut w = hound::WavWriter::create(&path, spec).unwrap();
+    for &s in samples {
+        w.write_sample(s).unwrap();
+    }
+    w.finalize().unwrap();
+    std::fs::read(&path).unwrap()
+}
+
+#[test]
+fn bad_wav_and_raw_inputs_are_reported() {
+    let good = wav_bytes(2, 16, &[1, 2, 3, 4, 5, 6, 7, 8]);
+    // Cut inside the data: the header still declares 8 samples.
+    bad(
+        "trunc.wav",
+        &good[..good.len() - 5],
+        &[],
+        &["{F}: truncated WAV"],
+    );
+    bad(
+        "head.wav",
+        &good[..20],
+        &[],
+        &["{F}: truncated WAV: the file ends inside its header"],
+    );
+    bad(
+        "junk.wav",
+        b"not a wav file at all",
+        &[],
+        &["{F}: not a readable WAV file"],
+    );
+    bad(
+        "unsigned.wav",
+        &wav_bytes(1, 16, &[100, 5000]),
+        &["--bits", "12"],
+        &["{F}: frame 1, channel ch0: sample 5000 is out of range for 12-bit unsigned"],
+    );
+    bad(
+        "wide.wav",
+        &wav_bytes(1, 24, &[1, 2]),
+        &[],
+        &["{F}: 24-bit PCM", "--bits"],
+    );
+    bad(
+        "rate.wav",
+        &good,
+        &["--rate", "1000"],
+        &["{F}: --rate does not apply to WAV"],
+    );
+    bad(
+        "trunc.bin",
+        &[1, 0, 2, 0, 3],
+        &["--raw", "u16le", "--channels", "2", "--rate", "2000"],
+        &["{F}: truncated: 1 trailing bytes at byte offset 4"],
+    );
+    bad(
+        "empty.bin",
+        b"",
+        &["--raw", "i16le", "--channels", "1", "--rate", "2000"],
+        &["{F}: empty file"],
+    );
+    bad(
+        "range.bin",
+        &[0, 0, 0, 16],
+        &["--raw", "u16le", "--channels", "1", "--rate", "2000"],
+        &["{F}: frame 1, channel ch0 (byte offset 2): code 4096 is out of range for 12-bit"],
+    );
+    bad(
+        "norate.bin",
+        &[0, 0],
+        &["--raw", "u16le", "--channels", "1"],
+        &["--raw needs --rate"],
+    );
+    bad(
+        "noch.bin",
+        &[0, 0],
+        &["--raw", "u16le", "--rate", "2000"],
+        &["--raw needs --channels"],
+    );
+    let (code, _, err) = run(&["replay", "/nonexistent/x.csv", "--rate", "2000"]);
+    assert_eq!(code, 1);
+    assert!(err.contains("/nonexistent/x.csv: cannot open"), "{err}");
+}
+
+#[test]
+fn config_files_and_labels_are_checked() {
+    let input = tmp("cfg-in.csv");
+    three_touch_csv(&input);
+    let cfg = tmp("bad.toml");
+    std::fs::write(&cfg, "on_ratio = 3.0\nbogus_key = 1\n").unwrap();
+    let (code, _, err) = run(&["replay", p(&input), "--config", p(&cfg)]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains(&format!("{}:2:1: unknown field `bogus_key`", p(&cfg))),
+        "{err}"
+    );
+    std::fs::write(&cfg, "# comment\noff_ratio = 3.5\n").unwrap();
+    let (code, _, err) = run(&["replay", p(&input), "--config", p(&cfg)]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains(&format!(
+            "{}:2:1: config field `off_ratio` must be below `on_ratio`",
+            p(&cfg)
+        )),
+        "{err}"
+    );
+    std::fs::write(&cfg, "sample_rate_hz = 1000\n").unwrap();
+    let (code, _, err) = run(&["replay", p(&input), "--config", p(&cfg)]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("sample_rate_hz = 1000, but the input is sampled at 2000 Hz"),
+        "{err}"
+    );
+    std::fs::write(&cfg, "debounce_on = 300\n").unwrap();
+    let (code, _, err) = run(&["replay", p(&input), "--config", p(&cfg)]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains(&format!("{}:1:1: debounce_on = 300 does not fit", p(&cfg))),
+        "{err}"
+    );
+    // A valid one changes the result: on_ratio 30 is above a 20x touch.
+    std::fs::write(&cfg, "on_ratio = 30.0\noff_ratio = 10.0\non_noise = 8\n").unwrap();
+    let (code, out, err) = run(&["replay", p(&input), "--config", p(&cfg)]);
+    assert_eq!(code, 0, "{err}");
+    assert_eq!(out, "time_s,channel,event,value\n");
+
+    let labels = tmp("bad.labels.csv");
+    std::fs::write(&labels, "channel,kind,start_s,end_s\nknob,touch,1,2\n").unwrap();
+    let out = tmp("labels-out.csv");
+    let (code, _, err) = run(&[
+        "replay",
+        p(&input),
+        "--labels",
+        p(&labels),
+        "--out",
+        p(&out),
+    ]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("label for channel `knob`") && err.contains("its channels are: pad"),
+        "{err}"
+    );
+    std::fs::write(&labels, "channel,kind,start_s,end_s\npad,touch,1,9.5\n").unwrap();
+    let (code, _, err) = run(&[
+        "replay",
+        p(&input),
+        "--labels",
+        p(&labels),
+        "--out",
+        p(&out),
+    ]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("ends after the input, which lasts 4.0000 s"),
+        "{err}"
+    );
+    // A failed run leaves no partial output file behind.
+    assert!(!out.exists());
+}
