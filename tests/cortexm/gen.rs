@@ -1,0 +1,303 @@
+//! Deterministic test signals for the on-target tests and the Cortex-M
+//! benchmark, computed in integers only so that the host build and every
+//! target produce the same samples bit for bit (no float, no platform maths
+//! library).
+//!
+//! A signal is mains hum: a phase accumulator (`u32`, 2^32 = one turn) and
+//! an integer polynomial sine, scaled by a piecewise-linear envelope per
+//! channel (ambient hum, touches, a slow approach), plus optional third
+//! harmonic, approximately Gaussian noise from a fixed-seed xorshift32, and
+//! optional full-scale spikes; then clipped to the ADC's code range (a bias
+//! of 0 with a range of `0..=max` is a single-supply front end: half-wave).
+//!
+//! Shared by `tests/on_target.rs` and `examples/cortexm_bench.rs` through
+//! `#[path]`; `core` only.
+
+/// xorshift32 (13, 17, 5): fixed seed, never zero, period 2^32 − 1.
+#[derive(Clone, Copy, Debug)]
+pub struct Rng(u32);
+
+impl Rng {
+    /// A generator from `seed` (0 is replaced by a fixed non-zero seed).
+    pub const fn new(seed: u32) -> Self {
+        Self(if seed == 0 { 0x9E37_79B9 } else { seed })
+    }
+
+    /// The next 32 random bits.
+    #[inline]
+    pub fn next_u32(&mut self) -> u32 {
+        let mut x = self.0;
+        x ^= x << 13;
+        x ^= x >> 17;
+        x ^= x << 5;
+        self.0 = x;
+        x
+    }
+
+    /// Approximately Gaussian, zero mean, RMS ≈ 147.8: the sum of the four
+    /// bytes of one draw, minus 510 (range −510 to 510).
+    #[inline]
+    pub fn gauss148(&mut self) -> i32 {
+        let v = self.next_u32();
+        let s = (v & 0xff) + ((v >> 8) & 0xff) + ((v >> 16) & 0xff) + (v >> 24);
+        s as i32 - 510
+    }
+}
+
+/// Q15 coefficients of `sin(π/2 · x) ≈ x·(C1 − x²·(C3 − x²·(C5 − x²·C7)))`
+/// for x in [0, 1] (Taylor terms of orders 1 to 7; error below 6 Q15 codes).
+const C1: i32 = 51_472;
+const C3: i32 = 21_167;
+const C5: i32 = 2_611;
+const C7: i32 = 153;
+
+/// `sin(2π · phase / 2^32)` in Q15 (±32 763), integers only. Every product
+/// stays below 2^31.
+#[inline]
+pub fn sin_q15(phase: u32) -> i32 {
+    let quadrant = phase >> 30;
+    let mut x = phase & 0x3fff_ffff;
+    if quadrant & 1 == 1 {
+        x = 0x4000_0000 - x;
+    }
+    let x = (x >> 15) as i32; // Q15, 0 ..= 32 768
+    let x2 = (x * x) >> 15;
+    let mut t = C5 - ((C7 * x2) >> 15);
+    t = C3 - ((t * x2) >> 15);
+    t = C1 - ((t * x2) >> 15);
+    let s = (t * x) >> 15;
+    if quadrant >= 2 {
+        -s
+    } else {
+        s
+    }
+}
+
+/// Phase step per sample for `mhz` millihertz at `rate_hz` samples per
+/// second: `round(2^32 · mhz / (1000 · rate_hz))`.
+pub const fn phase_step(mhz: u32, rate_hz: u32) -> u32 {
+    let den = rate_hz as u64 * 1000;
+    (((mhz as u64) << 32) + den / 2).wrapping_div(if den == 0 { 1 } else { den }) as u32
+}
+
+/// One point of an amplitude envelope: the hum reaches `amp` codes (peak)
+/// at `at_ms` milliseconds, linearly from the previous point.
+#[derive(Clone, Copy, Debug)]
+pub struct Knot {
+    /// Time in milliseconds from the start of the signal.
+    pub at_ms: u32,
+    /// Peak amplitude of the fundamental in ADC codes.
+    pub amp: u32,
+}
+
+/// Shorthand for a [`Knot`].
+pub const fn k(at_ms: u32, amp: u32) -> Knot {
+    Knot { at_ms, amp }
+}
+
+/// What one channel sees.
+#[derive(Clone, Copy, Debug)]
+pub struct ChannelSpec {
+    /// Phase of this channel's hum relative to the mains, 2^32 = one turn.
+    pub phase: u32,
+    /// Envelope; the amplitude holds the first point's value before it and
+    /// the last point's value after it. Must not be empty.
+    pub knots: &'static [Knot],
+    /// Third harmonic, as a fraction of the fundamental times 256.
+    pub third_q8: i32,
+    /// Noise RMS in sixteenths of a code (approximately).
+    pub noise_x16: i32,
+}
+
+/// A whole multi-channel signal.
+#[derive(Clone, Copy, Debug)]
+pub struct SignalSpec {
+    /// Samples per second per channel.
+    pub rate_hz: u32,
+    /// Mains frequency in millihertz.
+    pub mains_mhz: u32,
+    /// Code of zero input (the ADC bias).
+    pub bias: i32,
+    /// Lowest and highest code the ADC can return (clipping).
+    pub lo: i32,
+    /// See `lo`.
+    pub hi: i32,
+    /// Mean time between spikes in milliseconds (0: none). A spike is one
+    /// to three samples at `lo` or `hi` on every channel at once.
+    pub spike_ms: u32,
+    /// PRNG seed.
+    pub seed: u32,
+}
+
+/// Envelope state of one channel: amplitude in Q16 codes with a per-sample
+/// increment (one division per segment, none per sample).
+#[derive(Clone, Copy, Debug)]
+struct Envelope {
+    knots: &'static [Knot],
+    /// Index of the next knot.
+    next: usize,
+    /// Sample index at which the next knot is reached.
+    next_at: u32,
+    amp_q16: i64,
+    inc_q16: i64,
+}
+
+impl Envelope {
+    fn new(knots: &'static [Knot], rate_hz: u32) -> Self {
+        let first = knots.first().map_or(0, |k| k.amp);
+        let mut e = Self {
+            knots,
+            next: 0,
+            next_at: 0,
+            amp_q16: i64::from(first) << 16,
+            inc_q16: 0,
+        };
+        e.enter(0, rate_hz);
+        e
+    }
+
+    /// Moves to the segment that contains sample `n`.
+    fn enter(&mut self, n: u32, rate_hz: u32) {
+        while let Some(k) = self.knots.get(self.next) {
+            let at = (u64::from(k.at_ms) * u64::from(rate_hz) / 1000) as u32;
+            if at > n {
+                let len = i64::from(at - n);
+                let target = i64::from(k.amp) << 16;
+                self.inc_q16 = (target - self.amp_q16) / len;
+                self.next_at = at;
+                return;
+            }
+            self.amp_q16 = i64::from(k.amp) << 16;
+            self.next += 1;
+        }
+        self.inc_q16 = 0;
+        self.next_at = u32::MAX;
+    }
+
+    /// Amplitude at sample `n` in codes; call with n = 0, 1, 2, …
+    #[inline]
+    fn step(&mut self, n: u32, rate_hz: u32) -> i32 {
+        if n >= self.next_at {
+            self.enter(n, rate_hz);
+        }
+        let a = (self.amp_q16 >> 16) as i32;
+        self.amp_q16 += self.inc_q16;
+        a
+    }
+}
+
+#[derive(Clone, Copy, Debug)]
+struct Chan {
+    phase: u32,
+    env: Envelope,
+    third_q8: i32,
+    noise_mul: i32,
+}
+
+/// The generator for `N` channels: call [`Source::frame`] once per sample
+/// instant.
+#[derive(Clone, Copy, Debug)]
+pub struct Source<const N: usize> {
+    spec: SignalSpec,
+    step: u32,
+    phase: u32,
+    n: u32,
+    rng: Rng,
+    ch: [Chan; N],
+    /// Samples of the present spike still to come, and its code.
+    spike_left: u8,
+    spike_code: i32,
+    next_spike: u32,
+}
+
+impl<const N: usize> Source<N> {
+    /// A source for `spec` with channels `chans` (channel c uses
+    /// `chans[c % len]`).
+    pub fn new(spec: SignalSpec, chans: &[ChannelSpec]) -> Self {
+        let none = ChannelSpec {
+            phase: 0,
+            knots: &[],
+            third_q8: 0,
+            noise_x16: 0,
+        };
+        let ch = core::array::from_fn(|c| {
+            let cs = match chans.len() {
+                0 => none,
+                len => chans.get(c % len).copied().unwrap_or(none),
+            };
+            Chan {
+                phase: cs.phase,
+                env: Envelope::new(cs.knots, spec.rate_hz),
+                third_q8: cs.third_q8,
+                // gauss148 · noise_mul >> 12 has RMS 147.8 · mul / 4096
+                // codes; mul = 1.7314 · noise_x16 gives noise_x16 / 16.
+                noise_mul: (cs.noise_x16 * 1773) >> 10,
+            }
+        });
+        let mut rng = Rng::new(spec.seed);
+        let next_spike = Self::spike_gap(&mut rng, &spec);
+        Self {
+            spec,
+            step: phase_step(spec.mains_mhz, spec.rate_hz),
+            phase: 0,
+            n: 0,
+            rng,
+            ch,
+            spike_left: 0,
+            spike_code: 0,
+            next_spike,
+        }
+    }
+
+    /// Samples until the next spike: uniform in [period/2, 3·period/2).
+    fn spike_gap(rng: &mut Rng, spec: &SignalSpec) -> u32 {
+        if spec.spike_ms == 0 {
+            return u32::MAX;
+        }
+        let period = (u64::from(spec.spike_ms) * u64::from(spec.rate_hz) / 1000).max(2) as u32;
+        period / 2 + rng.next_u32() % period
+    }
+
+    /// Index of the next sample.
+    pub const fn index(&self) -> u32 {
+        self.n
+    }
+
+    /// The next sample of every channel, clipped to `lo..=hi`.
+    #[inline]
+    pub fn frame(&mut self) -> [i32; N] {
+        let spec = self.spec;
+        let n = self.n;
+        let base = self.phase;
+        let mut out = [0i32; N];
+        for (o, c) in out.iter_mut().zip(self.ch.iter_mut()) {
+            let a = c.env.step(n, spec.rate_hz);
+            let p = base.wrapping_add(c.phase);
+            let mut s = sin_q15(p);
+            if c.third_q8 != 0 {
+                s += (c.third_q8 * sin_q15(p.wrapping_mul(3))) >> 8;
+            }
+            let mut x = spec.bias + ((a * s) >> 15);
+            if c.noise_mul != 0 {
+                x += (self.rng.gauss148() * c.noise_mul) >> 12;
+            }
+            *o = x;
+        }
+        if self.spike_left == 0 && n >= self.next_spike {
+            let r = self.rng.next_u32();
+            self.spike_left = (r % 3) as u8 + 1;
+            self.spike_code = if r & 0x100 != 0 { spec.hi } else { spec.lo };
+            self.next_spike = n.saturating_add(Self::spike_gap(&mut self.rng, &spec));
+        }
+        if self.spike_left > 0 {
+            self.spike_left -= 1;
+            out = [self.spike_code; N];
+        }
+        for o in out.iter_mut() {
+            *o = (*o).clamp(spec.lo, spec.hi);
+        }
+        self.phase = base.wrapping_add(self.step);
+        self.n = n.wrapping_add(1);
+        out
+    }
+}
