@@ -1,0 +1,539 @@
+//! Cost of the detector on Cortex-M, measured under QEMU (issue 6).
+//!
+//! ```text
+//! cargo run --release --example cortexm_bench --target thumbv6m-none-eabi
+//! cargo run --release --example cortexm_bench --target thumbv7em-none-eabihf
+//! ```
+//!
+//! runs through the QEMU runners of `.cargo/config.toml` (`microbit`,
+//! Cortex-M0; `mps2-an386`, Cortex-M4F) and prints one line per case:
+//!
+//! ```text
+//! cortexm: target=<triple> profile=<touch|field> channels=<n> insn_per_sample=<float> ram_bytes=<n> flash_bytes=<n>
+//! ```
+//!
+//! for 1, 4 and 8 channels of 2 kHz samples of 50 Hz hum, touch and field
+//! profiles. **QEMU counts instructions, not cycles**: with `-icount
+//! shift=10` every instruction advances virtual time by 1024 ns, so SysTick
+//! (core clock: 16 MHz on `microbit`, 25 MHz on `mps2-an386`) read before
+//! and after a region gives its exact instruction count,
+//! `round(ticks · period_ns / 2^10)` (24-bit counter: each region is kept
+//! far below its wrap). Two checks can fail the run: 64 more SysTick loads
+//! (timed inside one leaf function) must come out as exactly 64 more
+//! instructions, and the detector loop run twice from the same state must
+//! count the same. `SHIFT` below must match the runners' `-icount shift=`.
+//!
+//! - `insn_per_sample`: instructions of a loop that generates 2000 frames
+//!   (1 s, after 3 s of warm-up: past start-up and mains lock) and feeds
+//!   them to `Detector::push_frame`, minus the same loop without the
+//!   detector (the generator's own cost), divided by samples × channels.
+//!   Includes the per-cycle work, amortised.
+//! - `ram_bytes`: `size_of::<Detector<N>>()` (state only; no stack).
+//! - `flash_bytes`: text + data of a minimal firmware (ADC read loop →
+//!   `Detector<N>` → events) minus the same firmware without the detector,
+//!   built at the `cortexm` profile (opt-level "s"). The binary cannot
+//!   measure its own sections: `.ci/cortexm` builds those probes (this file
+//!   with `CORTEXM_FLASH_PROBE=0|1|4|8`) and passes the figures in at build
+//!   time as `CORTEXM_FLASH="1=…,4=…,8=…"`; without it the field reads `na`.
+//!
+//! Further lines are for diagnosis: `cortexm-calib:`, and `cortexm-stage:`
+//! with per-call counts from the split pipeline (call overhead subtracted):
+//! `sample_path_insn_per_sample` (`Frontend::push_frame` on frames that end
+//! no cycle, per channel), `frontend_cycle_end_insn` (the extra on the frame
+//! that ends a cycle: normalisation, gate limits, mains tracker),
+//! `backend_insn_per_cycle` (`Backend::process`, all channels),
+//! `samples_per_cycle`, and `push_block_insn_per_sample` (the same input
+//! through `Detector::push_block` in blocks of 200 frames).
+//!
+//! On the host this example only prints how to run it.
+#![cfg_attr(target_os = "none", no_std, no_main)]
+#![allow(clippy::indexing_slicing)]
+
+#[path = "../tests/cortexm/gen.rs"]
+#[allow(dead_code)]
+mod gen;
+
+#[cfg(not(target_os = "none"))]
+fn main() {
+    println!(
+        "cortexm_bench measures on Cortex-M under QEMU; run it with \
+         `cargo run --release --example cortexm_bench --target thumbv6m-none-eabi` \
+         (or thumbv7em-none-eabihf), or `bash .ci/cortexm` for the budgets"
+    );
+}
+
+/// `CORTEXM_FLASH_PROBE` at build time: 0 builds the flash probe without the
+/// detector, 1, 4 or 8 with a `Detector` of that many channels; unset (255)
+/// builds the benchmark.
+#[cfg_attr(not(target_os = "none"), allow(dead_code))]
+const PROBE: u8 = match option_env!("CORTEXM_FLASH_PROBE") {
+    Some(s) => parse_u8(s),
+    None => 255,
+};
+
+#[cfg_attr(not(target_os = "none"), allow(dead_code))]
+const fn parse_u8(s: &str) -> u8 {
+    let b = s.as_bytes();
+    let mut i = 0;
+    let mut v: u32 = 0;
+    while i < b.len() {
+        if b[i] < b'0' || b[i] > b'9' || v > 25 {
+            return 254;
+        }
+        v = v * 10 + (b[i] - b'0') as u32;
+        i += 1;
+    }
+    if i == 0 || v > 253 {
+        254
+    } else {
+        v as u8
+    }
+}
+
+#[cfg(target_os = "none")]
+mod target {
+    use core::hint::black_box;
+
+    use cortex_m as _;
+    use cortex_m::asm::nop;
+    use cortex_m::peripheral::{syst::SystClkSource, SYST};
+    use cortex_m_rt::entry;
+    use cortex_m_semihosting::{debug, hprintln};
+    use humsense::{Backend, Config, Cycle, Detector, Frontend, Profile};
+
+    use super::gen::{k, ChannelSpec, Knot, SignalSpec, Source};
+    use super::PROBE;
+
+    /// Must match `-icount shift=` in `.cargo/config.toml`.
+    const SHIFT: u32 = 10;
+
+    /// Triple, QEMU machine and SysTick core-clock period in picoseconds.
+    const MACHINE: (&str, &str, u64) = if cfg!(target_abi = "eabihf") {
+        ("thumbv7em-none-eabihf", "mps2-an386", 40_000)
+    } else if cfg!(target_feature = "thumb2") {
+        ("thumbv7-unknown", "unknown", 40_000)
+    } else {
+        ("thumbv6m-none-eabi", "microbit", 62_500)
+    };
+    const TRIPLE: &str = MACHINE.0;
+
+    const RATE_HZ: u32 = 2_000;
+    const WARM_FRAMES: u32 = 6_000;
+    const FRAMES: u32 = 2_000;
+    /// Frames per SysTick measurement: far below the 24-bit wrap.
+    const BLOCK: u32 = 200;
+
+    #[inline(always)]
+    fn now() -> u32 {
+        SYST::get_current()
+    }
+
+    /// Instructions between two SysTick reads (down-counter, one wrap at most).
+    fn insns(t0: u32, t1: u32) -> u64 {
+        let ticks = u64::from(t0.wrapping_sub(t1) & 0x00ff_ffff);
+        let den = 1000u64 << SHIFT;
+        (ticks * MACHINE.2 + den / 2) / den
+    }
+
+    /// Eight SysTick reads, one load instruction each (volatile: all kept,
+    /// in order).
+    macro_rules! read8 {
+        () => {
+            now();
+            now();
+            now();
+            now();
+            now();
+            now();
+            now();
+            now();
+        };
+    }
+
+    /// 64 SysTick reads, straight-line.
+    macro_rules! read64 {
+        () => {
+            read8!();
+            read8!();
+            read8!();
+            read8!();
+            read8!();
+            read8!();
+            read8!();
+            read8!();
+        };
+    }
+
+    /// Instructions across 64 SysTick reads, timed inside one leaf function
+    /// so that no caller code (spills) lands in the region.
+    #[inline(never)]
+    fn reads64() -> u64 {
+        let t0 = now();
+        read64!();
+        let t1 = now();
+        insns(t0, t1)
+    }
+
+    /// The same across 128 reads.
+    #[inline(never)]
+    fn reads128() -> u64 {
+        let t0 = now();
+        read64!();
+        read64!();
+        let t1 = now();
+        insns(t0, t1)
+    }
+
+    /// Checks the tick-to-instruction conversion: 64 more SysTick reads
+    /// (one load each) must come out as exactly 64 more instructions.
+    fn calibrate() -> Result<(), ()> {
+        let (n64, n128) = (reads64(), reads128());
+        hprintln!(
+            "cortexm-calib: target={} machine={} icount_shift={} reads64={} reads128={}",
+            TRIPLE,
+            MACHINE.1,
+            SHIFT,
+            n64,
+            n128
+        );
+        if n128 == n64 + 64 {
+            Ok(())
+        } else {
+            hprintln!(
+                "cortexm-error: 64 loads read as {} instructions: is QEMU running with -icount shift={}?",
+                n128 as i64 - n64 as i64,
+                SHIFT
+            );
+            Err(())
+        }
+    }
+
+    const AMBIENT: &[Knot] = &[k(0, 20)];
+
+    fn source<const N: usize>() -> Source<N> {
+        let spec = SignalSpec {
+            rate_hz: RATE_HZ,
+            mains_mhz: 50_000,
+            bias: 2048,
+            lo: 0,
+            hi: 4095,
+            spike_ms: 0,
+            seed: 0x5eed,
+        };
+        let chans: [ChannelSpec; 4] = core::array::from_fn(|c| ChannelSpec {
+            phase: (c as u32) << 30,
+            knots: AMBIENT,
+            third_q8: 0,
+            noise_x16: 16,
+        });
+        Source::new(spec, &chans)
+    }
+
+    #[inline(always)]
+    fn frame<const N: usize>(src: &mut Source<N>) -> [u16; N] {
+        src.frame().map(|x| x as u16)
+    }
+
+    // Measured regions are calls of `#[inline(never)]` functions between two
+    // SysTick reads; each figure is converted and passed through `black_box`
+    // before the next read, so no bookkeeping lands inside a region.
+
+    #[inline(never)]
+    fn block_with<const N: usize>(det: &mut Detector<N>, src: &mut Source<N>, events: &mut u32) {
+        for _ in 0..BLOCK {
+            let f = frame(src);
+            det.push_frame(&f, |_| *events += 1);
+        }
+    }
+
+    #[inline(never)]
+    fn block_without<const N: usize>(src: &mut Source<N>) {
+        for _ in 0..BLOCK {
+            let f = frame(src);
+            black_box(&f);
+        }
+    }
+
+    /// Instructions of `FRAMES` frames through the detector, generator included.
+    fn with_detector<const N: usize>(
+        det: &mut Detector<N>,
+        src: &mut Source<N>,
+        events: &mut u32,
+    ) -> u64 {
+        let mut total = 0;
+        for _ in 0..FRAMES / BLOCK {
+            let t0 = now();
+            block_with(det, src, events);
+            let t1 = now();
+            total = black_box(total + insns(t0, t1));
+        }
+        total
+    }
+
+    /// Instructions of the same loop without the detector.
+    fn without_detector<const N: usize>(src: &mut Source<N>) -> u64 {
+        let mut total = 0;
+        for _ in 0..FRAMES / BLOCK {
+            let t0 = now();
+            block_without(src);
+            let t1 = now();
+            total = black_box(total + insns(t0, t1));
+        }
+        total
+    }
+
+    #[inline(never)]
+    fn block_call<const N: usize>(det: &mut Detector<N>, buf: &[u16], events: &mut u32) {
+        det.push_block(buf, |_| *events += 1);
+    }
+
+    /// Instructions of `Detector::push_block` over `FRAMES` frames, in
+    /// blocks of `BLOCK` frames generated beforehand (not measured).
+    fn push_block_cost<const N: usize>(
+        det: &mut Detector<N>,
+        src: &mut Source<N>,
+        events: &mut u32,
+    ) -> u64 {
+        let mut buf = [0u16; BLOCK as usize * 8];
+        let len = BLOCK as usize * N;
+        let mut total = 0;
+        for _ in 0..FRAMES / BLOCK {
+            for chunk in buf[..len].chunks_exact_mut(N) {
+                chunk.copy_from_slice(&frame(src));
+            }
+            let b = black_box(&buf[..len]);
+            let t0 = now();
+            block_call(det, b, events);
+            let t1 = now();
+            total = black_box(total + insns(t0, t1));
+        }
+        total
+    }
+
+    #[inline(never)]
+    fn front_call<const N: usize>(front: &mut Frontend<N, 0>, f: &[u16; N]) -> Option<Cycle<N, 0>> {
+        front.push_frame(f)
+    }
+
+    #[inline(never)]
+    fn back_call<const N: usize>(back: &mut Backend<N, 0>, c: &Cycle<N, 0>) {
+        back.process(c, |e| {
+            black_box(e);
+        });
+    }
+
+    /// The call overhead that `front_call` and `back_call` add: the same
+    /// signature, doing nothing.
+    #[inline(never)]
+    fn empty_call<const N: usize>(front: &mut Frontend<N, 0>, f: &[u16; N]) -> Option<Cycle<N, 0>> {
+        black_box((front, f));
+        None
+    }
+
+    /// Per-call costs of the split pipeline over `FRAMES` frames, call
+    /// overhead subtracted: [frames that end no cycle, their instructions,
+    /// frames that end one, their instructions, `Backend::process`
+    /// instructions].
+    fn stages<const N: usize>(
+        front: &mut Frontend<N, 0>,
+        back: &mut Backend<N, 0>,
+        src: &mut Source<N>,
+    ) -> [u64; 5] {
+        let f = black_box(frame(src));
+        let t0 = now();
+        let _ = empty_call(front, &f);
+        let t1 = now();
+        let overhead = black_box(insns(t0, t1));
+        let mut r = [0u64; 5];
+        for _ in 0..FRAMES {
+            black_box(&r);
+            let f = black_box(frame(src));
+            let t0 = now();
+            let c = front_call(front, &f);
+            let t1 = now();
+            let cost = black_box(insns(t0, t1).saturating_sub(overhead));
+            match c {
+                None => {
+                    r[0] += 1;
+                    r[1] += cost;
+                }
+                Some(cycle) => {
+                    r[2] += 1;
+                    r[3] += cost;
+                    let cycle = black_box(cycle);
+                    let t2 = now();
+                    back_call(back, &cycle);
+                    let t3 = now();
+                    r[4] += black_box(insns(t2, t3).saturating_sub(overhead));
+                }
+            }
+        }
+        r
+    }
+
+    /// `a / b` with two decimals, as integer and hundredths.
+    fn ratio(a: u64, b: u64) -> (u64, u64) {
+        let b = b.max(1);
+        let x100 = (a * 100 + b / 2) / b;
+        (x100 / 100, x100 % 100)
+    }
+
+    /// The figure handed in by `.ci/cortexm` for `n` channels, if any.
+    fn flash_for(n: usize) -> Option<u32> {
+        let s = option_env!("CORTEXM_FLASH")?;
+        for item in s.split(',') {
+            let mut kv = item.splitn(2, '=');
+            let (Some(key), Some(val)) = (kv.next(), kv.next()) else {
+                continue;
+            };
+            if key.trim().parse::<usize>().ok() == Some(n) {
+                return val.trim().parse().ok();
+            }
+        }
+        None
+    }
+
+    fn bench<const N: usize>(profile: Profile) -> Result<(), ()> {
+        let (cfg, name) = match profile {
+            Profile::Touch => (Config::touch(), "touch"),
+            Profile::Field => (Config::field(), "field"),
+        };
+        let (Ok(mut det), Ok(mut front), Ok(mut back)) = (
+            Detector::<N>::new(cfg),
+            Frontend::<N, 0>::new(&cfg),
+            Backend::<N, 0>::new(&cfg),
+        ) else {
+            hprintln!("cortexm-error: configuration rejected");
+            return Err(());
+        };
+        let mut src = source::<N>();
+        let mut events = 0u32;
+        for _ in 0..WARM_FRAMES {
+            let f = frame(&mut src);
+            det.push_frame(&f, |_| events += 1);
+            if let Some(c) = front.push_frame(&f) {
+                back.process(&c, |_| {});
+            }
+        }
+        let start = src;
+        let det_start = det.clone();
+        let with = with_detector(&mut det, &mut src, &mut events);
+        // Same start, same input: the count must repeat exactly.
+        let (mut det2, mut src2) = (det_start.clone(), start);
+        let again = with_detector(&mut det2, &mut src2, &mut events);
+        let without = without_detector(&mut start.clone());
+        let st = stages(&mut front, &mut back, &mut start.clone());
+        let (mut det3, mut src3) = (det_start, start);
+        let block = push_block_cost(&mut det3, &mut src3, &mut events);
+        if with != again {
+            hprintln!(
+                "cortexm-error: repeated run counted {} then {} instructions (no -icount?)",
+                with,
+                again
+            );
+            return Err(());
+        }
+        let samples = u64::from(FRAMES) * N as u64;
+        let (ip, ipf) = ratio(with.saturating_sub(without), samples);
+        let ram = core::mem::size_of::<Detector<N>>();
+        match flash_for(N) {
+            Some(flash) => hprintln!(
+                "cortexm: target={} profile={} channels={} insn_per_sample={}.{:02} ram_bytes={} flash_bytes={}",
+                TRIPLE, name, N, ip, ipf, ram, flash
+            ),
+            None => hprintln!(
+                "cortexm: target={} profile={} channels={} insn_per_sample={}.{:02} ram_bytes={} flash_bytes=na",
+                TRIPLE, name, N, ip, ipf, ram
+            ),
+        }
+        // Per frame that ends no cycle, per channel; the extra cost of a
+        // frame that ends one; Backend::process per cycle.
+        let plain = st[1] * 100 / st[0].max(1);
+        let ending = st[3] * 100 / st[2].max(1);
+        let (s, sf) = ratio(st[1], st[0] * N as u64);
+        let extra = ending.saturating_sub(plain);
+        let (b, bf) = ratio(st[4], st[2]);
+        let (spc, spcf) = ratio(u64::from(FRAMES), st[2]);
+        let (pb, pbf) = ratio(block, samples);
+        hprintln!(
+            "cortexm-stage: target={} profile={} channels={} sample_path_insn_per_sample={}.{:02} frontend_cycle_end_insn={}.{:02} backend_insn_per_cycle={}.{:02} samples_per_cycle={}.{:02} push_block_insn_per_sample={}.{:02}",
+            TRIPLE, name, N, s, sf, extra / 100, extra % 100, b, bf, spc, spcf, pb, pbf
+        );
+        Ok(())
+    }
+
+    fn run() -> Result<(), ()> {
+        calibrate()?;
+        for profile in [Profile::Touch, Profile::Field] {
+            bench::<1>(profile)?;
+            bench::<4>(profile)?;
+            bench::<8>(profile)?;
+        }
+        Ok(())
+    }
+
+    /// Flash probe: a minimal firmware that reads "ADC" codes (SysTick
+    /// stands in for the converter) into a `Detector<N>` and consumes its
+    /// events. The configuration goes through `black_box`, so construction
+    /// and validation are kept as a firmware that loads its settings would.
+    fn probe<const N: usize>() -> ! {
+        let cfg = black_box(Config::touch());
+        let Ok(mut det) = Detector::<N>::new(cfg) else {
+            loop {
+                nop();
+            }
+        };
+        loop {
+            let f = [now() as u16; N];
+            det.push_frame(&f, |e| {
+                black_box(e);
+            });
+        }
+    }
+
+    /// The same firmware without the detector.
+    fn probe_without() -> ! {
+        loop {
+            black_box([now() as u16; 1]);
+        }
+    }
+
+    #[entry]
+    fn main() -> ! {
+        let Some(mut p) = cortex_m::Peripherals::take() else {
+            loop {
+                nop();
+            }
+        };
+        p.SYST.set_clock_source(SystClkSource::Core);
+        p.SYST.set_reload(0x00ff_ffff);
+        p.SYST.clear_current();
+        p.SYST.enable_counter();
+        match PROBE {
+            0 => probe_without(),
+            1 => probe::<1>(),
+            4 => probe::<4>(),
+            8 => probe::<8>(),
+            _ => {}
+        }
+        let status = run();
+        debug::exit(match status {
+            Ok(()) => debug::EXIT_SUCCESS,
+            Err(()) => debug::EXIT_FAILURE,
+        });
+        loop {
+            nop();
+        }
+    }
+
+    #[panic_handler]
+    fn panic(info: &core::panic::PanicInfo) -> ! {
+        if PROBE == 255 {
+            hprintln!("cortexm-error: panic: {}", info);
+            debug::exit(debug::EXIT_FAILURE);
+        }
+        loop {
+            nop();
+        }
+    }
+}
