@@ -11,7 +11,7 @@
 //! label files. [`score`] matches detector events to labels; [`replay`]
 //! reads logs (CSV, WAV, raw) and runs the detector; [`configfile`] reads and
 //! writes detector configurations; [`plot`] draws runs; [`demo`] is
-//! `humsim demo`.
+//! `humsim demo`; [`tune`] sweeps detector constants on a labelled log.
 //!
 //! ```
 //! use humsim::scenario::{Scenario, RenderOptions};
@@ -40,3 +40,4 @@ pub mod replay;
 pub mod rng;
 pub mod scenario;
 pub mod score;
+pub mod tune;

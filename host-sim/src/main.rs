@@ -70,6 +70,37 @@ enum Command {
         #[arg(long, value_name = "FILE.png")]
         plot: Option<PathBuf>,
     },
+    /// Choose detection constants on a labelled log: sweep back-end
+    /// configurations over the recorded mains cycles, pick the lowest
+    /// latency with no missed label within the false-event budget.
+    Tune {
+        #[command(flatten)]
+        input: InputArgs,
+        #[command(flatten)]
+        detector: DetectorArgs,
+        /// Ground-truth labels (channel,kind,start_s,end_s).
+        #[arg(long, value_name = "FILE")]
+        labels: PathBuf,
+        /// The starting configuration (TOML); front-end fields stay as it has them.
+        #[arg(long, value_name = "FILE.toml")]
+        config: Option<PathBuf>,
+        /// False events per hour allowed.
+        #[arg(long, value_name = "PER_HOUR", default_value_t = 0.0)]
+        budget: f64,
+        /// Grid points to try (besides the start and the profile defaults).
+        #[arg(long, value_name = "N", default_value_t = 1000)]
+        points: usize,
+        /// Seed of the random draw of grid points.
+        #[arg(long, value_name = "N", default_value_t = 1)]
+        seed: u64,
+        /// Write the chosen configuration (TOML, for replay --config) here
+        /// instead of stdout.
+        #[arg(long, value_name = "FILE.toml")]
+        out: Option<PathBuf>,
+        /// Plot false events per hour against median latency.
+        #[arg(long, value_name = "FILE.png")]
+        plot: Option<PathBuf>,
+    },
 }
 
 /// How to read an input file.
@@ -145,6 +176,29 @@ fn main() -> ExitCode {
         } => simulate(&scenario, &output, seconds, seed, time_column),
         Command::Scenarios => scenarios(),
         Command::Demo { plot } => demo(plot),
+        Command::Tune {
+            input,
+            detector,
+            labels,
+            config,
+            budget,
+            points,
+            seed,
+            out,
+            plot,
+        } => humsim::tune::command(&humsim::tune::TuneCommand {
+            input: input.spec(),
+            mains: detector.mains(),
+            profile: detector.profile(),
+            config,
+            labels,
+            budget_per_hour: budget,
+            points,
+            seed,
+            out,
+            plot,
+            progress: std::io::IsTerminal::is_terminal(&std::io::stderr()),
+        }),
         Command::Replay {
             input,
             detector,

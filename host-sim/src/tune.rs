@@ -1,0 +1,520 @@
+//! `humsim tune`: choose detection constants on a labelled log.
+//!
+//! 1. The log is read once through a [`humsense::Frontend`] built from the
+//!    starting configuration, and every [`Cycle`] is kept (about 50 bytes
+//!    per channel-cycle: 9 MB for an hour of one channel at 50 Hz).
+//! 2. Candidate back-end configurations are run over the recorded cycles
+//!    with [`Backend::process`], in parallel on every core (rayon), and each
+//!    is scored against the labels ([`crate::score`]).
+//! 3. The chosen one has no missed label and at most `budget` false events
+//!    per hour, and among those the lowest median on latency (then the
+//!    lowest 95th percentile, then the fewest false events, then the lowest
+//!    median off latency).
+//! 4. The chosen configuration is checked by a full replay of the log
+//!    through a [`humsense::Detector`]: its events must equal the fast
+//!    path's exactly, or tune fails.
+//!
+//! Swept (the back end): `on_ratio`, `off_ratio` (as a share of the on
+//! ratio's excess over 1), `on_noise`, `off_noise` (as a share of
+//! `on_noise`), `debounce_on`, `debounce_off`, `baseline_rise_shift`,
+//! `baseline_fall_shift` and `avg_shift`. The grid (see [`Grid`]) has about
+//! 2 million points; `points` of them are drawn at random (deterministic
+//! seed), plus the starting configuration and the profile's defaults.
+//!
+//! Fixed: everything the front end uses (`sample_rate_hz`, `adc_bits`,
+//! `mains`, `spike_max_len`, `spike_floor_codes`, `track_min_codes`,
+//! `mains_lost_cycles`), since recorded cycles already embody them, and the
+//! rest of the back end (start-up, noise time constant, floors, levels,
+//! panel and fault constants) as the starting configuration has them.
+
+use crate::replay::{drive, with_channels, ChannelTask, FrameSource, InputSpec};
+use crate::score::{check_labels, read_labels, score_events, Score, ScoreOptions};
+use humsense::{Backend, Config, Cycle, Detector, Event};
+use rayon::prelude::*;
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+/// The values swept, per constant.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Grid {
+    /// `on_ratio`.
+    pub on_ratio: Vec<f32>,
+    /// `off_ratio = 1 + share · (on_ratio − 1)`.
+    pub off_share: Vec<f32>,
+    /// `on_noise`.
+    pub on_noise: Vec<f32>,
+    /// `off_noise = share · on_noise`.
+    pub off_noise_share: Vec<f32>,
+    /// `debounce_on`.
+    pub debounce_on: Vec<u8>,
+    /// `debounce_off`.
+    pub debounce_off: Vec<u8>,
+    /// `baseline_rise_shift`.
+    pub rise_shift: Vec<u8>,
+    /// `baseline_fall_shift` (clipped to the rise shift).
+    pub fall_shift: Vec<u8>,
+    /// `avg_shift`.
+    pub avg_shift: Vec<u8>,
+}
+
+impl Default for Grid {
+    fn default() -> Self {
+        Grid {
+            on_ratio: vec![1.3, 1.5, 1.8, 2.0, 2.4, 2.8, 3.4, 4.0, 5.0, 6.0],
+            off_share: vec![0.3, 0.45, 0.6, 0.75],
+            on_noise: vec![3.0, 4.0, 6.0, 8.0, 12.0, 16.0],
+            off_noise_share: vec![0.3, 0.5, 0.7],
+            debounce_on: vec![1, 2, 3, 4, 6],
+            debounce_off: vec![1, 2, 3, 5, 8],
+            rise_shift: vec![5, 6, 7, 8, 9, 10, 11, 12],
+            fall_shift: vec![3, 4, 5, 6],
+            avg_shift: vec![0, 1, 2, 3],
+        }
+    }
+}
+
+impl Grid {
+    /// Points in the grid.
+    pub fn size(&self) -> usize {
+        self.on_ratio.len()
+            * self.off_share.len()
+            * self.on_noise.len()
+            * self.off_noise_share.len()
+            * self.debounce_on.len()
+            * self.debounce_off.len()
+            * self.rise_shift.len()
+            * self.fall_shift.len()
+            * self.avg_shift.len()
+    }
+
+    /// The grid point with index `k` (mixed radix), applied to `base`.
+    pub fn point(&self, base: &Config, mut k: usize) -> Config {
+        fn pick<T: Copy>(v: &[T], k: &mut usize, or: T) -> T {
+            let n = v.len().max(1);
+            let x = v.get(*k % n).copied().unwrap_or(or);
+            *k /= n;
+            x
+        }
+        let mut c = *base;
+        c.on_ratio = pick(&self.on_ratio, &mut k, base.on_ratio);
+        let share = pick(&self.off_share, &mut k, 0.5);
+        c.off_ratio = 1.0 + share * (c.on_ratio - 1.0);
+        c.on_noise = pick(&self.on_noise, &mut k, base.on_noise);
+        c.off_noise = c.on_noise * pick(&self.off_noise_share, &mut k, 0.5);
+        c.debounce_on = pick(&self.debounce_on, &mut k, base.debounce_on);
+        c.debounce_off = pick(&self.debounce_off, &mut k, base.debounce_off);
+        c.baseline_rise_shift = pick(&self.rise_shift, &mut k, base.baseline_rise_shift);
+        c.baseline_fall_shift =
+            pick(&self.fall_shift, &mut k, base.baseline_fall_shift).min(c.baseline_rise_shift);
+        c.avg_shift = pick(&self.avg_shift, &mut k, base.avg_shift);
+        c
+    }
+}
+
+/// Copies the swept back-end fields of `from` into `base`, keeping every
+/// other field of `base`.
+pub fn with_swept(base: &Config, from: &Config) -> Config {
+    Config {
+        on_ratio: from.on_ratio,
+        off_ratio: from.off_ratio,
+        on_noise: from.on_noise,
+        off_noise: from.off_noise,
+        debounce_on: from.debounce_on,
+        debounce_off: from.debounce_off,
+        baseline_rise_shift: from.baseline_rise_shift,
+        baseline_fall_shift: from.baseline_fall_shift,
+        avg_shift: from.avg_shift,
+        ..*base
+    }
+}
+
+/// The candidates: the start, the profile's defaults with the start's fixed
+/// fields, then `points` distinct grid points drawn with `seed`.
+pub fn candidates(start: &Config, grid: &Grid, points: usize, seed: u64) -> Vec<Config> {
+    let defaults = match start.profile {
+        humsense::Profile::Field => Config::field(),
+        _ => Config::touch(),
+    };
+    let mut out = vec![*start, with_swept(start, &defaults)];
+    let size = grid.size().max(1);
+    let mut seen = std::collections::HashSet::new();
+    let mut rng = crate::rng::Rng::new(seed, 0x7475_6e65);
+    let mut tries = 0usize;
+    while seen.len() < points.min(size) && tries < points.saturating_mul(20) + 100 {
+        tries += 1;
+        let k = (rng.next_u64() % size as u64) as usize;
+        if seen.insert(k) {
+            out.push(grid.point(start, k));
+        }
+    }
+    out
+}
+
+/// One candidate's result.
+#[derive(Debug, Clone)]
+pub struct Trial {
+    /// The configuration.
+    pub config: Config,
+    /// Its score.
+    pub score: Score,
+    /// False events per hour of input.
+    pub false_per_hour: f64,
+    /// Median on latency, ms (infinite with no detection).
+    pub on_median_ms: f64,
+    /// 95th percentile on latency, ms.
+    pub on_p95_ms: f64,
+    /// Median off latency, ms.
+    pub off_median_ms: f64,
+}
+
+impl Trial {
+    /// No missed label and within the budget.
+    pub fn feasible(&self, budget_per_hour: f64) -> bool {
+        self.score.missed() == 0 && self.false_per_hour <= budget_per_hour
+    }
+
+    fn key(&self) -> (f64, f64, usize, f64) {
+        (
+            self.on_median_ms,
+            self.on_p95_ms,
+            self.score.false_events(),
+            self.off_median_ms,
+        )
+    }
+}
+
+/// Orders trials best first (see the module docs).
+pub fn rank(trials: &mut [Trial]) {
+    trials.sort_by(|a, b| {
+        let (ka, kb) = (a.key(), b.key());
+        ka.0.total_cmp(&kb.0)
+            .then(ka.1.total_cmp(&kb.1))
+            .then(ka.2.cmp(&kb.2))
+            .then(ka.3.total_cmp(&kb.3))
+    });
+}
+
+/// Runs `cfg`'s back end over recorded `cycles`; the events in order.
+/// `None` if the core crate refuses the configuration.
+pub fn fast_events<const N: usize>(cycles: &[Cycle<N, 0>], cfg: &Config) -> Option<Vec<Event>> {
+    let mut back = Backend::<N, 0>::new(cfg).ok()?;
+    let mut events = Vec::new();
+    for c in cycles {
+        back.process(c, |e| events.push(e));
+    }
+    Some(events)
+}
+
+/// A full run of `src` through a [`Detector`] built from `cfg`.
+pub fn full_events<const N: usize>(
+    src: &mut dyn FrameSource,
+    cfg: &Config,
+) -> Result<Vec<Event>, String> {
+    let mut det = Detector::<N, 0>::new(*cfg).map_err(|e| e.to_string())?;
+    let mut events = Vec::new();
+    let signed = src.signed();
+    let mut buf = vec![0i32; 4096 * N];
+    loop {
+        let frames = src.read(&mut buf)?;
+        if frames == 0 {
+            break;
+        }
+        for chunk in buf.chunks_exact(N).take(frames) {
+            let Ok(codes) = <&[i32; N]>::try_from(chunk) else {
+                continue;
+            };
+            if signed {
+                det.push_frame(&codes.map(|v| v as i16), |e| events.push(e));
+            } else {
+                det.push_frame(&codes.map(|v| v as u16), |e| events.push(e));
+            }
+        }
+    }
+    Ok(events)
+}
+
+/// What `humsim tune` was asked.
+#[derive(Debug, Clone)]
+pub struct TuneCommand {
+    /// The input.
+    pub input: InputSpec,
+    /// `--mains`.
+    pub mains: Option<humsense::MainsMode>,
+    /// `--profile`.
+    pub profile: Option<humsense::Profile>,
+    /// `--config`: the starting configuration.
+    pub config: Option<PathBuf>,
+    /// `--labels`.
+    pub labels: PathBuf,
+    /// `--budget`: false events per hour allowed.
+    pub budget_per_hour: f64,
+    /// `--points`: grid points to try.
+    pub points: usize,
+    /// `--seed` of the draw.
+    pub seed: u64,
+    /// `--out`: the chosen configuration as TOML (stdout without).
+    pub out: Option<PathBuf>,
+    /// `--plot`: the trade-off picture.
+    pub plot: Option<PathBuf>,
+    /// Show a progress bar (on a terminal).
+    pub progress: bool,
+}
+
+/// What tune found.
+#[derive(Debug, Clone)]
+pub struct TuneOutcome {
+    /// Every trial, best first.
+    pub trials: Vec<Trial>,
+    /// Index into `trials` of the chosen one, if any is feasible.
+    pub chosen: Option<usize>,
+    /// Input length, seconds.
+    pub seconds: f64,
+    /// Channel names.
+    pub names: Vec<String>,
+    /// Events of the chosen configuration, as the fast path gave them.
+    pub events: Vec<Event>,
+    /// Whether a full replay reproduced `events` exactly (checked for the
+    /// chosen configuration).
+    pub verified: bool,
+    /// Time spent sweeping, seconds.
+    pub sweep_s: f64,
+}
+
+/// Runs the tuning (no output files; see [`command`]).
+pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
+    if !(cmd.budget_per_hour.is_finite() && cmd.budget_per_hour >= 0.0) {
+        return Err(format!(
+            "--budget {}: expected false events per hour >= 0",
+            cmd.budget_per_hour
+        ));
+    }
+    let mut src = crate::replay::open_input(&cmd.input)?;
+    let start =
+        crate::replay::config_for(src.as_ref(), cmd.profile, cmd.mains, cmd.config.as_deref())?;
+    let labels_name = cmd.labels.display().to_string();
+    let labels = read_labels(&cmd.labels)?;
+    let names = src.channel_names().to_vec();
+    check_labels(&labels, &names, f64::INFINITY, 0.0, &labels_name)?;
+    let kind = crate::replay::label_kind(&start);
+    if !labels.iter().any(|l| l.kind == kind) {
+        return Err(format!(
+            "{labels_name}: no `{}` labels to tune the {} profile on",
+            kind.as_str(),
+            kind.as_str()
+        ));
+    }
+    with_channels(
+        names.len(),
+        TuneTask {
+            cmd,
+            src: src.as_mut(),
+            start,
+            labels,
+            names: names.clone(),
+        },
+    )
+}
+
+struct TuneTask<'a> {
+    cmd: &'a TuneCommand,
+    src: &'a mut dyn FrameSource,
+    start: Config,
+    labels: Vec<crate::scenario::Label>,
+    names: Vec<String>,
+}
+
+impl ChannelTask for TuneTask<'_> {
+    type Output = TuneOutcome;
+    fn run<const N: usize>(self) -> Result<TuneOutcome, String> {
+        let rate = self.src.rate_hz();
+        let mut cycles: Vec<Cycle<N, 0>> = Vec::new();
+        let frames = drive::<N>(
+            self.src,
+            &self.start,
+            |_, _| {},
+            |c| {
+                cycles.push(*c);
+                Ok(())
+            },
+        )?;
+        let seconds = frames as f64 / rate;
+        let labels_name = self.cmd.labels.display().to_string();
+        check_labels(&self.labels, &self.names, seconds, 1.0 / rate, &labels_name)?;
+        let opts = ScoreOptions::for_kind(crate::replay::label_kind(&self.start));
+        let cands = candidates(
+            &self.start,
+            &Grid::default(),
+            self.cmd.points,
+            self.cmd.seed,
+        );
+        let bar = if self.cmd.progress {
+            indicatif::ProgressBar::new(cands.len() as u64)
+        } else {
+            indicatif::ProgressBar::hidden()
+        };
+        bar.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{spinner} tuning [{elapsed_precise}] {wide_bar} {pos}/{len} configs ({eta} left)",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        let hours = seconds / 3600.0;
+        let names = &self.names;
+        let labels = &self.labels;
+        let t0 = std::time::Instant::now();
+        let mut trials: Vec<Trial> = cands
+            .par_iter()
+            .filter_map(|cfg| {
+                let events = fast_events::<N>(&cycles, cfg);
+                bar.inc(1);
+                let events = events?;
+                let score = score_events(&events, rate, names, labels, &opts).ok()?;
+                let on = score.on_latency();
+                let off = score.off_latency();
+                Some(Trial {
+                    config: *cfg,
+                    false_per_hour: score.false_events() as f64 / hours.max(1e-12),
+                    on_median_ms: on.map_or(f64::INFINITY, |l| l.median_ms),
+                    on_p95_ms: on.map_or(f64::INFINITY, |l| l.p95_ms),
+                    off_median_ms: off.map_or(f64::INFINITY, |l| l.median_ms),
+                    score,
+                })
+            })
+            .collect();
+        bar.finish_and_clear();
+        let sweep_s = t0.elapsed().as_secs_f64();
+        rank(&mut trials);
+        let budget = self.cmd.budget_per_hour;
+        let chosen = trials.iter().position(|t| t.feasible(budget));
+        let mut events = Vec::new();
+        let mut verified = false;
+        if let Some(t) = chosen.and_then(|i| trials.get(i)) {
+            events = fast_events::<N>(&cycles, &t.config).unwrap_or_default();
+            drop(cycles);
+            let mut again = crate::replay::open_input(&self.cmd.input)?;
+            let full = full_events::<N>(again.as_mut(), &t.config)?;
+            if full != events {
+                return Err(format!(
+                    "internal error: the fast path gave {} events but a full replay of the \
+                     chosen configuration gave {}; please report this",
+                    events.len(),
+                    full.len()
+                ));
+            }
+            verified = true;
+        }
+        Ok(TuneOutcome {
+            trials,
+            chosen,
+            seconds,
+            names: self.names,
+            events,
+            verified,
+            sweep_s,
+        })
+    }
+}
+
+/// A table of the best `n` trials (feasible ones first).
+pub fn table(outcome: &TuneOutcome, budget: f64, n: usize) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "{:>4} {:>6} {:>6} {:>6} {:>6} {:>4} {:>4} {:>4} {:>4} {:>4} | {:>6} {:>6} {:>8} | {:>7} {:>7} {:>7}",
+        "rank", "on_r", "off_r", "on_n", "off_n", "dbOn", "dbOf", "rise", "fall", "avg",
+        "missed", "false", "false/h", "on med", "on p95", "off med"
+    );
+    let feasible = outcome.trials.iter().filter(|t| t.feasible(budget));
+    let rest = outcome.trials.iter().filter(|t| !t.feasible(budget));
+    for (i, t) in feasible.chain(rest).take(n).enumerate() {
+        let c = &t.config;
+        let _ = writeln!(
+            s,
+            "{:>4} {:>6.2} {:>6.2} {:>6.1} {:>6.1} {:>4} {:>4} {:>4} {:>4} {:>4} | {:>6} {:>6} {:>8.1} | {:>7.1} {:>7.1} {:>7.1}{}",
+            i + 1,
+            c.on_ratio,
+            c.off_ratio,
+            c.on_noise,
+            c.off_noise,
+            c.debounce_on,
+            c.debounce_off,
+            c.baseline_rise_shift,
+            c.baseline_fall_shift,
+            c.avg_shift,
+            t.score.missed(),
+            t.score.false_events(),
+            t.false_per_hour,
+            t.on_median_ms,
+            t.on_p95_ms,
+            t.off_median_ms,
+            if t.feasible(budget) { "" } else { "  (fails)" }
+        );
+    }
+    s
+}
+
+/// Runs `humsim tune`: the table and the Rust snippet to stdout, the TOML
+/// to `--out` (or stdout), the trade-off plot to `--plot`.
+pub fn command(cmd: &TuneCommand) -> Result<(), String> {
+    let outcome = tune(cmd)?;
+    let budget = cmd.budget_per_hour;
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "tuned on {} ({:.1} s, {} channels): {} configurations in {:.2} s",
+        cmd.input.path.display(),
+        outcome.seconds,
+        outcome.names.len(),
+        outcome.trials.len(),
+        outcome.sweep_s
+    );
+    out.push_str(&table(&outcome, budget, 8));
+    if let Some(p) = &cmd.plot {
+        let pts: Vec<(f64, f64)> = outcome
+            .trials
+            .iter()
+            .filter(|t| t.score.missed() == 0 && t.on_median_ms.is_finite())
+            .map(|t| (t.on_median_ms, t.false_per_hour))
+            .collect();
+        let chosen = outcome
+            .chosen
+            .and_then(|i| outcome.trials.get(i))
+            .map(|t| (t.on_median_ms, t.false_per_hour));
+        crate::plot::write_tradeoff_png(p, &pts, chosen, budget)?;
+        let _ = writeln!(out, "trade-off plot: {}", p.display());
+    }
+    let Some(best) = outcome.chosen.and_then(|i| outcome.trials.get(i)) else {
+        print!("{out}");
+        return Err(format!(
+            "no configuration tried detects every label with at most {budget} false events \
+             per hour; the closest are listed above (try --points, a larger --budget, or \
+             another --profile)"
+        ));
+    };
+    let toml = crate::configfile::to_toml(&best.config);
+    let _ = writeln!(
+        out,
+        "\nchosen: no missed label, {} false events ({:.1} per hour), median on latency \
+         {:.1} ms; a full replay reproduced its {} events exactly",
+        best.score.false_events(),
+        best.false_per_hour,
+        best.on_median_ms,
+        outcome.events.len()
+    );
+    match &cmd.out {
+        Some(p) => {
+            std::fs::write(p, &toml).map_err(|e| format!("{}: cannot write: {e}", p.display()))?;
+            let _ = writeln!(out, "config: {} (humsim replay --config {0})", p.display());
+        }
+        None => {
+            let _ = writeln!(out, "\n{toml}");
+        }
+    }
+    let _ = writeln!(
+        out,
+        "\n// For firmware:\n{}",
+        crate::configfile::to_rust(&best.config)
+    );
+    print!("{out}");
+    Ok(())
+}
