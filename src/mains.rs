@@ -168,6 +168,33 @@ impl MainsTracker {
         self.phase
     }
 
+    /// Samples until the present cycle ends, counting the one that ends it:
+    /// the least `k ≥ 1` with `phase + k·step ≥ 2^32` (one division).
+    pub fn samples_to_wrap(&self) -> u32 {
+        let step = u64::from(self.step.max(1));
+        let left = (1u64 << 32) - u64::from(self.phase) - 1;
+        (left / step + 1).min(u64::from(u32::MAX)) as u32
+    }
+
+    /// Ends a run of `k` samples processed outside the tracker (the block
+    /// path), leaving the phase at `phase`, which must be the phase after
+    /// `k` steps; `ends_cycle` says whether the run ended the cycle (it was
+    /// [`samples_to_wrap`](Self::samples_to_wrap) long). Returns the
+    /// cycle's sample count when it did, else 0, exactly as `k` calls of
+    /// [`advance`](Self::advance) would.
+    #[inline(always)]
+    pub fn finish_run(&mut self, phase: u32, k: u32, ends_cycle: bool) -> u32 {
+        self.phase = phase;
+        self.count = self.count.wrapping_add(k);
+        if ends_cycle {
+            let n = self.count;
+            self.count = 0;
+            n
+        } else {
+            0
+        }
+    }
+
     /// Advances one sample; returns the number of samples in the cycle when
     /// this sample completed one, else 0.
     #[inline(always)]

@@ -177,7 +177,18 @@ proptest! {
         rest.extend_from_slice(r);
         prop_assert_eq!(b.push_block(&rest, |e| eb.push(e)), 0);
         prop_assert_eq!(ea.len(), 2, "one touch on and off expected: {:?}", ea);
-        prop_assert_eq!(ea, eb);
+        prop_assert_eq!(&ea, &eb);
+        // The frame-by-frame path gives the same events and ends in the
+        // same state as the block path.
+        let mut c = Detector::<2, 0>::new(cfg).unwrap();
+        let mut ec = Vec::new();
+        for f in xs.chunks_exact(2) {
+            c.push_frame(&[f[0], f[1]], |e| ec.push(e));
+        }
+        prop_assert_eq!(&ea, &ec);
+        prop_assert_eq!(a.snapshot(0), c.snapshot(0));
+        prop_assert_eq!(a.snapshot(1), c.snapshot(1));
+        prop_assert_eq!(a.mains_hz(), c.mains_hz());
     }
 }
 
