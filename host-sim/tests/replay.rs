@@ -510,3 +510,38 @@ fn config_files_and_labels_are_checked() {
     // A failed run leaves no partial output file behind.
     assert!(!out.exists());
 }
+
+#[test]
+fn every_channel_count_up_to_sixteen_replays() {
+    // 1 s of steady 50 Hz hum (40 codes) on every channel, and a 20x rise on
+    // the last channel from 0.6 s: one touch-on there, whatever the width.
+    for n in [1usize, 5, 9, 16] {
+        let mut s: String = (0..n)
+            .map(|i| format!("c{i}"))
+            .collect::<Vec<_>>()
+            .join(",");
+        s.push('\n');
+        for k in 0..2000u32 {
+            let t = f64::from(k) / 2000.0;
+            let w = (std::f64::consts::TAU * 50.0 * t).sin();
+            let row: Vec<String> = (0..n)
+                .map(|i| {
+                    let a = if i == n - 1 && t >= 0.6 { 800.0 } else { 40.0 };
+                    format!("{}", (2048.0 + a * w).round() as i64)
+                })
+                .collect();
+            s.push_str(&row.join(","));
+            s.push('\n');
+        }
+        let path = tmp(&format!("wide{n}.csv"));
+        std::fs::write(&path, s).unwrap();
+        let (code, out, err) = run(&["replay", p(&path), "--rate", "2000"]);
+        assert_eq!(code, 0, "{n}: {err}");
+        let rows: Vec<&str> = out.lines().skip(1).collect();
+        assert_eq!(rows.len(), 1, "{n}: {out}");
+        assert!(
+            rows[0].contains(&format!(",c{},touch-on,", n - 1)),
+            "{n}: {out}"
+        );
+    }
+}
