@@ -154,22 +154,20 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         samples: &[S],
         mut on_cycle: impl FnMut(&Cycle<N, H>),
     ) -> usize {
-        let mut frames = samples.chunks_exact(N);
-        let rest = frames.remainder().len();
+        let whole = samples.len() - samples.len() % N;
+        let (mut remaining, rest) = samples.split_at(whole);
         let max_len = self.spike_max_len;
-        loop {
+        while !remaining.is_empty() {
             // The tracker may retune at every cycle end.
             let step = self.tracker.step();
-            let to_wrap = self.tracker.samples_to_wrap();
-            let avail = frames.len();
-            if avail == 0 {
-                return rest;
-            }
-            let take = avail.min(to_wrap as usize);
+            let to_wrap = self.tracker.samples_to_wrap() as usize;
+            let take = (remaining.len() / N).min(to_wrap);
+            let (run, tail) = remaining.split_at(take * N);
+            remaining = tail;
             let mut gates = self.impulse;
             let mut dems = self.demod;
             let mut phase = self.tracker.phase();
-            for chunk in frames.by_ref().take(take) {
+            for chunk in run.chunks_exact(N) {
                 let stages = gates.iter_mut().zip(dems.iter_mut());
                 for (x, (gate, dem)) in chunk.iter().zip(stages) {
                     let v = gate.filter(x.offset_code(), max_len);
@@ -179,13 +177,13 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             }
             self.impulse = gates;
             self.demod = dems;
-            let ends = take == to_wrap as usize;
-            let n = self.tracker.finish_run(phase, take as u32, ends);
+            let n = self.tracker.finish_run(phase, take as u32, take == to_wrap);
             if n != 0 {
                 let cycle = self.end_cycle(n, S::SIGNED);
                 on_cycle(&cycle);
             }
         }
+        rest.len()
     }
 
     #[inline(never)]

@@ -47,15 +47,16 @@ impl ImpulseState {
     /// demodulate (the input, or the held sample). Never panics.
     #[inline(always)]
     pub fn filter(&mut self, x: u16, max_len: u8) -> u16 {
-        let step = x.abs_diff(self.last);
-        if step > self.limit && self.run < max_len {
+        // In u32, so no masking to 16 bits is needed between steps.
+        let step = u32::from(x).abs_diff(u32::from(self.last));
+        if step > u32::from(self.limit) && self.run < max_len {
             self.run += 1;
             return self.last;
         }
         self.run = 0;
         self.last = x;
-        if step > self.max_step {
-            self.max_step = step;
+        if step > u32::from(self.max_step) {
+            self.max_step = step as u16;
         }
         x
     }
