@@ -2,12 +2,18 @@
 //!
 //! With `a` the cycle amplitude and `b` the baseline (both Q12 codes), and
 //! unless the caller freezes the update (channel active or above its on
-//! threshold):
+//! threshold, or, after start-up, a cycle below `nohum_codes`: no hum to
+//! learn from):
 //!
 //! - first cycle: `b = a`;
 //! - start-up (`startup_cycles`): `b += (a − b) / 4` either way;
 //! - afterwards: `b += (a − b) >> rise` when `a > b`, and
-//!   `b −= (b − a) >> fall` when `a < b` (fall ≤ rise: it falls faster).
+//!   `b −= (b − a) >> fall` when `a < b` (fall ≤ rise: it falls faster);
+//! - except through a sudden drop: a cycle below 0.7 b starts a hold in
+//!   which nothing is learnt, until `a` is back above 0.85 b or 100 cycles
+//!   have passed (then the new level is learnt, falling fast). A supply dip
+//!   would otherwise drag a slowly rising baseline down for a long time, and
+//!   the ordinary hum after it would look like a touch or a field.
 //!
 //! The noise estimate `σ̂` is an exponential average of a per-cycle noise
 //! sample `d`, `σ̂ += (min(d, 4σ̂ + 1 code) − σ̂) >> noise_shift` (`>> 3`
@@ -33,7 +39,21 @@ pub struct BaselineState {
     noise_q12: u32,
     /// Cycles learnt, saturating.
     cycles: u16,
+    /// Cycles held through a sudden drop (see the module docs).
+    held: u8,
 }
+
+/// A drop below this fraction of the baseline (Q8: 0.7) in one go is held
+/// rather than learnt.
+const HOLD_BELOW_Q8: u64 = 179;
+/// The hold ends when the amplitude is back above this fraction (Q8: 0.85).
+const HOLD_END_Q8: u64 = 218;
+/// Longest hold, in cycles (2 s at 50 Hz); a drop that lasts longer is a
+/// new level and is learnt.
+const HOLD_MAX: u8 = 100;
+/// `held` after a hold has run out: the new level is being learnt, and no
+/// new hold starts until the amplitude is back near the baseline.
+const EXPIRED: u8 = u8::MAX;
 
 /// The baseline stage's constants (from [`Config`](crate::Config)).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -56,6 +76,7 @@ impl BaselineState {
             base_q12: 0,
             noise_q12: 0,
             cycles: 0,
+            held: 0,
         }
     }
 
@@ -86,6 +107,39 @@ impl BaselineState {
         self.cycles = 0;
     }
 
+    /// Whether to hold the baseline through this cycle: a drop to below 0.7
+    /// of the baseline is held (a supply dip, EN 50160's 10 ms to 1 min,
+    /// mostly under a second) until the amplitude is back above 0.85 or
+    /// the drop has lasted 100 cycles and is taken as a new level.
+    fn hold(&mut self, a: u32, b: u32) -> bool {
+        let a = u64::from(a) << 8;
+        let b = u64::from(b);
+        let back = a >= b * HOLD_END_Q8;
+        if self.held == EXPIRED {
+            if back {
+                self.held = 0;
+            }
+            return false;
+        }
+        if self.held > 0 {
+            if back {
+                self.held = 0;
+                return false;
+            }
+            if self.held >= HOLD_MAX {
+                self.held = EXPIRED;
+                return false;
+            }
+            self.held += 1;
+            return true;
+        }
+        if a < b * HOLD_BELOW_Q8 {
+            self.held = 1;
+            return true;
+        }
+        false
+    }
+
     /// Multiplies baseline and noise by `ratio_q8 / 256` (a common ambient
     /// change across a panel), saturating.
     pub fn rescale(&mut self, ratio_q8: u32) {
@@ -99,6 +153,9 @@ impl BaselineState {
         let a = q8_to_q12(amp_q8);
         let b = self.base_q12;
         let startup = self.cycles < t.startup_cycles;
+        if !startup && self.hold(a, b) {
+            return;
+        }
         if self.cycles == 0 {
             self.base_q12 = a;
         } else if a > b {
@@ -166,18 +223,21 @@ mod tests {
             up.update(100 * 256, 0, &T);
             down.update(100 * 256, 0, &T);
         }
+        // Steps of +100 % and −20 % (a drop of more than 30 % is held:
+        // see the next test).
         for _ in 0..16 {
             up.update(200 * 256, 0, &T);
-            down.update(50 * 256, 0, &T);
+            down.update(80 * 256, 0, &T);
         }
         let rise = up.baseline_q8() as f64 / 256.0 - 100.0;
         let fall = 100.0 - down.baseline_q8() as f64 / 256.0;
         // Step response of an EMA after k cycles: 1 − (1 − 2^-s)^k.
         let want_rise = 100.0 * (1.0 - (1.0 - 1.0 / 128.0f64).powi(16));
-        let want_fall = 50.0 * (1.0 - (1.0 - 1.0 / 16.0f64).powi(16));
+        let want_fall = 20.0 * (1.0 - (1.0 - 1.0 / 16.0f64).powi(16));
         assert!((rise - want_rise).abs() < 0.5, "{rise} vs {want_rise}");
         assert!((fall - want_fall).abs() < 0.5, "{fall} vs {want_fall}");
-        assert!(fall > rise);
+        // Relative to the step, the fall is faster.
+        assert!(fall / 20.0 > rise / 100.0);
     }
 
     #[test]
@@ -196,6 +256,33 @@ mod tests {
         let before = b.noise_q8();
         b.update(100 * 256, 1_000 * 256, &T);
         assert!(b.noise_q8() <= before + (4 * before + 256) / 64 + 1);
+    }
+
+    #[test]
+    fn holds_through_a_dip_but_learns_a_lasting_drop() {
+        let mut b = BaselineState::new();
+        for _ in 0..30 {
+            b.update(100 * 256, 0, &T);
+        }
+        let before = b.baseline_q8();
+        // A 10-cycle dip to 40 % (EN 50160 dip, residual 40 %): held.
+        for _ in 0..10 {
+            b.update(40 * 256, 0, &T);
+        }
+        assert_eq!(b.baseline_q8(), before);
+        b.update(100 * 256, 0, &T);
+        assert!(b.baseline_q8().abs_diff(100 * 256) < 16);
+        // A lasting drop to half (a lamp switched off): learnt after the
+        // hold, then falling with the fall rate.
+        let before = b.baseline_q8();
+        for _ in 0..100 {
+            b.update(50 * 256, 0, &T);
+        }
+        assert_eq!(b.baseline_q8(), before);
+        for _ in 0..64 {
+            b.update(50 * 256, 0, &T);
+        }
+        assert!(b.baseline_q8() < 52 * 256, "{}", b.baseline_q8() / 256);
     }
 
     #[test]

@@ -433,6 +433,11 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 let may_on = pt.independent || (winner == Some(channel) && !others_active);
                 let (e, verdict) = c.decision.step(amp, b, n, may_on, &self.decision_t);
                 match verdict {
+                    // A cycle without hum (a supply interruption, a dropout
+                    // shorter than the no-hum fault) says nothing about the
+                    // untouched hum level: learning from it would make the
+                    // hum's return look like a touch.
+                    Verdict::Learn if amp < self.fault_t.nohum_q8() => {}
                     Verdict::Learn => c.baseline.update(amp, *d, &self.baseline_t),
                     Verdict::Freeze => {}
                     Verdict::Relearn => c.baseline.relearn(amp),

@@ -51,6 +51,13 @@ impl FaultTuning {
     }
 }
 
+impl FaultTuning {
+    /// `nohum_codes` in Q8: below it a cycle carries no hum to learn from.
+    pub const fn nohum_q8(&self) -> u32 {
+        self.nohum_q8
+    }
+}
+
 /// What the fault stage sees of one channel's cycle.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct FaultInput {
