@@ -296,7 +296,9 @@ impl MainsTracker {
     fn correct(&mut self, e: i32) {
         let full = (i64::from(e) * i64::from(self.step)) >> 32;
         let wanted = i64::from(self.step) + (full >> 1);
-        let step = wanted.clamp(i64::from(self.min_step), i64::from(self.max_step));
+        // max/min rather than clamp: clamp asserts its bounds are ordered
+        // and would link a panic path for these run-time bounds.
+        let step = wanted.max(i64::from(self.min_step)).min(i64::from(self.max_step));
         let pinned = wanted != step && e.unsigned_abs() >= COARSE_E;
         if pinned {
             self.pinned_cycles = self.pinned_cycles.saturating_add(1);
@@ -379,7 +381,7 @@ impl MainsTracker {
         self.system = system;
         self.min_step = phase_step(lo, self.rate_hz);
         self.max_step = phase_step(hi, self.rate_hz);
-        self.step = self.step.clamp(self.min_step, self.max_step);
+        self.step = self.step.max(self.min_step).min(self.max_step);
     }
 
     /// Present reference frequency in hertz (diagnostics; uses `f32`).
