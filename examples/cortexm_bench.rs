@@ -23,11 +23,15 @@
 //! instructions, and the detector loop run twice from the same state must
 //! count the same. `SHIFT` below must match the runners' `-icount shift=`.
 //!
-//! - `insn_per_sample`: instructions of a loop that generates 2000 frames
-//!   (1 s, after 3 s of warm-up: past start-up and mains lock) and feeds
-//!   them to `Detector::push_frame`, minus the same loop without the
-//!   detector (the generator's own cost), divided by samples × channels.
-//!   Includes the per-cycle work, amortised.
+//! - `insn_per_sample`: instructions of `Detector::push_block`, the call a
+//!   firmware makes for each DMA buffer of a scanning ADC, over 2000 frames
+//!   (1 s, after 3 s of warm-up: past start-up and mains lock) in blocks of
+//!   200 interleaved frames, divided by samples × channels. The blocks are
+//!   generated before each timed call, so the figure holds no generator
+//!   cost. Includes the per-cycle work, amortised. (The same input frame
+//!   by frame through `Detector::push_frame`, in a loop that generates
+//!   each frame, minus that loop without the detector, is
+//!   `push_frame_insn_per_sample` below.)
 //! - `ram_bytes`: `size_of::<Detector<N>>()` (state only; no stack).
 //! - `flash_bytes`: text + data of a minimal firmware (ADC read loop →
 //!   `Detector<N>` → events) minus the same firmware without the detector,
@@ -42,8 +46,11 @@
 //! no cycle, per channel), `frontend_cycle_end_insn` (the extra on the frame
 //! that ends a cycle: normalisation, gate limits, mains tracker),
 //! `backend_insn_per_cycle` (`Backend::process`, all channels),
-//! `samples_per_cycle`, and `push_block_insn_per_sample` (the same input
-//! through `Detector::push_block` in blocks of 200 frames).
+//! `samples_per_cycle`, and `push_frame_insn_per_sample` (the same input
+//! through `Detector::push_frame`, one frame per call, generator cost
+//! subtracted) and `block_sample_path_insn_per_sample` (`Frontend::push_block`
+//! alone, minus its cycle ends at the cost of a frame that ends a cycle,
+//! per sample: the block path's per-sample loop).
 //!
 //! On the host this example only prints how to run it.
 #![cfg_attr(target_os = "none", no_std, no_main)]
@@ -289,6 +296,7 @@ mod target {
 
     /// Instructions of `Detector::push_block` over `FRAMES` frames, in
     /// blocks of `BLOCK` frames generated beforehand (not measured).
+    #[inline(never)]
     fn push_block_cost<const N: usize>(
         det: &mut Detector<N>,
         src: &mut Source<N>,
@@ -308,6 +316,38 @@ mod target {
             total = black_box(total + insns(t0, t1));
         }
         total
+    }
+
+    #[inline(never)]
+    fn front_block_call<const N: usize>(front: &mut Frontend<N, 0>, buf: &[u16], cycles: &mut u32) {
+        front.push_block(buf, |c| {
+            black_box(c);
+            *cycles += 1;
+        });
+    }
+
+    #[inline(never)]
+    /// Instructions of `Frontend::push_block` alone over `FRAMES` frames in
+    /// blocks of `BLOCK` frames, and the cycles it completed.
+    fn front_block_cost<const N: usize>(
+        front: &mut Frontend<N, 0>,
+        src: &mut Source<N>,
+    ) -> (u64, u32) {
+        let mut buf = [0u16; BLOCK as usize * 8];
+        let len = BLOCK as usize * N;
+        let mut total = 0;
+        let mut cycles = 0;
+        for _ in 0..FRAMES / BLOCK {
+            for chunk in buf[..len].chunks_exact_mut(N) {
+                chunk.copy_from_slice(&frame(src));
+            }
+            let b = black_box(&buf[..len]);
+            let t0 = now();
+            front_block_call(front, b, &mut cycles);
+            let t1 = now();
+            total = black_box(total + insns(t0, t1));
+        }
+        (total, cycles)
     }
 
     #[inline(never)]
@@ -423,18 +463,24 @@ mod target {
         let again = with_detector(&mut det2, &mut src2, &mut events);
         let without = without_detector(&mut start.clone());
         let st = stages(&mut front, &mut back, &mut start.clone());
-        let (mut det3, mut src3) = (det_start, start);
+        let mut front_b = det_start.frontend().clone();
+        let (fb, fb_cycles) = front_block_cost(&mut front_b, &mut start.clone());
+        let (mut det3, mut src3) = (det_start.clone(), start);
         let block = push_block_cost(&mut det3, &mut src3, &mut events);
-        if with != again {
+        let (mut det4, mut src4) = (det_start, start);
+        let block_again = push_block_cost(&mut det4, &mut src4, &mut events);
+        if with != again || block != block_again {
             hprintln!(
-                "cortexm-error: repeated run counted {} then {} instructions (no -icount?)",
+                "cortexm-error: repeated runs counted {} then {}, {} then {} instructions (no -icount?)",
                 with,
-                again
+                again,
+                block,
+                block_again
             );
             return Err(());
         }
         let samples = u64::from(FRAMES) * N as u64;
-        let (ip, ipf) = ratio(with.saturating_sub(without), samples);
+        let (ip, ipf) = ratio(block, samples);
         let ram = core::mem::size_of::<Detector<N>>();
         match flash_for(N) {
             Some(flash) => hprintln!(
@@ -454,10 +500,14 @@ mod target {
         let extra = ending.saturating_sub(plain);
         let (b, bf) = ratio(st[4], st[2]);
         let (spc, spcf) = ratio(u64::from(FRAMES), st[2]);
-        let (pb, pbf) = ratio(block, samples);
+        let (pb, pbf) = ratio(with.saturating_sub(without), samples);
+        // The block path's per-sample loop: Frontend::push_block minus its
+        // cycle ends (at the frame path's cost per cycle end).
+        let fb_loop = fb.saturating_sub(u64::from(fb_cycles) * (ending / 100));
+        let (bs, bsf) = ratio(fb_loop, samples);
         hprintln!(
-            "cortexm-stage: target={} profile={} channels={} sample_path_insn_per_sample={}.{:02} frontend_cycle_end_insn={}.{:02} backend_insn_per_cycle={}.{:02} samples_per_cycle={}.{:02} push_block_insn_per_sample={}.{:02}",
-            TRIPLE, name, N, s, sf, extra / 100, extra % 100, b, bf, spc, spcf, pb, pbf
+            "cortexm-stage: target={} profile={} channels={} sample_path_insn_per_sample={}.{:02} frontend_cycle_end_insn={}.{:02} backend_insn_per_cycle={}.{:02} samples_per_cycle={}.{:02} push_frame_insn_per_sample={}.{:02} block_sample_path_insn_per_sample={}.{:02}",
+            TRIPLE, name, N, s, sf, extra / 100, extra % 100, b, bf, spc, spcf, pb, pbf, bs, bsf
         );
         Ok(())
     }

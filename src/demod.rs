@@ -5,20 +5,24 @@
 //! binary (`u16`):
 //!
 //! `xc[n] = x[n] − dc` (|xc| ≤ 65 535),
-//! `I += (xc[n] · cos(θ[n]) + 2^10) >> 11`, `Q += (xc[n] · sin(θ[n]) + 2^10) >> 11`
-//! (Q15 table values; see [`PRODUCT_SHIFT`]), and for harmonic h the same
-//! with `h·θ[n]`; `S += x[n]`.
+//! `I += (xc[n] · cos(θ[n])) >> 11`, `Q += (xc[n] · sin(θ[n])) >> 11`
+//! (Q15 table values, arithmetic shift: floor; see [`PRODUCT_SHIFT`]), and
+//! for harmonic h the same with `h·θ[n]`; `S += x[n]`.
 //!
 //! `θ[n]` is the shared oscillator phase; a cycle ends when it wraps, so
 //! every window spans one whole turn of the reference at any sample rate.
-//! At the end of a cycle of `n` samples (once per cycle):
+//! At the end of a cycle of `n` samples (once per cycle), with the
+//! reciprocal `r = ⌊(2^32 − 1) / n⌋` (one division, only when `n` changes:
+//! see [`reciprocal`]):
 //!
-//! `i = 2^12·I / n`, `q = 2^12·Q / n` scaled to Q8 ADC codes, so that
-//! a sinusoid `A·cos(θ + φ)` gives `i = A·cos φ`, `q = −A·sin φ` (amplitude
-//! in codes, 256 = 1 code), and `dc = S / n` for the next cycle. The first
-//! cycle uses the mid-scale code as its DC.
+//! `i = ((I + ⌊n/2⌋) · r + 2^26) >> 27` (that is `32·I/n`), the same for
+//! `q`, scaled to Q8 ADC codes, so that a sinusoid `A·cos(θ + φ)` gives
+//! `i = A·cos φ`, `q = −A·sin φ` (amplitude in codes, 256 = 1 code); the
+//! `⌊n/2⌋` returns the mean of the per-sample floors (half a unit each).
+//! `dc = (S · r + 2^31) >> 32` (the rounded mean, within 1/32 code) for
+//! the next cycle. The first cycle uses the mid-scale code as its DC.
 
-use crate::nco::{cos_q15, sin_q15};
+use crate::nco::sin_cos_q15;
 
 /// One quadrature pair, Q8 ADC codes of amplitude.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
@@ -39,19 +43,29 @@ impl Iq {
     }
 }
 
-/// Right shift of every product before it is summed (with rounding).
+/// Right shift of every product before it is summed (arithmetic: floor).
 ///
 /// The longest cycle a validated config allows is 50 000 Hz / 44 Hz + 2 =
 /// 1 138 samples; 65 535 · 32 767 · 1 138 < 2^31 · 2^11, so eleven bits
 /// keep any cycle's sum of any `u16` codes inside `i32`. A constant lets
 /// the shift fold into the add on Cortex-M3/M4 (`add r, r, p, asr #11`).
-/// Rounding each product costs a uniform error of ±2^10 (in codes·Q15),
-/// whose effect on a cycle's amplitude is 2^11 · 2 / (32 767 · √(12 n))
-/// codes: 0.006 codes at 40 samples a cycle, 0.001 at 1 000 — below the
-/// quantisation noise of the ADC itself (0.29 codes per sample, 0.065
-/// codes of amplitude at 40 samples a cycle).
+/// The floor costs a uniform error in [0, 1) units (of 2^11 codes·Q15) per
+/// product; its mean of ½ is added back at the cycle end (`⌊n/2⌋`), which
+/// leaves the same error as rounding every product: 2^11 · 2 / (32 767 ·
+/// √(12 n)) codes of amplitude, 0.006 codes at 40 samples a cycle, 0.001 at
+/// 1 000 — below the quantisation noise of the ADC itself (0.29 codes per
+/// sample, 0.065 codes of amplitude at 40 samples a cycle).
 pub const PRODUCT_SHIFT: u32 = 11;
-const ROUND: i32 = 1 << (PRODUCT_SHIFT - 1);
+
+/// `⌊(2^32 − 1) / n⌋`, the per-cycle reciprocal of the sample count (0 for
+/// `n = 0`). Callers keep it while `n` repeats, so the division runs only
+/// when the cycle length changes.
+pub const fn reciprocal(n: u32) -> u32 {
+    match u32::MAX.checked_div(n) {
+        Some(r) => r,
+        None => 0,
+    }
+}
 
 /// Per-channel accumulator state for the fundamental and `H` extra
 /// harmonics (orders 2 to H + 1): 14 + 8·H bytes of data.
@@ -64,6 +78,36 @@ pub struct DemodState<const H: usize> {
     sum: u32,
     /// Mean of the previous cycle, offset-binary code.
     dc: u16,
+}
+
+/// [`DemodState`] in registers for a run of samples (block path).
+#[derive(Clone, Copy, Debug)]
+pub struct DemodLane<const H: usize> {
+    i: i32,
+    q: i32,
+    harm: [[i32; 2]; H],
+    sum: u32,
+    dc: i32,
+}
+
+impl<const H: usize> DemodLane<H> {
+    /// Accumulates one sample `x` (offset binary, below 2^16) at phase
+    /// `phase`, whose table sine and cosine are `s` and `c`.
+    #[inline(always)]
+    pub fn push(&mut self, x: u32, s: i16, c: i16, phase: u32) {
+        let xc = x as i32 - self.dc;
+        // |xc · table| ≤ 65 535 · 32 767 < 2^31; the shift keeps the
+        // cycle's sum inside i32 (the wrapping add only keeps debug builds
+        // panic-free should a cycle ever run longer than n_max).
+        self.i = self.i.wrapping_add((xc * i32::from(c)) >> PRODUCT_SHIFT);
+        self.q = self.q.wrapping_add((xc * i32::from(s)) >> PRODUCT_SHIFT);
+        for (order, [hi, hq]) in (2u32..).zip(self.harm.iter_mut()) {
+            let (s, c) = sin_cos_q15(phase.wrapping_mul(order));
+            *hi = hi.wrapping_add((xc * i32::from(c)) >> PRODUCT_SHIFT);
+            *hq = hq.wrapping_add((xc * i32::from(s)) >> PRODUCT_SHIFT);
+        }
+        self.sum = self.sum.wrapping_add(x);
+    }
 }
 
 impl<const H: usize> DemodState<H> {
@@ -82,41 +126,55 @@ impl<const H: usize> DemodState<H> {
         self.dc
     }
 
+    /// The state in registers, for a run of samples.
+    #[inline(always)]
+    pub const fn lane(&self) -> DemodLane<H> {
+        DemodLane {
+            i: self.acc[0],
+            q: self.acc[1],
+            harm: self.harm,
+            sum: self.sum,
+            dc: self.dc as i32,
+        }
+    }
+
+    /// Stores a lane back.
+    #[inline(always)]
+    pub fn store(&mut self, lane: &DemodLane<H>) {
+        self.acc = [lane.i, lane.q];
+        self.harm = lane.harm;
+        self.sum = lane.sum;
+    }
+
     /// Accumulates one sample `x` at reference phase `phase`.
     #[inline(always)]
     pub fn push(&mut self, x: u16, phase: u32) {
-        let xc = i32::from(x) - i32::from(self.dc);
-        let [ai, aq] = &mut self.acc;
-        // |xc · table| ≤ 65 535 · 32 767 < 2^31 − 2^16, so adding the
-        // rounding term cannot overflow; the shift keeps the cycle's sum
-        // inside i32 (the wrapping add only keeps debug builds panic-free
-        // should a cycle ever run longer than n_max).
-        *ai = ai.wrapping_add((xc * i32::from(cos_q15(phase)) + ROUND) >> PRODUCT_SHIFT);
-        *aq = aq.wrapping_add((xc * i32::from(sin_q15(phase)) + ROUND) >> PRODUCT_SHIFT);
-        for (order, [hi, hq]) in (2u32..).zip(self.harm.iter_mut()) {
-            let p = phase.wrapping_mul(order);
-            *hi = hi.wrapping_add((xc * i32::from(cos_q15(p)) + ROUND) >> PRODUCT_SHIFT);
-            *hq = hq.wrapping_add((xc * i32::from(sin_q15(p)) + ROUND) >> PRODUCT_SHIFT);
-        }
-        self.sum = self.sum.wrapping_add(u32::from(x));
+        let mut lane = self.lane();
+        let (s, c) = sin_cos_q15(phase);
+        lane.push(u32::from(x), s, c, phase);
+        self.store(&lane);
     }
 
     /// Ends a cycle of `n` samples: returns the fundamental and the
     /// harmonic pairs in Q8 codes, updates the DC estimate and clears the
     /// accumulators. `n = 0` returns zeros.
     pub fn end_cycle(&mut self, n: u32) -> (Iq, [Iq; H]) {
+        self.end_cycle_with(n, reciprocal(n))
+    }
+
+    /// [`end_cycle`](Self::end_cycle) with the reciprocal `recip =
+    /// reciprocal(n)` supplied by the caller (computed once for all
+    /// channels, and only when `n` changes).
+    pub fn end_cycle_with(&mut self, n: u32, recip: u32) -> (Iq, [Iq; H]) {
         let mut harm = [Iq::default(); H];
         if n == 0 {
             return (Iq::default(), harm);
         }
-        // 2^24 / n, once per cycle.
-        let recip = i64::from((1u32 << 24) / n);
-        // value · 2^s · 2 · 256 / (32 768 · n) = value · 2^s / (64 n)
-        //       = value · recip >> (30 − s), rounded.
-        let shift = 30 - PRODUCT_SHIFT;
+        let r = i64::from(recip);
+        let bias = (n >> 1) as i32;
         let scale = |acc: i32| -> i32 {
-            let v = (i64::from(acc) * recip + (1i64 << (shift - 1))) >> shift;
-            v.clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32
+            let v = (i64::from(acc.wrapping_add(bias)) * r + (1 << 26)) >> 27;
+            v.max(i64::from(i32::MIN)).min(i64::from(i32::MAX)) as i32
         };
         let [i, q] = self.acc;
         let fund = Iq {
@@ -129,7 +187,7 @@ impl<const H: usize> DemodState<H> {
                 q: scale(*hq),
             };
         }
-        let mean = (self.sum + n / 2) / n;
+        let mean = (u64::from(self.sum) * u64::from(recip) + (1 << 31)) >> 32;
         self.dc = if mean > 0xffff { 0xffff } else { mean as u16 };
         self.acc = [0; 2];
         self.harm = [[0; 2]; H];

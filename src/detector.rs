@@ -22,13 +22,14 @@
 use crate::baseline::{BaselineState, BaselineTuning};
 use crate::config::Config;
 use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
-use crate::demod::{DemodState, Iq};
+use crate::demod::{reciprocal, DemodState, Iq};
 use crate::error::ConfigError;
 use crate::event::{Event, Faults};
 use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
 use crate::fixed::{isqrt_u64, mul_q8};
 use crate::impulse::ImpulseState;
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
+use crate::nco::sin_cos_q15;
 use crate::panel::{strongest, PanelTuning};
 
 /// An integer ADC sample type the detector accepts.
@@ -97,6 +98,10 @@ pub struct Frontend<const N: usize, const H: usize> {
     demod: [DemodState<H>; N],
     /// Index of the first sample of the present cycle.
     cycle_start: u64,
+    /// Sample count of the last cycle and its [`reciprocal`], kept while
+    /// the count repeats (one division per change, not per cycle).
+    recip_n: u32,
+    recip: u32,
     spike_max_len: u8,
     spike_floor: u16,
     adc_bits: u8,
@@ -117,6 +122,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             impulse: [ImpulseState::new(); N],
             demod: [DemodState::new(mid); N],
             cycle_start: 0,
+            recip_n: 0,
+            recip: 0,
             spike_max_len: cfg.spike_max_len,
             spike_floor: cfg.spike_floor_codes,
             adc_bits: cfg.adc_bits,
@@ -129,11 +136,16 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     #[inline]
     pub fn push_frame<S: AdcSample>(&mut self, frame: &[S; N]) -> Option<Cycle<N, H>> {
         let phase = self.tracker.phase();
-        let max_len = self.spike_max_len;
+        let (s, c) = sin_cos_q15(phase);
+        let max_len = u32::from(self.spike_max_len);
         let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
         for (x, (gate, dem)) in frame.iter().zip(stages) {
-            let v = gate.filter(x.offset_code(), max_len);
-            dem.push(v, phase);
+            let mut g = gate.lane();
+            let v = g.filter(u32::from(x.offset_code()), max_len);
+            gate.store(&g);
+            let mut d = dem.lane();
+            d.push(v, s, c, phase);
+            dem.store(&d);
         }
         let n = self.tracker.advance();
         if n == 0 {
@@ -147,7 +159,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     /// samples it did not take (less than a frame). Gives exactly the
     /// cycles that [`push_frame`](Self::push_frame) would, frame by frame,
     /// at a lower cost: between two cycle ends the per-channel state stays
-    /// in locals (registers, for a few channels) instead of memory. Never
+    /// in locals (registers, for a few channels) instead of memory, widened
+    /// to 32-bit words, and the table is read once per frame. Never
     /// panics.
     pub fn push_block<S: AdcSample>(
         &mut self,
@@ -156,7 +169,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     ) -> usize {
         let whole = samples.len() - samples.len() % N;
         let (mut remaining, rest) = samples.split_at(whole);
-        let max_len = self.spike_max_len;
+        let max_len = u32::from(self.spike_max_len);
         while !remaining.is_empty() {
             // The tracker may retune at every cycle end.
             let step = self.tracker.step();
@@ -164,19 +177,12 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             let take = (remaining.len() / N).min(to_wrap);
             let (run, tail) = remaining.split_at(take * N);
             remaining = tail;
-            let mut gates = self.impulse;
-            let mut dems = self.demod;
-            let mut phase = self.tracker.phase();
-            for chunk in run.chunks_exact(N) {
-                let stages = gates.iter_mut().zip(dems.iter_mut());
-                for (x, (gate, dem)) in chunk.iter().zip(stages) {
-                    let v = gate.filter(x.offset_code(), max_len);
-                    dem.push(v, phase);
-                }
-                phase = phase.wrapping_add(step);
-            }
-            self.impulse = gates;
-            self.demod = dems;
+            let phase = self.tracker.phase();
+            let phase = if N == 1 {
+                self.run_one(run, phase, step, max_len)
+            } else {
+                self.run_many(run, phase, step, max_len)
+            };
             let n = self.tracker.finish_run(phase, take as u32, take == to_wrap);
             if n != 0 {
                 let cycle = self.end_cycle(n, S::SIGNED);
@@ -184,6 +190,62 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             }
         }
         rest.len()
+    }
+
+    /// One channel: a run of samples with the gate and accumulators in
+    /// registers. Returns the phase after the run.
+    #[inline(always)]
+    fn run_one<S: AdcSample>(&mut self, run: &[S], mut phase: u32, step: u32, max_len: u32) -> u32 {
+        let (Some(gate), Some(dem)) = (self.impulse.first_mut(), self.demod.first_mut()) else {
+            return phase;
+        };
+        let (mut g, mut hold) = gate.block(phase);
+        let mut d = dem.lane();
+        for x in run {
+            let v = g.filter(
+                &mut hold,
+                u32::from(x.offset_code()),
+                max_len,
+                (phase, step),
+            );
+            let (s, c) = sin_cos_q15(phase);
+            d.push(v, s, c, phase);
+            phase = phase.wrapping_add(step);
+        }
+        gate.store_block(&g, &hold, phase);
+        dem.store(&d);
+        phase
+    }
+
+    /// Several channels: a run of frames, per-channel state in locals.
+    #[inline(always)]
+    fn run_many<S: AdcSample>(
+        &mut self,
+        run: &[S],
+        mut phase: u32,
+        step: u32,
+        max_len: u32,
+    ) -> u32 {
+        let mut gates = self.impulse.map(|g| g.block(phase).0);
+        let mut holds = self.impulse.map(|g| g.block(phase).1);
+        let mut dems = self.demod.map(|d| d.lane());
+        for chunk in run.chunks_exact(N) {
+            let (s, c) = sin_cos_q15(phase);
+            let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
+            for (x, ((g, h), d)) in chunk.iter().zip(stages) {
+                let v = g.filter(h, u32::from(x.offset_code()), max_len, (phase, step));
+                d.push(v, s, c, phase);
+            }
+            phase = phase.wrapping_add(step);
+        }
+        let lanes = gates.iter().zip(holds.iter());
+        for (state, (lane, hold)) in self.impulse.iter_mut().zip(lanes) {
+            state.store_block(lane, hold, phase);
+        }
+        for (state, lane) in self.demod.iter_mut().zip(dems.iter()) {
+            state.store(lane);
+        }
+        phase
     }
 
     #[inline(never)]
@@ -207,11 +269,16 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             health: MainsHealth::Ok,
             rails,
         };
+        if n != self.recip_n {
+            self.recip_n = n;
+            self.recip = reciprocal(n);
+        }
+        let recip = self.recip;
         let stages = self.demod.iter_mut().zip(self.impulse.iter_mut());
         let outs = cycle.fund.iter_mut().zip(cycle.harm.iter_mut());
         let extras = cycle.dc.iter_mut().zip(cycle.flat.iter_mut());
         for ((dem, gate), ((f, h), (dc, flat))) in stages.zip(outs.zip(extras)) {
-            (*f, *h) = dem.end_cycle(n);
+            (*f, *h) = dem.end_cycle_with(n, recip);
             *dc = dem.dc();
             *flat = gate.end_cycle(self.spike_max_len, self.spike_floor);
         }
@@ -603,13 +670,9 @@ impl<const N: usize, const H: usize> Detector<N, H> {
         samples: &[S],
         mut emit: impl FnMut(Event),
     ) -> usize {
-        let mut chunks = samples.chunks_exact(N);
-        for chunk in &mut chunks {
-            if let Ok(frame) = <&[S; N]>::try_from(chunk) {
-                self.push_frame(frame, &mut emit);
-            }
-        }
-        chunks.remainder().len()
+        let back = &mut self.back;
+        self.front
+            .push_block(samples, |cycle| back.process(cycle, &mut emit))
     }
 
     /// A view of channel `ch` after its latest cycle (amplitude, baseline,

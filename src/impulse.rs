@@ -47,18 +47,73 @@ impl ImpulseState {
     /// demodulate (the input, or the held sample). Never panics.
     #[inline(always)]
     pub fn filter(&mut self, x: u16, max_len: u8) -> u16 {
-        // In u32, so no masking to 16 bits is needed between steps.
-        let step = u32::from(x).abs_diff(u32::from(self.last));
-        if step > u32::from(self.limit) && self.run < max_len {
-            self.run += 1;
-            return self.last;
+        let mut lane = self.lane();
+        let v = lane.filter(u32::from(x), u32::from(max_len));
+        self.store(&lane);
+        v as u16
+    }
+
+    /// The state widened to 32-bit words, for a run of samples kept in
+    /// registers (no zero-extension between samples).
+    #[inline(always)]
+    pub const fn lane(&self) -> GateLane {
+        GateLane {
+            last: self.last as u32,
+            limit: self.limit as u32,
+            max_step: self.max_step as u32,
+            run: self.run as u32,
         }
-        self.run = 0;
-        self.last = x;
-        if step > u32::from(self.max_step) {
-            self.max_step = step as u16;
-        }
-        x
+    }
+
+    /// Stores a lane back (its fields never exceed the stored widths: codes
+    /// are `u16`, `run ≤ spike_max_len ≤ 8`).
+    #[inline(always)]
+    pub fn store(&mut self, lane: &GateLane) {
+        self.last = lane.last as u16;
+        self.max_step = lane.max_step as u16;
+        self.run = lane.run as u8;
+    }
+
+    /// The block path's gate for a run whose first sample is at position
+    /// (reference phase) `start`: a run of held samples at the end of the
+    /// last call continues there.
+    #[inline(always)]
+    pub const fn block(&self, start: u32) -> (BlockGate, BlockHold) {
+        // The largest step so far is within the limit unless a step above
+        // it was accepted; either way it is a valid watermark only up to
+        // the limit, and the rest is kept as `max_over`.
+        let (w, over) = if self.max_step > self.limit {
+            (self.limit as u32, self.max_step as u32)
+        } else {
+            (self.max_step as u32, 0)
+        };
+        let gate = BlockGate {
+            lo: (self.last as u32).wrapping_sub(w),
+            w,
+        };
+        let hold = BlockHold {
+            limit: self.limit as u32,
+            run: self.run as u32,
+            held: self.run > 0,
+            held_next: start,
+            max_over: over,
+        };
+        (gate, hold)
+    }
+
+    /// Stores the block path's gate back after a run whose next position
+    /// (the phase after its last sample) is `end`: the hold counter
+    /// survives only if the last sample was held.
+    #[inline(always)]
+    pub fn store_block(&mut self, gate: &BlockGate, hold: &BlockHold, end: u32) {
+        let w = gate.w;
+        self.last = gate.lo.wrapping_add(w) as u16;
+        self.max_step = w.max(hold.max_over) as u16;
+        self.run = if hold.held && hold.held_next == end {
+            hold.run as u8
+        } else {
+            0
+        };
     }
 
     /// Ends a mains cycle: sets the limit for the next cycle from this one's
@@ -77,6 +132,129 @@ impl ImpulseState {
     /// The present gate limit in codes (`u16::MAX` before the first cycle).
     pub const fn limit(&self) -> u16 {
         self.limit
+    }
+}
+
+/// [`ImpulseState`] widened to registers for one sample at a time (the
+/// frame path): the same gate, on `u32` words holding `u16` codes.
+#[derive(Clone, Copy, Debug)]
+pub struct GateLane {
+    last: u32,
+    limit: u32,
+    max_step: u32,
+    run: u32,
+}
+
+impl GateLane {
+    /// The gate (see the module docs): holds `x` when its step from the
+    /// last accepted sample exceeds the limit and fewer than `max_len`
+    /// samples are held in a row; returns the sample to demodulate.
+    #[inline(always)]
+    pub fn filter(&mut self, x: u32, max_len: u32) -> u32 {
+        let step = x.abs_diff(self.last);
+        if step > self.limit && self.run < max_len {
+            self.run += 1;
+            return self.last;
+        }
+        self.run = 0;
+        self.last = x;
+        self.max_step = self.max_step.max(step);
+        x
+    }
+}
+
+/// The same gate for a run of samples on the block path, arranged so the
+/// common sample costs a subtract, a compare and a subtract.
+///
+/// It keeps a watermark `w`, the largest step accepted so far this cycle
+/// within the limit (`w ≤ limit`), and `lo = last − w` (wrapping `u32`).
+/// Then `|x − last| ≤ w` is one unsigned compare, `x − lo ≤ 2w`, and
+/// accepting such a sample changes neither the
+/// watermark nor the cycle's largest step: `lo ← x − w`. Only a step above
+/// the watermark takes the slower path: within the limit it raises the
+/// watermark; above the limit it is held, or accepted when `spike_max_len`
+/// samples are held in a row (that step is kept in [`BlockHold`], apart
+/// from the watermark). The cycle's largest accepted step is
+/// `max(w, BlockHold::max_over)`, exactly the frame path's.
+#[derive(Clone, Copy, Debug)]
+pub struct BlockGate {
+    lo: u32,
+    w: u32,
+}
+
+/// The rarely touched part of the block path's gate (held samples and
+/// steps above the watermark), kept apart from [`BlockGate`] so the common
+/// path needs only two registers for the gate.
+///
+/// Instead of clearing the hold counter on every accepted sample, a held
+/// sample records the position of the sample after it, and the next step
+/// over the limit continues the run only if it comes at that position.
+#[derive(Clone, Copy, Debug)]
+pub struct BlockHold {
+    limit: u32,
+    run: u32,
+    /// Whether `held_next` marks a held sample.
+    held: bool,
+    /// Position just after the latest held sample.
+    held_next: u32,
+    /// Largest step accepted above the limit this cycle (0 if none).
+    max_over: u32,
+}
+
+impl BlockGate {
+    /// The gate for the sample `x` at position `pos` of a run: the same
+    /// output as [`GateLane::filter`]. Positions are the samples' reference
+    /// phases (`pos_step` is the phase step): they increase within a run,
+    /// which never crosses a phase wrap except after its last sample (see
+    /// [`ImpulseState::block`]).
+    #[inline(always)]
+    pub fn filter(
+        &mut self,
+        hold: &mut BlockHold,
+        x: u32,
+        max_len: u32,
+        (pos, pos_step): (u32, u32),
+    ) -> u32 {
+        if x.wrapping_sub(self.lo) <= self.w << 1 {
+            self.lo = x.wrapping_sub(self.w);
+            return x;
+        }
+        self.above(hold, x, max_len, pos, pos_step)
+    }
+
+    /// A step above the watermark.
+    #[inline(always)]
+    fn above(
+        &mut self,
+        hold: &mut BlockHold,
+        x: u32,
+        max_len: u32,
+        pos: u32,
+        pos_step: u32,
+    ) -> u32 {
+        let w = self.w;
+        let last = self.lo.wrapping_add(w);
+        let step = x.abs_diff(last);
+        if step <= hold.limit {
+            // A new largest step within the limit.
+            self.w = step;
+            self.lo = x.wrapping_sub(step);
+            return x;
+        }
+        if !hold.held || hold.held_next != pos {
+            // The sample before was accepted: a new run.
+            hold.run = 0;
+        }
+        if hold.run < max_len {
+            hold.run += 1;
+            hold.held = true;
+            hold.held_next = pos.wrapping_add(pos_step);
+            return last;
+        }
+        hold.run = 0;
+        hold.max_over = hold.max_over.max(step);
+        self.lo = x.wrapping_sub(w);
+        x
     }
 }
 

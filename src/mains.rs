@@ -171,9 +171,9 @@ impl MainsTracker {
     /// Samples until the present cycle ends, counting the one that ends it:
     /// the least `k ≥ 1` with `phase + k·step ≥ 2^32` (one division).
     pub fn samples_to_wrap(&self) -> u32 {
-        let step = u64::from(self.step.max(1));
-        let left = (1u64 << 32) - u64::from(self.phase) - 1;
-        (left / step + 1).min(u64::from(u32::MAX)) as u32
+        // 2^32 − 1 − phase fits u32, so the division is a 32-bit one.
+        let left = u32::MAX - self.phase;
+        (left / self.step.max(1)).saturating_add(1)
     }
 
     /// Ends a run of `k` samples processed outside the tracker (the block
@@ -298,7 +298,9 @@ impl MainsTracker {
         let wanted = i64::from(self.step) + (full >> 1);
         // max/min rather than clamp: clamp asserts its bounds are ordered
         // and would link a panic path for these run-time bounds.
-        let step = wanted.max(i64::from(self.min_step)).min(i64::from(self.max_step));
+        let step = wanted
+            .max(i64::from(self.min_step))
+            .min(i64::from(self.max_step));
         let pinned = wanted != step && e.unsigned_abs() >= COARSE_E;
         if pinned {
             self.pinned_cycles = self.pinned_cycles.saturating_add(1);

@@ -1,9 +1,13 @@
 //! Numerically controlled oscillator: the phase format and the sine table.
 //!
 //! The phase is a `u32` in turns (2^32 = one turn). Its top ten bits index
-//! a 1024-entry Q15 sine table (2 KiB of flash); cosine is the same table a
-//! quarter turn (256 entries) ahead. A lookup is a shift, an add, a mask and
-//! a load: no division, no float, no search.
+//! a Q15 sine table of 1024 entries per turn; cosine is the same table a
+//! quarter turn (256 entries) ahead. The table holds one and a quarter
+//! turns (1280 entries, 2.5 KiB of flash), so the cosine of index `k` is
+//! entry `k + 256` with no wrap-around mask: a sine/cosine pair is one
+//! shift, one address computation and two loads, no division, no float, no
+//! search. (The extra quarter costs 512 bytes; it saves the mask and a
+//! second index computation on every sample.)
 //!
 //! Truncating the phase to 10 bits leaves at most half a table step
 //! (π/1024 rad) of phase error in the reference (the table holds bin
@@ -12,19 +16,22 @@
 //! harmonic bins by 0.3 % next to a strong fundamental; ten bits bring that
 //! below 0.05 %.
 
-/// Entries in the sine table.
+/// Entries in the sine table per turn of phase.
 pub const TABLE_LEN: usize = 1024;
 const INDEX_SHIFT: u32 = 22;
-const QUARTER: u32 = 256;
+const QUARTER: usize = 256;
+/// Entries stored: one and a quarter turns.
+pub const TABLE_ENTRIES: usize = TABLE_LEN + QUARTER;
 
-/// Q15 sine table at the centre of each of 1024 phase bins,
-/// `SINE_Q15[k] = round(32767 · sin(2π(k + ½)/1024))`.
+/// Q15 sine table at the centre of each of 1024 phase bins per turn, over
+/// one and a quarter turns: `SINE_Q15[k] = round(32767 · sin(2π(k + ½)/1024))`
+/// for k = 0..1280 (entries 1024.. repeat entries 0..256).
 ///
 /// Indexing by the truncated phase (`phase >> 22`) therefore returns the
 /// sine at the middle of the bin the phase falls in: the reference has no
 /// phase bias, only a uniform error of at most ±π/1024 rad.
 #[rustfmt::skip]
-pub const SINE_Q15: [i16; TABLE_LEN] = [
+pub const SINE_Q15: [i16; TABLE_ENTRIES] = [
     101, 302, 503, 704, 905, 1106, 1307, 1507, 1708, 1909, 2110, 2310, 2511, 2711, 2911, 3112,
     3312, 3512, 3712, 3911, 4111, 4310, 4509, 4708, 4907, 5106, 5305, 5503, 5701, 5899, 6096, 6294,
     6491, 6688, 6885, 7081, 7277, 7473, 7669, 7864, 8059, 8254, 8448, 8642, 8836, 9030, 9223, 9416,
@@ -89,28 +96,52 @@ pub const SINE_Q15: [i16; TABLE_LEN] = [
     -9416, -9223, -9030, -8836, -8642, -8448, -8254, -8059, -7864, -7669, -7473, -7277, -7081, -6885, -6688, -6491,
     -6294, -6096, -5899, -5701, -5503, -5305, -5106, -4907, -4708, -4509, -4310, -4111, -3911, -3712, -3512, -3312,
     -3112, -2911, -2711, -2511, -2310, -2110, -1909, -1708, -1507, -1307, -1106, -905, -704, -503, -302, -101,
+    101, 302, 503, 704, 905, 1106, 1307, 1507, 1708, 1909, 2110, 2310, 2511, 2711, 2911, 3112,
+    3312, 3512, 3712, 3911, 4111, 4310, 4509, 4708, 4907, 5106, 5305, 5503, 5701, 5899, 6096, 6294,
+    6491, 6688, 6885, 7081, 7277, 7473, 7669, 7864, 8059, 8254, 8448, 8642, 8836, 9030, 9223, 9416,
+    9608, 9800, 9992, 10183, 10374, 10564, 10754, 10944, 11133, 11322, 11511, 11699, 11886, 12074, 12260, 12446,
+    12632, 12817, 13002, 13187, 13370, 13554, 13736, 13919, 14101, 14282, 14462, 14643, 14822, 15001, 15180, 15358,
+    15535, 15712, 15888, 16063, 16238, 16413, 16586, 16759, 16932, 17104, 17275, 17445, 17615, 17784, 17953, 18121,
+    18288, 18454, 18620, 18785, 18950, 19113, 19276, 19438, 19600, 19761, 19921, 20080, 20238, 20396, 20553, 20709,
+    20865, 21019, 21173, 21326, 21479, 21630, 21781, 21930, 22079, 22227, 22375, 22521, 22667, 22812, 22956, 23099,
+    23241, 23382, 23522, 23662, 23801, 23938, 24075, 24211, 24346, 24480, 24613, 24746, 24877, 25007, 25137, 25265,
+    25393, 25519, 25645, 25770, 25893, 26016, 26138, 26259, 26378, 26497, 26615, 26732, 26848, 26962, 27076, 27189,
+    27300, 27411, 27521, 27629, 27737, 27843, 27949, 28053, 28157, 28259, 28360, 28460, 28560, 28658, 28755, 28850,
+    28945, 29039, 29131, 29223, 29313, 29403, 29491, 29578, 29664, 29749, 29832, 29915, 29997, 30077, 30156, 30234,
+    30311, 30387, 30462, 30535, 30607, 30679, 30749, 30818, 30885, 30952, 31017, 31082, 31145, 31206, 31267, 31327,
+    31385, 31442, 31498, 31553, 31607, 31659, 31710, 31760, 31809, 31857, 31903, 31949, 31993, 32036, 32077, 32118,
+    32157, 32195, 32232, 32267, 32302, 32335, 32367, 32397, 32427, 32455, 32482, 32508, 32533, 32556, 32578, 32599,
+    32619, 32637, 32655, 32671, 32685, 32699, 32711, 32722, 32732, 32741, 32748, 32755, 32759, 32763, 32766, 32767,
 ];
 
 /// Sine of a `u32` phase in Q15 (32767 = +1.0), from the table.
 #[inline(always)]
 pub fn sin_q15(phase: u32) -> i16 {
-    table(phase >> INDEX_SHIFT)
+    sin_cos_q15(phase).0
 }
 
 /// Cosine of a `u32` phase in Q15, from the same table a quarter turn ahead.
 #[inline(always)]
 pub fn cos_q15(phase: u32) -> i16 {
-    table((phase >> INDEX_SHIFT).wrapping_add(QUARTER) & (TABLE_LEN as u32 - 1))
+    sin_cos_q15(phase).1
 }
 
+/// Sine and cosine of a `u32` phase in Q15: entries `k` and `k + 256` of
+/// the table, `k = phase >> 22`.
 #[inline(always)]
-fn table(index: u32) -> i16 {
-    // `index` is below TABLE_LEN by construction, so the fallback is never taken
-    // and the compiler removes the check.
-    match SINE_Q15.get(index as usize) {
+pub fn sin_cos_q15(phase: u32) -> (i16, i16) {
+    let k = (phase >> INDEX_SHIFT) as usize;
+    // `k < 1024` and `k + 256 < 1280` by construction, so the fallbacks are
+    // never taken and the compiler removes the checks.
+    let s = match SINE_Q15.get(k) {
         Some(v) => *v,
         None => 0,
-    }
+    };
+    let c = match SINE_Q15.get(k + QUARTER) {
+        Some(v) => *v,
+        None => 0,
+    };
+    (s, c)
 }
 
 #[cfg(test)]
