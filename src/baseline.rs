@@ -28,6 +28,8 @@
 //! closed all but (3/4)^startup_cycles of its initial error (0.08 % for the
 //! touch default of 25 cycles, 0.5 s at 50 Hz).
 
+use crate::fixed::mul_wide;
+
 /// One code of amplitude in Q12.
 const ONE_CODE_Q12: u32 = 1 << 12;
 
@@ -45,9 +47,9 @@ pub struct BaselineState {
 
 /// A drop below this fraction of the baseline (Q8: 0.7) in one go is held
 /// rather than learnt.
-const HOLD_BELOW_Q8: u64 = 179;
+const HOLD_BELOW_Q8: u32 = 179;
 /// The hold ends when the amplitude is back above this fraction (Q8: 0.85).
-const HOLD_END_Q8: u64 = 218;
+const HOLD_END_Q8: u32 = 218;
 /// Longest hold, in cycles (2 s at 50 Hz); a drop that lasts longer is a
 /// new level and is learnt.
 const HOLD_MAX: u8 = 100;
@@ -113,8 +115,7 @@ impl BaselineState {
     /// the drop has lasted 100 cycles and is taken as a new level.
     fn hold(&mut self, a: u32, b: u32) -> bool {
         let a = u64::from(a) << 8;
-        let b = u64::from(b);
-        let back = a >= b * HOLD_END_Q8;
+        let back = a >= mul_wide(b, HOLD_END_Q8);
         if self.held == EXPIRED {
             if back {
                 self.held = 0;
@@ -133,7 +134,7 @@ impl BaselineState {
             self.held += 1;
             return true;
         }
-        if a < b * HOLD_BELOW_Q8 {
+        if a < mul_wide(b, HOLD_BELOW_Q8) {
             self.held = 1;
             return true;
         }

@@ -22,6 +22,7 @@
 //! `dc = (S · r + 2^31) >> 32` (the rounded mean, within 1/32 code) for
 //! the next cycle. The first cycle uses the mid-scale code as its DC.
 
+use crate::fixed::{mul_wide, mul_wide_signed};
 use crate::nco::sin_cos_q15;
 
 /// One quadrature pair, Q8 ADC codes of amplitude.
@@ -37,9 +38,10 @@ pub struct Iq {
 impl Iq {
     /// Squared magnitude, `i² + q²` (Q16 codes²), exact.
     pub const fn power(&self) -> u64 {
-        let i = self.i as i64;
-        let q = self.q as i64;
-        (i * i + q * q) as u64
+        let i = self.i.unsigned_abs();
+        let q = self.q.unsigned_abs();
+        // Each square is at most 2^62, so the sum cannot overflow.
+        mul_wide(i, i) + mul_wide(q, q)
     }
 }
 
@@ -170,10 +172,9 @@ impl<const H: usize> DemodState<H> {
         if n == 0 {
             return (Iq::default(), harm);
         }
-        let r = i64::from(recip);
         let bias = (n >> 1) as i32;
         let scale = |acc: i32| -> i32 {
-            let v = (i64::from(acc.wrapping_add(bias)) * r + (1 << 26)) >> 27;
+            let v = (mul_wide_signed(acc.wrapping_add(bias), recip) + (1 << 26)) >> 27;
             v.max(i64::from(i32::MIN)).min(i64::from(i32::MAX)) as i32
         };
         let [i, q] = self.acc;
@@ -187,7 +188,7 @@ impl<const H: usize> DemodState<H> {
                 q: scale(*hq),
             };
         }
-        let mean = (u64::from(self.sum) * u64::from(recip) + (1 << 31)) >> 32;
+        let mean = (mul_wide(self.sum, recip) + (1 << 31)) >> 32;
         self.dc = if mean > 0xffff { 0xffff } else { mean as u16 };
         self.acc = [0; 2];
         self.harm = [[0; 2]; H];

@@ -22,7 +22,7 @@
 
 use crate::config::Config;
 use crate::event::{EventKind, Fault, Faults};
-use crate::fixed::f32_to_fixed;
+use crate::fixed::{f32_to_fixed, mul_wide};
 use crate::mains::MainsHealth;
 
 /// Faults of the input itself.
@@ -109,8 +109,9 @@ impl FaultState {
         let span = hi.saturating_sub(lo).max(1);
         let full = span.unsigned_abs();
         // span/2 of amplitude is span·128 in Q8: 0.52 of it is span·66.6.
-        let swing_on = x.amp_q8 > full.saturating_mul(67);
-        let swing_off = x.amp_q8 < full.saturating_mul(61);
+        // Exact products (no 64-bit multiply call on Cortex-M0).
+        let swing_on = u64::from(x.amp_q8) > mul_wide(full, 67);
+        let swing_off = u64::from(x.amp_q8) < mul_wide(full, 61).min(u32::MAX as u64);
         let top_on = x.dc >= hi - span / 32;
         let top_off = x.dc < hi - span / 16;
         if x.active || (swing_off && top_off) {
@@ -125,7 +126,7 @@ impl FaultState {
         };
         if x.amp_q8 < t.nohum_q8 {
             self.nohum = self.nohum.saturating_add(1);
-        } else if x.amp_q8 > t.nohum_q8.saturating_mul(2) {
+        } else if x.amp_q8 > t.nohum_q8.saturating_add(t.nohum_q8) {
             self.nohum = 0;
         }
         let stuck = self.stuck >= t.stuck_cycles;

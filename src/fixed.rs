@@ -144,9 +144,54 @@ pub const fn bit_len(v: u32) -> u32 {
     32 - v.leading_zeros()
 }
 
+/// The full 64-bit product of two `u32`, exact.
+///
+/// Cortex-M0/M0+ (thumbv6m) has no long multiply: a `u64` product there
+/// is a call to the 64 × 64-bit `__aeabi_lmul` (about 40 instructions).
+/// On those cores (recognised, among ARM targets, by their lack of 32-bit
+/// compare-and-swap atomics: no stable `cfg` names the architecture
+/// version) this builds the product from four 16 × 16-bit products inline
+/// instead; elsewhere (one `umull` on Cortex-M3/M4/M7) it is the plain
+/// product. Both give the same bits (checked by a unit test on the host
+/// and by the golden vectors on both emulated cores).
+#[inline(always)]
+pub const fn mul_wide(a: u32, b: u32) -> u64 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        let (al, ah) = (a & 0xffff, a >> 16);
+        let (bl, bh) = (b & 0xffff, b >> 16);
+        let (mid, c1) = (al * bh).overflowing_add(ah * bl);
+        let (lo, c2) = (al * bl).overflowing_add(mid << 16);
+        let hi = ah * bh + (mid >> 16) + ((c1 as u32) << 16) + c2 as u32;
+        ((hi as u64) << 32) | lo as u64
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        a as u64 * b as u64
+    }
+}
+
+/// `a · b` for a signed `a`, exact (see [`mul_wide`]).
+#[inline(always)]
+pub const fn mul_wide_signed(a: i32, b: u32) -> i64 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        let m = mul_wide(a.unsigned_abs(), b) as i64;
+        if a < 0 {
+            -m
+        } else {
+            m
+        }
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        a as i64 * b as i64
+    }
+}
+
 /// `(a · b) >> 8` for a Q8 factor `b`, saturating at `u32::MAX`.
 pub const fn mul_q8(a: u32, b: u32) -> u32 {
-    let p = (a as u64 * b as u64) >> 8;
+    let p = mul_wide(a, b) >> 8;
     if p > u32::MAX as u64 {
         u32::MAX
     } else {
@@ -156,7 +201,7 @@ pub const fn mul_q8(a: u32, b: u32) -> u32 {
 
 /// `(a · b) >> 4` for a Q4 factor `b`, saturating at `u32::MAX`.
 pub const fn mul_q4(a: u32, b: u32) -> u32 {
-    let p = (a as u64 * b as u64) >> 4;
+    let p = mul_wide(a, b) >> 4;
     if p > u32::MAX as u64 {
         u32::MAX
     } else {
@@ -246,6 +291,29 @@ mod tests {
             d -= d.round();
             assert!(d.abs() < 2e-5, "angle {a}: {got} vs {want}");
         }
+    }
+
+    #[test]
+    fn wide_products_are_exact() {
+        let vals = [
+            0u32,
+            1,
+            0xffff,
+            0x1_0000,
+            0x1234_5678,
+            0x8000_0000,
+            u32::MAX,
+        ];
+        for a in vals {
+            for b in vals {
+                assert_eq!(mul_wide(a, b), u64::from(a) * u64::from(b), "{a} {b}");
+            }
+        }
+        assert_eq!(mul_wide_signed(-3, 7), -21);
+        assert_eq!(
+            mul_wide_signed(i32::MIN, u32::MAX),
+            i64::from(i32::MIN) * i64::from(u32::MAX)
+        );
     }
 
     #[test]

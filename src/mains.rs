@@ -32,7 +32,7 @@
 
 use crate::config::{Config, MainsMode, RANGE_50, RANGE_60};
 use crate::demod::Iq;
-use crate::fixed::{atan2_turns, phase_step, step_to_hz};
+use crate::fixed::{atan2_turns, mul_wide_signed, phase_step, step_to_hz};
 
 /// Which mains system the tracker has settled on.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -294,7 +294,7 @@ impl MainsTracker {
 
     /// `step += e · step / 2`, clamped; counts cycles pinned at a limit.
     fn correct(&mut self, e: i32) {
-        let full = (i64::from(e) * i64::from(self.step)) >> 32;
+        let full = mul_wide_signed(e, self.step) >> 32;
         let wanted = i64::from(self.step) + (full >> 1);
         // max/min rather than clamp: clamp asserts its bounds are ordered
         // and would link a panic path for these run-time bounds.
