@@ -339,13 +339,14 @@ impl Config {
             65_535,
         )?;
         // Every demodulated bin must lie below Nyquist at the top of the
-        // tracking range, with 10 % to spare.
-        let top_hz = self.tracking_range_mhz().1 as f32 / 1000.0;
-        let highest = top_hz * (harmonics as f32 + 1.0);
-        let per_cycle = self.sample_rate_hz as f32 / top_hz;
-        if (self.sample_rate_hz as f32) < 2.2 * highest {
+        // tracking range, with 10 % to spare: rate ≥ 2.2 · top · (H + 1),
+        // in integers (rate in Hz · 10 000 against 22 · top in mHz · bins;
+        // both below 2^32 for validated rates and at most 5 bins).
+        let top_mhz = self.tracking_range_mhz().1;
+        let bins = harmonics.min(crate::detector::MAX_HARMONICS) as u32 + 1;
+        if self.sample_rate_hz * 10_000 < 22 * top_mhz * bins {
             return Err(ConfigError::TooFewSamplesPerCycle {
-                samples_per_cycle: per_cycle,
+                samples_per_cycle: self.sample_rate_hz as f32 / (top_mhz as f32 / 1000.0),
             });
         }
         Ok(())
@@ -366,6 +367,11 @@ pub(crate) const RANGE_50: (u32, u32) = (46_000, 54_000);
 /// applied to 60 Hz is 56.4–62.4 Hz; margin either side).
 pub(crate) const RANGE_60: (u32, u32) = (55_200, 64_800);
 
+// The checks below are out of line: one copy each instead of one per
+// field (flash on small cores), and the float ones compare bit patterns
+// as integers (`order_key`), so no soft-float compare routine is linked.
+
+#[inline(never)]
 fn range_u(field: &'static str, v: u32, min: u32, max: u32) -> Result<(), ConfigError> {
     if v < min || v > max {
         return Err(ConfigError::OutOfRange {
@@ -378,11 +384,29 @@ fn range_u(field: &'static str, v: u32, min: u32, max: u32) -> Result<(), Config
     Ok(())
 }
 
+/// Whether `v` is neither infinite nor NaN (exponent not all ones).
+const fn finite(v: f32) -> bool {
+    v.to_bits() & 0x7f80_0000 != 0x7f80_0000
+}
+
+/// An integer with the order of the finite `f32` values (−0.0 and +0.0
+/// equal): the magnitude bits, negated for negative values.
+const fn order_key(v: f32) -> i32 {
+    let bits = v.to_bits();
+    let magnitude = (bits & 0x7fff_ffff) as i32;
+    if bits >> 31 == 1 {
+        -magnitude
+    } else {
+        magnitude
+    }
+}
+
+#[inline(never)]
 fn range_f(field: &'static str, v: f32, min: f32, max: f32) -> Result<(), ConfigError> {
-    if !v.is_finite() {
+    if !finite(v) {
         return Err(ConfigError::NotFinite { field });
     }
-    if v < min || v > max {
+    if order_key(v) < order_key(min) || order_key(v) > order_key(max) {
         return Err(ConfigError::OutOfRange {
             field,
             value: v,
@@ -393,9 +417,42 @@ fn range_f(field: &'static str, v: f32, min: f32, max: f32) -> Result<(), Config
     Ok(())
 }
 
+#[inline(never)]
 fn below(field: &'static str, v: f32, other: &'static str, o: f32) -> Result<(), ConfigError> {
-    if v >= o {
+    // Both are finite here (range-checked first).
+    if order_key(v) >= order_key(o) {
         return Err(ConfigError::NotBelow { field, other });
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn order_key_orders_like_the_floats() {
+        let vals = [
+            f32::MIN,
+            -1000.0,
+            -1.5,
+            -f32::MIN_POSITIVE,
+            -0.0,
+            0.0,
+            1e-40,
+            0.5,
+            1.01,
+            2.2,
+            10_000.0,
+            f32::MAX,
+        ];
+        for a in vals {
+            assert!(finite(a));
+            for b in vals {
+                assert_eq!(order_key(a) < order_key(b), a < b, "{a} {b}");
+                assert_eq!(order_key(a) >= order_key(b), a >= b, "{a} {b}");
+            }
+        }
+        assert!(!finite(f32::NAN) && !finite(f32::INFINITY) && !finite(f32::NEG_INFINITY));
+    }
 }

@@ -253,12 +253,29 @@ pub fn ratio_q8(a: u32, b: u32) -> u32 {
     if b == 0 {
         return u32::MAX;
     }
-    let r = (u64::from(a) << 8) / u64::from(b);
-    if r > u64::from(u32::MAX) {
-        u32::MAX
-    } else {
-        r as u32
+    // Exact, in 32-bit division (no 64-bit division routine linked):
+    // ⌊256a/b⌋ = 256⌊a/b⌋ + ⌊256(a mod b)/b⌋.
+    let (q, r) = (a / b, a % b);
+    if q >= 1 << 24 {
+        return u32::MAX;
     }
+    let frac = if b < 1 << 24 {
+        (r << 8) / b
+    } else {
+        // Eight restoring steps (r < b, so 2r fits u64 and each bit is
+        // one compare).
+        let (mut r, b, mut f) = (u64::from(r), u64::from(b), 0u32);
+        for _ in 0..8 {
+            r <<= 1;
+            f <<= 1;
+            if r >= b {
+                r -= b;
+                f |= 1;
+            }
+        }
+        f
+    };
+    (q << 8) | frac
 }
 
 #[cfg(test)]

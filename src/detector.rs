@@ -26,7 +26,7 @@ use crate::demod::{reciprocal, DemodState, Iq};
 use crate::error::ConfigError;
 use crate::event::{Event, Faults};
 use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
-use crate::fixed::{isqrt_u64, mul_q8};
+use crate::fixed::{isqrt_u32_from, isqrt_u64, mul_q8};
 use crate::impulse::ImpulseState;
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
 use crate::nco::sin_cos_q15;
@@ -452,7 +452,12 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 average(a, z, k);
                 power = power.saturating_add(a.power());
             }
-            let amp = isqrt_u64(power);
+            // Newton steps from the last amplitude where the root fits the
+            // 32-bit method (the same bits as `isqrt_u64`).
+            let amp = match u32::try_from(power) {
+                Ok(p) => isqrt_u32_from(p, c.amp_q8),
+                Err(_) => isqrt_u64(power),
+            };
             // Noise sample: the change since the last cycle, scaled to a
             // mean absolute deviation (see `diff_gain_q8`).
             *d = mul_q8(amp.abs_diff(c.amp_q8), self.diff_gain_q8);

@@ -125,6 +125,10 @@ impl Faults {
 
     /// The first fault in bit order that is in `self` but not in `other`.
     pub fn first_not_in(self, other: Faults) -> Option<Fault> {
+        if self.0 & !other.0 == 0 {
+            // Nothing to find (every cycle without a change): no search.
+            return None;
+        }
         Fault::ALL
             .into_iter()
             .find(|f| self.contains(*f) && !other.contains(*f))

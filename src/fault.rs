@@ -146,6 +146,9 @@ impl FaultState {
     /// The next fault event to report, if the present set differs from the
     /// reported one: new faults first, then clears, each in bit order.
     pub fn next_change(&mut self) -> Option<EventKind> {
+        if self.present == self.reported {
+            return None;
+        }
         if let Some(new) = self.present.first_not_in(self.reported) {
             self.reported = self.reported.with(new, true);
             return Some(EventKind::Fault(new));

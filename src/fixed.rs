@@ -34,12 +34,32 @@ pub const fn phase_step(freq_mhz: u32, rate_hz: u32) -> u32 {
     }
     let den = rate_hz as u64 * 1000;
     let num = ((freq_mhz as u64) << 32) + den / 2;
-    let step = num / den;
+    let step = div_u64(num, den);
     if step > u32::MAX as u64 {
         u32::MAX
     } else {
         step as u32
     }
+}
+
+/// `num / den` (`den > 0`) by restoring long division: shifts, compares
+/// and subtractions only, so no 64-bit division routine is linked into
+/// firmware (it is 0.9 KiB on Cortex-M0). Used at construction and at the
+/// 50/60 Hz choice, never per sample or per cycle.
+const fn div_u64(num: u64, den: u64) -> u64 {
+    let mut q = 0u64;
+    let mut r = 0u64;
+    let mut i = 64;
+    while i > 0 {
+        i -= 1;
+        // r < den < 2^63 before the shift, so it cannot overflow.
+        r = (r << 1) | ((num >> i) & 1);
+        if r >= den {
+            r -= den;
+            q |= 1 << i;
+        }
+    }
+    q
 }
 
 /// Frequency in hertz that a phase step represents at `rate_hz`
@@ -68,6 +88,38 @@ pub const fn isqrt_u32(v: u32) -> u32 {
         bit >>= 2;
     }
     res
+}
+
+/// Floor of the square root of a `u32`, exact, by integer Newton steps
+/// from `guess` (any value: the previous cycle's amplitude makes it two or
+/// three steps). Gives exactly [`isqrt_u32`]'s result. On cores with a
+/// hardware divide (Cortex-M3/M4/M7) each step is a few instructions; on
+/// Cortex-M0, which has none, it falls back to the bit-by-bit method.
+pub fn isqrt_u32_from(v: u32, guess: u32) -> u32 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        let _ = guess;
+        isqrt_u32(v)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        if v == 0 {
+            return 0;
+        }
+        let x0 = guess.clamp(1, 65_535);
+        // One step from any start lands at or above the floor of the root
+        // (arithmetic and geometric means); from there the steps fall to
+        // it and stop.
+        let mut x = ((u64::from(x0) + u64::from(v / x0)) >> 1) as u32;
+        loop {
+            // x ≥ 1 here (v ≥ 1), and x + v/x < 2^18 once x ≥ √v − 1.
+            let y = (x + v / x.max(1)) >> 1;
+            if y >= x {
+                return x;
+            }
+            x = y;
+        }
+    }
 }
 
 /// Square root of a `u64`, as `u32`.
@@ -253,6 +305,43 @@ mod tests {
         ] {
             let r = isqrt_u32(v) as u64;
             assert!(r * r <= v as u64 && (r + 1) * (r + 1) > v as u64, "{v}");
+        }
+    }
+
+    #[test]
+    fn newton_sqrt_matches_bit_by_bit() {
+        let vals = [
+            0u32,
+            1,
+            2,
+            3,
+            4,
+            15,
+            16,
+            17,
+            99,
+            65_535,
+            65_536,
+            1 << 24,
+            26_214_400,
+            u32::MAX - 1,
+            u32::MAX,
+        ];
+        for v in vals {
+            for g in [0u32, 1, 2, 100, 5_120, 65_535, 65_536, u32::MAX] {
+                assert_eq!(isqrt_u32_from(v, g), isqrt_u32(v), "{v} from {g}");
+            }
+        }
+        for (f, r) in [
+            (50_000u32, 2_000u32),
+            (44_000, 50_000),
+            (66_000, 400),
+            (55_200, 1_234),
+            (1, 1),
+        ] {
+            let den = u64::from(r) * 1000;
+            let want = ((u64::from(f) << 32) + den / 2) / den;
+            assert_eq!(u64::from(phase_step(f, r)), want.min(u64::from(u32::MAX)));
         }
     }
 
