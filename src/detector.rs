@@ -137,14 +137,12 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     pub fn push_frame<S: AdcSample>(&mut self, frame: &[S; N]) -> Option<Cycle<N, H>> {
         let phase = self.tracker.phase();
         let (s, c) = sin_cos_q15(phase);
-        let max_len = u32::from(self.spike_max_len);
+        let max_len = self.spike_max_len;
         let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
         for (x, (gate, dem)) in frame.iter().zip(stages) {
-            let mut g = gate.lane();
-            let v = g.filter(u32::from(x.offset_code()), max_len);
-            gate.store(&g);
+            let v = gate.filter(x.offset_code(), max_len);
             let mut d = dem.lane();
-            d.push(v, s, c, phase);
+            d.push(u32::from(v), s, c, phase);
             dem.store(&d);
         }
         let n = self.tracker.advance();

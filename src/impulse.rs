@@ -47,31 +47,18 @@ impl ImpulseState {
     /// demodulate (the input, or the held sample). Never panics.
     #[inline(always)]
     pub fn filter(&mut self, x: u16, max_len: u8) -> u16 {
-        let mut lane = self.lane();
-        let v = lane.filter(u32::from(x), u32::from(max_len));
-        self.store(&lane);
-        v as u16
-    }
-
-    /// The state widened to 32-bit words, for a run of samples kept in
-    /// registers (no zero-extension between samples).
-    #[inline(always)]
-    pub const fn lane(&self) -> GateLane {
-        GateLane {
-            last: self.last as u32,
-            limit: self.limit as u32,
-            max_step: self.max_step as u32,
-            run: self.run as u32,
+        // In u32, so no masking to 16 bits is needed between steps.
+        let step = u32::from(x).abs_diff(u32::from(self.last));
+        if step > u32::from(self.limit) && self.run < max_len {
+            self.run += 1;
+            return self.last;
         }
-    }
-
-    /// Stores a lane back (its fields never exceed the stored widths: codes
-    /// are `u16`, `run ≤ spike_max_len ≤ 8`).
-    #[inline(always)]
-    pub fn store(&mut self, lane: &GateLane) {
-        self.last = lane.last as u16;
-        self.max_step = lane.max_step as u16;
-        self.run = lane.run as u8;
+        self.run = 0;
+        self.last = x;
+        if step > u32::from(self.max_step) {
+            self.max_step = step as u16;
+        }
+        x
     }
 
     /// The block path's gate for a run whose first sample is at position
@@ -135,34 +122,6 @@ impl ImpulseState {
     }
 }
 
-/// [`ImpulseState`] widened to registers for one sample at a time (the
-/// frame path): the same gate, on `u32` words holding `u16` codes.
-#[derive(Clone, Copy, Debug)]
-pub struct GateLane {
-    last: u32,
-    limit: u32,
-    max_step: u32,
-    run: u32,
-}
-
-impl GateLane {
-    /// The gate (see the module docs): holds `x` when its step from the
-    /// last accepted sample exceeds the limit and fewer than `max_len`
-    /// samples are held in a row; returns the sample to demodulate.
-    #[inline(always)]
-    pub fn filter(&mut self, x: u32, max_len: u32) -> u32 {
-        let step = x.abs_diff(self.last);
-        if step > self.limit && self.run < max_len {
-            self.run += 1;
-            return self.last;
-        }
-        self.run = 0;
-        self.last = x;
-        self.max_step = self.max_step.max(step);
-        x
-    }
-}
-
 /// The same gate for a run of samples on the block path, arranged so the
 /// common sample costs a subtract, a compare and a subtract.
 ///
@@ -203,7 +162,7 @@ pub struct BlockHold {
 
 impl BlockGate {
     /// The gate for the sample `x` at position `pos` of a run: the same
-    /// output as [`GateLane::filter`]. Positions are the samples' reference
+    /// output as [`ImpulseState::filter`]. Positions are the samples' reference
     /// phases (`pos_step` is the phase step): they increase within a run,
     /// which never crosses a phase wrap except after its last sample (see
     /// [`ImpulseState::block`]).
