@@ -17,6 +17,13 @@
 //! tenfold opens the gate within one cycle (the accepted steps of that cycle
 //! set the next limit). Codes are offset binary (`u16`), so every step fits
 //! `u16`. The first cycle accepts everything.
+//!
+//! Two forms give the same output: [`ImpulseState::filter`], one sample at
+//! a time from memory (the frame path), and [`BlockGate`] with
+//! [`BlockHold`] for a run of samples in registers (the block path), which
+//! tests a step against a watermark (the largest in-limit step so far this
+//! cycle) in one compare and leaves the limit and the hold counter to the
+//! rare samples above the watermark.
 
 /// Per-channel state of the impulse gate (8 bytes).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
