@@ -75,6 +75,13 @@
 //!   (mostly in the first quarter of each cycle) and the setup of each run.
 //!   On the M0 only r0–r7 serve loads and 3-operand arithmetic, so about
 //!   half of its loop is stack traffic.
+//! - Inside the M4 per-cycle figures (an execution trace, `qemu-system-arm
+//!   -singlestep -d exec`, instructions counted by symbol over 80 steady
+//!   cycle ends): `Frontend::end_cycle` itself 126 (scaling, DC, gate
+//!   limit, the `Cycle`), `MainsTracker::end_cycle` 82, the CORDIC 32 (257
+//!   once every 8 cycles); in `Backend::process`, `BaselineState::update`
+//!   68 and `DecisionState::step` 62, the rest (averaging, power, Newton
+//!   square root, noise sample, faults, events) about 215.
 //! - The per-cycle work alone is 14.8 instructions a sample on the M4 and
 //!   28.7 on the M0 at 40 samples a cycle: with the M4 loop at 19–23, the
 //!   25 budget would leave the whole back end, the tracker and the cycle
