@@ -150,13 +150,6 @@ impl MainsTracker {
         }
     }
 
-    /// Most samples a cycle can have: at the lowest frequency the tracker
-    /// may reach (in either system before the automatic choice), plus one.
-    pub const fn max_cycle_samples(&self) -> u32 {
-        let min_step = if self.min_step == 0 { 1 } else { self.min_step };
-        ((1u64 << 32) / min_step as u64) as u32 + 2
-    }
-
     /// Samples taken in the present, unfinished cycle.
     pub const fn samples_in_cycle(&self) -> u32 {
         self.count
