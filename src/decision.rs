@@ -17,7 +17,7 @@
 
 use crate::config::{Config, Profile};
 use crate::event::EventKind;
-use crate::fixed::{f32_to_fixed, mul_q4, mul_q8};
+use crate::fixed::{db_to_ratio_q16, f32_to_fixed, mul_q4, mul_q8};
 
 /// Most levels a field profile can have.
 pub const MAX_LEVELS: usize = 16;
@@ -47,31 +47,38 @@ pub struct DecisionTuning {
 impl DecisionTuning {
     /// Converts a validated config.
     pub fn new(cfg: &Config) -> Self {
+        // Level boundaries r_on · s^k, in Q16 integers (no floating-point
+        // routine on cores without an FPU).
         let mut level_q8 = [u32::MAX; MAX_LEVELS];
-        // micromath, called by its trait path so host tests and targets use
-        // the same routine (std's would differ in the last bits).
-        let step = micromath::F32Ext::powf(10f32, cfg.level_step_db / 20.0);
-        let mut r = cfg.on_ratio;
+        let step_q16 = u64::from(db_to_ratio_q16(cfg.level_step_db));
+        let mut r_q16 = u64::from(f32_to_fixed(cfg.on_ratio, 16));
         for slot in level_q8.iter_mut().take(usize::from(cfg.levels)) {
-            *slot = f32_to_fixed(r, 8);
-            r *= step;
+            let q8 = (r_q16 + 128) >> 8;
+            *slot = if q8 > u64::from(u32::MAX) {
+                u32::MAX
+            } else {
+                q8 as u32
+            };
+            r_q16 = ((r_q16 * step_q16) >> 16).min(u64::from(u32::MAX) << 8);
         }
+        let on_q8 = f32_to_fixed(cfg.on_ratio, 8);
+        let off_q8 = f32_to_fixed(cfg.off_ratio, 8);
+        // 10^(−h/20) in Q8 = 2^24 / 10^(h/20) in Q16, rounded.
+        let h_q16 = db_to_ratio_q16(cfg.level_hysteresis_db).max(1);
+        let hyst_q8 = ((1u32 << 24) + h_q16 / 2) / h_q16;
         Self {
             profile: cfg.profile,
             on_noise_q4: f32_to_fixed(cfg.on_noise, 4),
             off_noise_q4: f32_to_fixed(cfg.off_noise, 4),
-            on_excess_q8: f32_to_fixed(cfg.on_ratio - 1.0, 8),
-            off_excess_q8: f32_to_fixed(cfg.off_ratio - 1.0, 8),
+            on_excess_q8: on_q8.saturating_sub(256),
+            off_excess_q8: off_q8.saturating_sub(256),
             floor_q8: f32_to_fixed(cfg.floor_codes, 8),
             debounce_on: cfg.debounce_on,
             debounce_off: cfg.debounce_off,
             min_active: cfg.min_active_cycles,
             max_active: cfg.max_active_cycles,
             levels: cfg.levels,
-            hyst_q8: f32_to_fixed(
-                micromath::F32Ext::powf(10f32, -cfg.level_hysteresis_db / 20.0),
-                8,
-            ),
+            hyst_q8,
             level_q8,
         }
     }

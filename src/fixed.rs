@@ -262,12 +262,92 @@ pub const fn mul_q4(a: u32, b: u32) -> u32 {
 }
 
 /// Converts a non-negative `f32` to fixed point with `frac_bits` fraction
-/// bits, rounding to nearest and saturating at `u32::MAX` (NaN gives 0).
-/// Construction-time use only.
+/// bits, rounding half up and saturating at `u32::MAX` (NaN, negatives and
+/// subnormals give 0). Construction-time use only.
+///
+/// Works on the IEEE 754 bits with integer shifts, so no floating-point
+/// routine is linked on cores without an FPU, and every target gets the
+/// same bits.
 pub fn f32_to_fixed(v: f32, frac_bits: u32) -> u32 {
-    let scaled = v * ((1u32 << frac_bits) as f32) + 0.5;
-    // `as` saturates for out-of-range floats and maps NaN to 0.
-    scaled as u32
+    let bits = v.to_bits();
+    let exp = (bits >> 23) & 0xff;
+    if bits >> 31 != 0 || exp == 0 {
+        return 0;
+    }
+    if exp == 0xff {
+        // Infinity saturates; NaN is 0.
+        return if bits & 0x7f_ffff == 0 { u32::MAX } else { 0 };
+    }
+    let mant = u64::from((bits & 0x7f_ffff) | 0x80_0000);
+    // v = mant · 2^(exp − 150), so v · 2^frac = mant · 2^(exp − 150 + frac).
+    let sh = exp as i32 - 150 + frac_bits as i32;
+    let scaled = if sh >= 0 {
+        if sh > 40 {
+            u64::MAX
+        } else {
+            mant << sh
+        }
+    } else {
+        let s = sh.unsigned_abs();
+        if s > 40 {
+            0
+        } else {
+            (mant + (1u64 << (s - 1))) >> s
+        }
+    };
+    if scaled > u64::from(u32::MAX) {
+        u32::MAX
+    } else {
+        scaled as u32
+    }
+}
+
+/// 2^(2^-k) in Q30 for k = 1..=16 (computed: round(2^(2^-k) · 2^30)).
+const EXP2_FRAC_Q30: [u32; 16] = [
+    1_518_500_250,
+    1_276_901_417,
+    1_170_923_762,
+    1_121_280_436,
+    1_097_253_708,
+    1_085_434_106,
+    1_079_572_136,
+    1_076_653_033,
+    1_075_196_443,
+    1_074_468_888,
+    1_074_105_294,
+    1_073_923_544,
+    1_073_832_680,
+    1_073_787_251,
+    1_073_764_537,
+    1_073_753_181,
+];
+
+/// log2(10)/20 in Q32 (computed: round(0.166 096 404 744 · 2^32)).
+const LOG2_10_OVER_20_Q32: u64 = 713_378_626;
+
+/// The amplitude ratio of a level in decibels, `10^(db/20)`, in Q16
+/// (65 536 = 1), for `db` from 0 to 60 (saturating above). Integer only:
+/// `10^(db/20) = 2^(db · log2(10)/20)`, the fractional power of two built
+/// from its bits with a 16-entry table of 2^(2^-k). Accurate to about
+/// 2·10^-5 relative. Construction-time use only.
+pub fn db_to_ratio_q16(db: f32) -> u32 {
+    let db_q16 = u64::from(f32_to_fixed(db, 16).min(60 << 16));
+    let y = (db_q16 * LOG2_10_OVER_20_Q32) >> 32; // log2 of the ratio, Q16
+    let int = (y >> 16) as u32;
+    let frac = (y & 0xffff) as u32;
+    let mut r: u64 = 1 << 30;
+    for (k, c) in EXP2_FRAC_Q30.iter().enumerate() {
+        if frac & (1 << (15 - k)) != 0 {
+            r = (r * u64::from(*c)) >> 30;
+        }
+    }
+    // Q30 → Q16, times 2^int.
+    let q16 = (r << int.min(20)) >> 14;
+    if q16 > u64::from(u32::MAX) {
+        u32::MAX
+    } else {
+        q16 as u32
+    }
 }
 
 #[cfg(test)]
@@ -406,10 +486,37 @@ mod tests {
     }
 
     #[test]
+    fn db_ratios_match_std() {
+        // Reference: the standard library's f64 powf (host only).
+        for tenths in 0..=600u32 {
+            let db = tenths as f32 / 10.0;
+            let want = 10f64.powf(f64::from(db) / 20.0) * 65_536.0;
+            let got = f64::from(db_to_ratio_q16(db));
+            assert!(
+                (got - want).abs() <= want * 3e-5 + 1.0,
+                "{db} dB: {got} vs {want}"
+            );
+        }
+        assert_eq!(db_to_ratio_q16(0.0), 65_536);
+    }
+
+    #[test]
     fn fixed_conversions_saturate() {
         assert_eq!(f32_to_fixed(1.5, 8), 384);
         assert_eq!(f32_to_fixed(f32::NAN, 8), 0);
         assert_eq!(f32_to_fixed(1e30, 8), u32::MAX);
+        assert_eq!(f32_to_fixed(f32::INFINITY, 8), u32::MAX);
+        assert_eq!(f32_to_fixed(-2.0, 8), 0);
+        assert_eq!(f32_to_fixed(0.0, 8), 0);
+        // Round half up: 2.8 · 256 = 716.8 (f32 2.79999995 · 256 = 716.79999).
+        assert_eq!(f32_to_fixed(2.8, 8), 717);
+        assert_eq!(f32_to_fixed(0.001_953_125, 8), 1); // exactly half: up
+                                                       // Against the f64 reference for a spread of values.
+        for k in 0..2000u32 {
+            let v = k as f32 * 0.37 + 0.01;
+            let want = (f64::from(v) * 16.0 + 0.5).floor() as u32;
+            assert_eq!(f32_to_fixed(v, 4), want, "{v}");
+        }
         assert_eq!(mul_q8(u32::MAX, 1024), u32::MAX);
         assert_eq!(mul_q4(100, 16), 100);
         assert_eq!(bit_len(40), 6);
