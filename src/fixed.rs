@@ -191,11 +191,6 @@ pub fn atan2_turns(y: i32, x: i32) -> u32 {
     angle
 }
 
-/// Bit length of `v` (0 for 0): the number of bits needed to hold it.
-pub const fn bit_len(v: u32) -> u32 {
-    32 - v.leading_zeros()
-}
-
 /// The full 64-bit product of two `u32`, exact.
 ///
 /// Cortex-M0/M0+ (thumbv6m) has no long multiply: a `u64` product there
@@ -519,6 +514,5 @@ mod tests {
         }
         assert_eq!(mul_q8(u32::MAX, 1024), u32::MAX);
         assert_eq!(mul_q4(100, 16), 100);
-        assert_eq!(bit_len(40), 6);
     }
 }
