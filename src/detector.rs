@@ -22,14 +22,14 @@
 use crate::baseline::{BaselineState, BaselineTuning};
 use crate::config::Config;
 use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
-use crate::demod::{reciprocal, DemodState, Iq};
+use crate::demod::{reciprocal, CycleScale, DemodState, Iq};
 use crate::error::ConfigError;
 use crate::event::{Event, Faults};
 use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
 use crate::fixed::{isqrt_u32_from, isqrt_u64, mul_q8};
-use crate::impulse::ImpulseState;
+use crate::impulse::{BlockGate, BlockHold, ImpulseState};
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
-use crate::nco::sin_cos_q15;
+use crate::nco::half_turn;
 use crate::panel::{strongest, PanelTuning};
 
 /// An integer ADC sample type the detector accepts.
@@ -90,6 +90,10 @@ pub struct Cycle<const N: usize, const H: usize> {
 
 /// Per-sample half of the pipeline: impulse gate, demodulator and the shared
 /// mains tracker, for `N` channels with `H` extra harmonic bins.
+///
+/// Samples are demodulated in pairs (see [`crate::demod`]): the first
+/// sample of a pair waits in the demodulator until the second arrives, and
+/// the last sample of a cycle of odd length goes alone.
 #[derive(Clone, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Frontend<const N: usize, const H: usize> {
@@ -98,11 +102,14 @@ pub struct Frontend<const N: usize, const H: usize> {
     demod: [DemodState<H>; N],
     /// Index of the first sample of the present cycle.
     cycle_start: u64,
-    /// Sample count of the last cycle and its [`reciprocal`], kept while
-    /// the count repeats (one division per change, not per cycle).
-    recip_n: u32,
-    recip: u32,
-    spike_max_len: u8,
+    /// The last cycle's scaling (sample count, reciprocal, pair
+    /// correction) and the phase step it was made for, kept while both
+    /// repeat (one division per change of the count, not per cycle).
+    scale: CycleScale<H>,
+    scale_step: u32,
+    /// Groups the gate may hold in a row: `⌊spike_max_len/2⌋ + 1` pairs
+    /// cover a spike of `spike_max_len` samples (0 when it is 0).
+    spike_groups: u8,
     spike_floor: u16,
     adc_bits: u8,
     signed: bool,
@@ -117,14 +124,18 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         // Mid-scale of an unsigned converter; the first cycle's mean
         // replaces it.
         let mid = 1u16 << (cfg.adc_bits.clamp(1, 16) - 1);
+        let spike_groups = match cfg.spike_max_len {
+            0 => 0,
+            len => len / 2 + 1,
+        };
         Ok(Self {
             tracker,
             impulse: [ImpulseState::new(); N],
             demod: [DemodState::new(mid); N],
             cycle_start: 0,
-            recip_n: 0,
-            recip: 0,
-            spike_max_len: cfg.spike_max_len,
+            scale: CycleScale::empty(),
+            scale_step: 0,
+            spike_groups,
             spike_floor: cfg.spike_floor_codes,
             adc_bits: cfg.adc_bits,
             signed: false,
@@ -136,14 +147,13 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     #[inline]
     pub fn push_frame<S: AdcSample>(&mut self, frame: &[S; N]) -> Option<Cycle<N, H>> {
         let phase = self.tracker.phase();
-        let (s, c) = sin_cos_q15(phase);
-        let max_len = self.spike_max_len;
-        let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
-        for (x, (gate, dem)) in frame.iter().zip(stages) {
-            let v = gate.filter(x.offset_code(), max_len);
-            let mut d = dem.lane();
-            d.push(u32::from(v), s, c, phase);
-            dem.store(&d);
+        let step = self.tracker.step();
+        if self.tracker.samples_in_cycle() & 1 != 0 {
+            self.pair_frame(frame, phase, step);
+        } else if phase.checked_add(step).is_none() {
+            self.single_frame(frame, phase);
+        } else {
+            self.hold_frame(frame);
         }
         let n = self.tracker.advance();
         if n == 0 {
@@ -152,14 +162,48 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         Some(self.end_cycle(n, S::SIGNED))
     }
 
+    /// The second sample of a pair per channel, at phase `phase`: the pair
+    /// through the gate and the demodulator at its midpoint.
+    fn pair_frame<S: AdcSample>(&mut self, frame: &[S; N], phase: u32, step: u32) {
+        let mid = phase.wrapping_sub(step >> 1);
+        let table = half_turn(mid);
+        let max_len = self.spike_groups;
+        let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
+        for (x, (gate, dem)) in frame.iter().zip(stages) {
+            // Taking the pending sample clears it (0 whenever no pair is
+            // open), so the state is the same whichever path filled it.
+            let sum = u32::from(dem.take_pending()) + u32::from(x.offset_code());
+            let v = gate.gate(sum, (sum >> 1) as u16, 1, max_len);
+            let mut d = dem.lane();
+            d.push_pair((v as i32).wrapping_sub(d.dc2()), table, mid);
+            dem.store(&d, 1);
+        }
+    }
+
+    /// The last sample of a cycle of odd length, alone, at phase `phase`.
+    fn single_frame<S: AdcSample>(&mut self, frame: &[S; N], phase: u32) {
+        let max_len = self.spike_groups;
+        let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
+        for (x, (gate, dem)) in frame.iter().zip(stages) {
+            dem.push_single(gate.filter(x.offset_code(), max_len), phase);
+        }
+    }
+
+    /// The first sample of a pair: kept until the second arrives.
+    fn hold_frame<S: AdcSample>(&mut self, frame: &[S; N]) {
+        for (x, dem) in frame.iter().zip(self.demod.iter_mut()) {
+            dem.hold_first(x.offset_code());
+        }
+    }
+
     /// Takes a block of interleaved frames (`ch0, ch1, …` repeated); calls
     /// `on_cycle` for each mains cycle completed. Returns the trailing
     /// samples it did not take (less than a frame). Gives exactly the
     /// cycles that [`push_frame`](Self::push_frame) would, frame by frame,
     /// at a lower cost: between two cycle ends the per-channel state stays
     /// in locals (registers, for a few channels) instead of memory, widened
-    /// to 32-bit words, and the table is read once per frame. Never
-    /// panics.
+    /// to 32-bit words, and the table is read once per pair of frames.
+    /// Never panics.
     pub fn push_block<S: AdcSample>(
         &mut self,
         samples: &[S],
@@ -167,21 +211,43 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     ) -> usize {
         let whole = samples.len() - samples.len() % N;
         let (mut remaining, rest) = samples.split_at(whole);
-        let max_len = u32::from(self.spike_max_len);
         while !remaining.is_empty() {
             // The tracker may retune at every cycle end.
             let step = self.tracker.step();
             let to_wrap = self.tracker.samples_to_wrap() as usize;
             let take = (remaining.len() / N).min(to_wrap);
+            let ends = take == to_wrap;
             let (run, tail) = remaining.split_at(take * N);
             remaining = tail;
-            let phase = self.tracker.phase();
-            let phase = if N == 1 {
-                self.run_one(run, phase, step, max_len)
-            } else {
-                self.run_many(run, phase, step, max_len)
-            };
-            let n = self.tracker.finish_run(phase, take as u32, take == to_wrap);
+            let mut phase = self.tracker.phase();
+            let mut frames = run;
+            // A pair begun before this run.
+            if self.tracker.samples_in_cycle() & 1 != 0 {
+                if let Some((frame, more)) = frames.split_first_chunk::<N>() {
+                    self.pair_frame(frame, phase, step);
+                    phase = phase.wrapping_add(step);
+                    frames = more;
+                }
+            }
+            let pairs = frames.len() / (2 * N);
+            let (body, last) = frames.split_at(pairs * 2 * N);
+            if pairs > 0 {
+                phase = if N == 1 {
+                    self.run_one(body, phase, step)
+                } else {
+                    self.run_many(body, phase, step)
+                };
+            }
+            // One frame left: the first of a pair, or alone at the wrap.
+            if let Some(frame) = last.first_chunk::<N>() {
+                if ends {
+                    self.single_frame(frame, phase);
+                } else {
+                    self.hold_frame(frame);
+                }
+                phase = phase.wrapping_add(step);
+            }
+            let n = self.tracker.finish_run(phase, take as u32, ends);
             if n != 0 {
                 let cycle = self.end_cycle(n, S::SIGNED);
                 on_cycle(&cycle);
@@ -190,60 +256,80 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         rest.len()
     }
 
-    /// One channel: a run of samples with the gate and accumulators in
-    /// registers. Returns the phase after the run.
+    /// One channel: a run of whole pairs starting at phase `phase`, with
+    /// the gate and accumulators in registers. Returns the phase after the
+    /// run.
     #[inline(always)]
-    fn run_one<S: AdcSample>(&mut self, run: &[S], mut phase: u32, step: u32, max_len: u32) -> u32 {
+    fn run_one<S: AdcSample>(&mut self, run: &[S], phase: u32, step: u32) -> u32 {
         let (Some(gate), Some(dem)) = (self.impulse.first_mut(), self.demod.first_mut()) else {
             return phase;
         };
-        let (mut g, mut hold) = gate.block(phase);
+        let max_len = u32::from(self.spike_groups);
+        let step2 = step.wrapping_mul(2);
+        let to_mid = step - (step >> 1);
+        let mut mid = phase.wrapping_add(to_mid);
+        let dc = dem.dc();
+        let (mut g, mut hold) = gate.block(mid, dc);
         let mut d = dem.lane();
-        for x in run {
-            let v = g.filter(
+        let dc2 = d.dc2();
+        let (pairs, _) = run.as_chunks::<2>();
+        for [a, b] in pairs {
+            let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
+            let xc = g.pair(
                 &mut hold,
-                u32::from(x.offset_code()),
+                (v as i32).wrapping_sub(dc2),
                 max_len,
-                (phase, step),
+                (mid, step2),
             );
-            let (s, c) = sin_cos_q15(phase);
-            d.push(v, s, c, phase);
-            phase = phase.wrapping_add(step);
+            d.push_pair(xc, half_turn(mid), mid);
+            mid = mid.wrapping_add(step2);
         }
-        gate.store_block(&g, &hold, phase);
-        dem.store(&d);
-        phase
+        gate.store_block(&g, &hold, mid, dc);
+        dem.store(&d, pairs.len() as u32);
+        mid.wrapping_sub(to_mid)
     }
 
-    /// Several channels: a run of frames, per-channel state in locals.
+    /// Several channels: a run of whole pairs of frames, per-channel state
+    /// in locals.
     #[inline(always)]
-    fn run_many<S: AdcSample>(
-        &mut self,
-        run: &[S],
-        mut phase: u32,
-        step: u32,
-        max_len: u32,
-    ) -> u32 {
-        let mut gates = self.impulse.map(|g| g.block(phase).0);
-        let mut holds = self.impulse.map(|g| g.block(phase).1);
-        let mut dems = self.demod.map(|d| d.lane());
-        for chunk in run.chunks_exact(N) {
-            let (s, c) = sin_cos_q15(phase);
-            let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
-            for (x, ((g, h), d)) in chunk.iter().zip(stages) {
-                let v = g.filter(h, u32::from(x.offset_code()), max_len, (phase, step));
-                d.push(v, s, c, phase);
-            }
-            phase = phase.wrapping_add(step);
+    fn run_many<S: AdcSample>(&mut self, run: &[S], phase: u32, step: u32) -> u32 {
+        let max_len = u32::from(self.spike_groups);
+        let step2 = step.wrapping_mul(2);
+        let to_mid = step - (step >> 1);
+        let mut mid = phase.wrapping_add(to_mid);
+        let dcs = self.demod.map(|d| d.dc());
+        let mut gates = [BlockGate::default(); N];
+        let mut holds = [BlockHold::default(); N];
+        for (((g, h), state), dc) in gates
+            .iter_mut()
+            .zip(holds.iter_mut())
+            .zip(self.impulse.iter())
+            .zip(dcs)
+        {
+            (*g, *h) = state.block(mid, dc);
         }
-        let lanes = gates.iter().zip(holds.iter());
-        for (state, (lane, hold)) in self.impulse.iter_mut().zip(lanes) {
-            state.store_block(lane, hold, phase);
+        let mut dems = self.demod.map(|d| d.lane());
+        let chunks = run.chunks_exact(2 * N);
+        let pairs = chunks.len() as u32;
+        for chunk in chunks {
+            let table = half_turn(mid);
+            let (first, second) = chunk.split_at(N);
+            let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
+            for ((a, b), ((g, h), d)) in first.iter().zip(second.iter()).zip(stages) {
+                let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
+                let xc = g.pair(h, (v as i32).wrapping_sub(d.dc2()), max_len, (mid, step2));
+                d.push_pair(xc, table, mid);
+            }
+            mid = mid.wrapping_add(step2);
+        }
+        let lanes = gates.iter().zip(holds.iter()).zip(dcs);
+        for (state, ((lane, hold), dc)) in self.impulse.iter_mut().zip(lanes) {
+            state.store_block(lane, hold, mid, dc);
         }
         for (state, lane) in self.demod.iter_mut().zip(dems.iter()) {
-            state.store(lane);
+            state.store(lane, pairs);
         }
-        phase
+        mid.wrapping_sub(to_mid)
     }
 
     #[inline(never)]
@@ -267,18 +353,24 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             health: MainsHealth::Ok,
             rails,
         };
-        if n != self.recip_n {
-            self.recip_n = n;
-            self.recip = reciprocal(n);
+        let step = self.tracker.step();
+        if n != self.scale.samples() || step != self.scale_step {
+            let recip = if n == self.scale.samples() {
+                self.scale.recip()
+            } else {
+                reciprocal(n)
+            };
+            self.scale = CycleScale::new(n, recip, step);
+            self.scale_step = step;
         }
-        let recip = self.recip;
+        let scale = &self.scale;
         let stages = self.demod.iter_mut().zip(self.impulse.iter_mut());
         let outs = cycle.fund.iter_mut().zip(cycle.harm.iter_mut());
         let extras = cycle.dc.iter_mut().zip(cycle.flat.iter_mut());
         for ((dem, gate), ((f, h), (dc, flat))) in stages.zip(outs.zip(extras)) {
-            (*f, *h) = dem.end_cycle_with(n, recip);
+            (*f, *h) = dem.end_cycle_with(scale);
             *dc = dem.dc();
-            *flat = gate.end_cycle(self.spike_max_len, self.spike_floor);
+            *flat = gate.end_cycle(self.spike_groups, self.spike_floor);
         }
         self.tracker.end_cycle(cycle.fund.iter().copied());
         cycle.health = self.tracker.health();

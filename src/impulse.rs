@@ -1,35 +1,43 @@
 //! Impulse rejection: a slew gate in front of the demodulator.
 //!
-//! A sample whose step from the last accepted sample exceeds the gate limit
-//! is replaced by the last accepted sample (held), for at most
-//! `spike_max_len` samples in a row; the next sample is accepted whatever
-//! it is, so a real change of level is delayed by at most that many samples.
+//! The gate sees the demodulator's groups: pairs of samples (the cycle's
+//! samples 0 and 1, 2 and 3, …) and the lone last sample of a cycle of odd
+//! length. It compares the group's mean `m` (the pair sum halved, floor; a
+//! lone sample as it is) with the last accepted mean. A group whose step
+//! exceeds the gate limit is replaced by the last accepted mean (held: the
+//! demodulator gets that mean times the group's size), for at most
+//! `max_len` groups in a row; the next group is accepted whatever it is, so
+//! a real change of level is delayed by at most that many groups. An
+//! accepted group passes its exact sum.
 //!
 //! The limit is set once per mains cycle from the largest accepted step of
 //! the cycle before:
 //!
-//! `limit = min((spike_max_len + 1) · max_step + floor, 65 535)`
+//! `limit = min((max_len + 1) · max_step + floor, 65 535)`
 //!
-//! The factor `spike_max_len + 1` lets the true signal move for that many
-//! held samples and still be accepted when the hold ends. A sinusoid of
-//! amplitude A with n samples per cycle steps at most 2πA/n per sample, so a
-//! full-scale spike on ambient hum is held, while a touch that raises the hum
-//! tenfold opens the gate within one cycle (the accepted steps of that cycle
-//! set the next limit). Codes are offset binary (`u16`), so every step fits
-//! `u16`. The first cycle accepts everything.
+//! The factor `max_len + 1` lets the true signal move for that many held
+//! groups and still be accepted when the hold ends. A sinusoid of
+//! amplitude A with n samples per cycle steps at most 2πA/n per sample (so
+//! about twice that per pair), so a full-scale spike on ambient hum is
+//! held, while a touch that raises the hum tenfold opens the gate within
+//! one cycle (the accepted steps of that cycle set the next limit). A spike
+//! of `L` samples touches at most `⌊L/2⌋ + 1` pairs: the detector holds up
+//! to that many groups for `spike_max_len = L`. Means are offset-binary
+//! codes (`u16`), so every step fits `u16`. The first cycle accepts
+//! everything.
 //!
-//! Two forms give the same output: [`ImpulseState::filter`], one sample at
-//! a time from memory (the frame path), and [`BlockGate`] with
-//! [`BlockHold`] for a run of samples in registers (the block path), which
-//! tests a step against a watermark (the largest in-limit step so far this
-//! cycle) in one compare and leaves the limit and the hold counter to the
-//! rare samples above the watermark.
+//! Two forms give the same output: [`ImpulseState::gate`], one group at a
+//! time from memory (the frame path), and [`BlockGate`] with [`BlockHold`]
+//! for a run of pairs in registers (the block path), which tests a step
+//! against a watermark (the largest in-limit step so far this cycle) in one
+//! compare and leaves the limit and the hold counter to the rare groups
+//! above the watermark.
 
 /// Per-channel state of the impulse gate (8 bytes).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct ImpulseState {
-    /// Last accepted sample, offset-binary code.
+    /// Last accepted group mean, offset-binary code.
     last: u16,
     /// Present gate limit in codes; `u16::MAX` accepts everything.
     limit: u16,
@@ -50,29 +58,43 @@ impl ImpulseState {
         }
     }
 
-    /// Passes one sample through the gate and returns the sample to
-    /// demodulate (the input, or the held sample). Never panics.
+    /// Passes one group through the gate: `sum` is the group's sum, `m`
+    /// its mean and `shift` the log2 of its size (1 for a pair, 0 for a
+    /// lone sample). Returns the sum to demodulate: `sum`, or the held mean
+    /// `<< shift`. Never panics.
     #[inline(always)]
-    pub fn filter(&mut self, x: u16, max_len: u8) -> u16 {
+    pub fn gate(&mut self, sum: u32, m: u16, shift: u32, max_len: u8) -> u32 {
         // In u32, so no masking to 16 bits is needed between steps.
-        let step = u32::from(x).abs_diff(u32::from(self.last));
+        let step = u32::from(m).abs_diff(u32::from(self.last));
         if step > u32::from(self.limit) && self.run < max_len {
             self.run += 1;
-            return self.last;
+            return u32::from(self.last) << shift;
         }
         self.run = 0;
-        self.last = x;
+        self.last = m;
         if step > u32::from(self.max_step) {
             self.max_step = step as u16;
         }
-        x
+        sum
     }
 
-    /// The block path's gate for a run whose first sample is at position
-    /// (reference phase) `start`: a run of held samples at the end of the
+    /// [`gate`](Self::gate) for a group of one sample `x`: returns `x` or
+    /// the held mean.
+    #[inline(always)]
+    pub fn filter(&mut self, x: u16, max_len: u8) -> u16 {
+        self.gate(u32::from(x), x, 0, max_len) as u16
+    }
+
+    /// The block path's gate for a run whose first pair is at position
+    /// (reference phase) `start`: a run of held groups at the end of the
     /// last call continues there.
     #[inline(always)]
-    pub const fn block(&self, start: u32) -> (BlockGate, BlockHold) {
+    ///
+    /// The block path works on pair sums less twice the demodulator's DC
+    /// estimate `dc` (`xc = v − 2·dc`), so the gate's means there are
+    /// `m − dc` (exactly, as `2·dc` is even); the gate only compares
+    /// differences, so its decisions are the same.
+    pub const fn block(&self, start: u32, dc: u16) -> (BlockGate, BlockHold) {
         // The largest step so far is within the limit unless a step above
         // it was accepted; either way it is a valid watermark only up to
         // the limit, and the rest is kept as `max_over`.
@@ -82,7 +104,7 @@ impl ImpulseState {
             (self.max_step as u32, 0)
         };
         let gate = BlockGate {
-            lo: (self.last as u32).wrapping_sub(w),
+            lo: (self.last as u32).wrapping_sub(dc as u32).wrapping_sub(w),
             w,
         };
         let hold = BlockHold {
@@ -96,12 +118,12 @@ impl ImpulseState {
     }
 
     /// Stores the block path's gate back after a run whose next position
-    /// (the phase after its last sample) is `end`: the hold counter
-    /// survives only if the last sample was held.
+    /// (the position after its last pair) is `end`: the hold counter
+    /// survives only if the last pair was held.
     #[inline(always)]
-    pub fn store_block(&mut self, gate: &BlockGate, hold: &BlockHold, end: u32) {
+    pub fn store_block(&mut self, gate: &BlockGate, hold: &BlockHold, end: u32, dc: u16) {
         let w = gate.w;
-        self.last = gate.lo.wrapping_add(w) as u16;
+        self.last = gate.lo.wrapping_add(w).wrapping_add(u32::from(dc)) as u16;
         self.max_step = w.max(hold.max_over) as u16;
         self.run = if hold.held && hold.held_next == end {
             hold.run as u8
@@ -112,7 +134,7 @@ impl ImpulseState {
 
     /// Ends a mains cycle: sets the limit for the next cycle from this one's
     /// largest accepted step. Returns whether the cycle was flat (no
-    /// accepted sample differed from the one before it: a stuck input).
+    /// accepted group mean differed from the one before it: a stuck input).
     /// Per cycle.
     pub fn end_cycle(&mut self, max_len: u8, floor: u16) -> bool {
         let factor = u32::from(max_len) + 1;
@@ -129,98 +151,113 @@ impl ImpulseState {
     }
 }
 
-/// The same gate for a run of samples on the block path, arranged so the
-/// common sample costs a subtract, a compare and a subtract.
+/// The same gate for a run of pairs on the block path, arranged so the
+/// common pair costs a shift, a subtract, a compare and a subtract.
 ///
 /// It keeps a watermark `w`, the largest step accepted so far this cycle
 /// within the limit (`w ≤ limit`), and `lo = last − w` (wrapping `u32`).
-/// Then `|x − last| ≤ w` is one unsigned compare, `x − lo ≤ 2w`, and
-/// accepting such a sample changes neither the
-/// watermark nor the cycle's largest step: `lo ← x − w`. Only a step above
-/// the watermark takes the slower path: within the limit it raises the
-/// watermark; above the limit it is held, or accepted when `spike_max_len`
-/// samples are held in a row (that step is kept in [`BlockHold`], apart
+/// Then for a pair mean `m`, `|m − last| ≤ w` is one unsigned compare,
+/// `m − lo ≤ 2w`, and accepting such a pair changes neither the watermark
+/// nor the cycle's largest step: `lo ← m − w`. Only a step above the
+/// watermark takes the slower path: within the limit it raises the
+/// watermark; above the limit it is held, or accepted when `max_len`
+/// groups are held in a row (that step is kept in [`BlockHold`], apart
 /// from the watermark). The cycle's largest accepted step is
 /// `max(w, BlockHold::max_over)`, exactly the frame path's.
-#[derive(Clone, Copy, Debug)]
+#[derive(Clone, Copy, Debug, Default)]
 pub struct BlockGate {
     lo: u32,
     w: u32,
 }
 
-/// The rarely touched part of the block path's gate (held samples and
+/// The rarely touched part of the block path's gate (held pairs and
 /// steps above the watermark), kept apart from [`BlockGate`] so the common
 /// path needs only two registers for the gate.
 ///
-/// Instead of clearing the hold counter on every accepted sample, a held
-/// sample records the position of the sample after it, and the next step
+/// Instead of clearing the hold counter on every accepted pair, a held
+/// pair records the position of the pair after it, and the next step
 /// over the limit continues the run only if it comes at that position.
-#[derive(Clone, Copy, Debug)]
+#[derive(Clone, Copy, Debug, Default)]
 pub struct BlockHold {
     limit: u32,
     run: u32,
-    /// Whether `held_next` marks a held sample.
+    /// Whether `held_next` marks a held pair.
     held: bool,
-    /// Position just after the latest held sample.
+    /// Position just after the latest held pair.
     held_next: u32,
     /// Largest step accepted above the limit this cycle (0 if none).
     max_over: u32,
 }
 
 impl BlockGate {
-    /// The gate for the sample `x` at position `pos` of a run: the same
-    /// output as [`ImpulseState::filter`]. Positions are the samples' reference
-    /// phases (`pos_step` is the phase step): they increase within a run,
-    /// which never crosses a phase wrap except after its last sample (see
-    /// [`ImpulseState::block`]).
+    /// The gate for the pair at position `pos` of a run, given as its sum
+    /// less twice the DC estimate, `xc` (see [`ImpulseState::block`]):
+    /// returns `xc`, or twice the held mean in the same terms; the same
+    /// decision as [`ImpulseState::gate`] with `shift = 1`. Positions are
+    /// the pairs' reference phases (`pos_step` is the phase step of a
+    /// pair): they increase within a run, which never crosses a phase wrap
+    /// except after its last pair.
     #[inline(always)]
-    pub fn filter(
+    pub fn pair(
         &mut self,
         hold: &mut BlockHold,
-        x: u32,
+        xc: i32,
         max_len: u32,
         (pos, pos_step): (u32, u32),
-    ) -> u32 {
-        if x.wrapping_sub(self.lo) <= self.w << 1 {
-            self.lo = x.wrapping_sub(self.w);
-            return x;
-        }
-        self.above(hold, x, max_len, pos, pos_step)
-    }
-
-    /// A step above the watermark.
-    #[inline(always)]
-    fn above(
-        &mut self,
-        hold: &mut BlockHold,
-        x: u32,
-        max_len: u32,
-        pos: u32,
-        pos_step: u32,
-    ) -> u32 {
+    ) -> i32 {
+        // m − dc, as a wrapping u32 (the compare below is modular).
+        let m = (xc >> 1) as u32;
         let w = self.w;
+        if m.wrapping_sub(self.lo) <= w << 1 {
+            self.lo = m.wrapping_sub(w);
+            return xc;
+        }
         let last = self.lo.wrapping_add(w);
-        let step = x.abs_diff(last);
+        let step = (m as i32).abs_diff(last as i32);
         if step <= hold.limit {
             // A new largest step within the limit.
             self.w = step;
-            self.lo = x.wrapping_sub(step);
-            return x;
+            self.lo = m.wrapping_sub(step);
+            return xc;
         }
+        let (lo, held) = Self::beyond(hold, m, step, last, max_len, (pos, pos_step));
+        match held {
+            Some(last) => (last as i32).wrapping_mul(2),
+            None => {
+                self.lo = lo.wrapping_sub(w);
+                xc
+            }
+        }
+    }
+
+    /// A step above the limit (rare: out of line): holds the pair, or
+    /// accepts it when `max_len` groups are held in a row. Returns the
+    /// accepted mean (`m`) and the held mean (`Some(last)`) or `None` when
+    /// accepted. Means here are `m − dc`: signed values (|·| < 2^16) held
+    /// in `u32`.
+    #[cold]
+    #[inline(never)]
+    fn beyond(
+        hold: &mut BlockHold,
+        m: u32,
+        step: u32,
+        last: u32,
+        max_len: u32,
+        (pos, pos_step): (u32, u32),
+    ) -> (u32, Option<u32>) {
         if !hold.held || hold.held_next != pos {
-            // The sample before was accepted: a new run.
+            // The group before was accepted: a new run.
             hold.run = 0;
         }
         if hold.run < max_len {
             hold.run += 1;
             hold.held = true;
             hold.held_next = pos.wrapping_add(pos_step);
-            return last;
+            return (m, Some(last));
         }
         hold.run = 0;
         hold.max_over = hold.max_over.max(step);
-        self.lo = x.wrapping_sub(w);
-        x
+        (m, None)
     }
 }
 
