@@ -592,6 +592,29 @@ mod target {
         }
     }
 
+    /// `CORTEXM_TRACE=1` at build time: only the touch profile, one
+    /// channel, through `Detector::push_block` for `TRACE_FRAMES` frames
+    /// (warm-up included), and no output: a steady workload for an
+    /// instruction profile from QEMU's execution trace (`-d
+    /// exec,nochain,in_asm`; see DEVELOPERS.md).
+    fn trace_one() -> Result<(), ()> {
+        const TRACE_FRAMES: u32 = 48_000;
+        let Ok(mut det) = Detector::<1>::new(Config::touch()) else {
+            return Err(());
+        };
+        let mut src = source::<1>();
+        let mut events = 0u32;
+        let mut buf = [0u16; BLOCK as usize];
+        for _ in 0..TRACE_FRAMES / BLOCK {
+            for x in buf.iter_mut() {
+                *x = frame(&mut src)[0];
+            }
+            block_call(&mut det, black_box(&buf), &mut events);
+        }
+        black_box(events);
+        Ok(())
+    }
+
     #[entry]
     fn main() -> ! {
         let Some(mut p) = cortex_m::Peripherals::take() else {
@@ -610,7 +633,11 @@ mod target {
             8 => probe::<8>(),
             _ => {}
         }
-        let status = run();
+        let status = if option_env!("CORTEXM_TRACE").is_some() {
+            trace_one()
+        } else {
+            run()
+        };
         debug::exit(match status {
             Ok(()) => debug::EXIT_SUCCESS,
             Err(()) => debug::EXIT_FAILURE,

@@ -320,9 +320,13 @@ impl<const H: usize> DemodState<H> {
             return (Iq::default(), harm);
         }
         let bias = (n.div_ceil(2) >> 1) as i32;
+        // In range without a clamp: each of the p ≤ (n + 1)/2 products is
+        // below 2^21 after its shift, so |acc + bias| < p·(2^21 + 1), and
+        // r ≤ 1.33 · 2^32/n (the largest correction a validated config
+        // allows is 1/cos(π/4.4)): |result| < (p/n) · 1.33 · 2^26 · 1.01
+        // < 2^26 for n ≥ 6 (`Config` asks for many more samples a cycle).
         let scaled = |acc: i32, r: u32| -> i32 {
-            let v = (mul_wide_signed(acc.wrapping_add(bias), r) + (1 << 26)) >> 27;
-            v.max(i64::from(i32::MIN)).min(i64::from(i32::MAX)) as i32
+            ((mul_wide_signed(acc.wrapping_add(bias), r) + (1 << 26)) >> 27) as i32
         };
         let pair = |[i, q]: [i32; 2], r: u32| Iq {
             i: scaled(i, r),
@@ -332,8 +336,10 @@ impl<const H: usize> DemodState<H> {
         for ((out, acc), r) in harm.iter_mut().zip(self.harm.iter()).zip(scale.harm.iter()) {
             *out = pair(*acc, *r);
         }
+        // sum ≤ 65 535 · n and recip ≤ 2^32 / n, so the rounded mean is at
+        // most 65 535: it fits u16 as it is.
         let mean = (mul_wide(self.sum, scale.recip) + (1 << 31)) >> 32;
-        self.dc = if mean > 0xffff { 0xffff } else { mean as u16 };
+        self.dc = mean as u16;
         self.acc = [0; 2];
         self.harm = [[0; 2]; H];
         self.sum = 0;
@@ -506,6 +512,46 @@ mod tests {
         let (f, _) = d.end_cycle(1_139, step);
         assert!(f.i.abs() < 1 << 25 && f.q.abs() < 1 << 25);
         assert_eq!(d.end_cycle(0, step).0, Iq::default());
+    }
+
+    #[test]
+    fn short_cycles_at_full_scale_need_no_clamp() {
+        // The end-of-cycle scaling has no clamp (see `end_cycle_with`): at
+        // the fewest samples a cycle and full-scale 16-bit input the
+        // results must still be the plain amplitude, not wrapped. A square
+        // wave of peak-to-peak S has a fundamental of (4/π)·S/2 (Fourier
+        // series, standard); at 6 and 16 samples its sampled harmonics
+        // alias onto the bins, so only the magnitude's order is checked.
+        for n in [6u32, 16] {
+            let step = phase_step(66_000, 66 * n);
+            let mut d = DemodState::<0>::new(32_768);
+            let mut phase = 0;
+            let mut last = (Iq::default(), []);
+            for _ in 0..3 {
+                let sq = |th: u32| if th < 1 << 31 { u16::MAX } else { 0 };
+                let mut th = phase;
+                for _ in 0..n / 2 {
+                    let v = u32::from(sq(th)) + u32::from(sq(th.wrapping_add(step)));
+                    d.push_pair(v, th.wrapping_add(step - (step >> 1)));
+                    th = th.wrapping_add(2 * step);
+                }
+                phase = th;
+                last = d.end_cycle(n, step);
+            }
+            let amp = (last.0.power() as f64).sqrt() / 256.0;
+            let want = 4.0 / core::f64::consts::PI * 65_535.0 / 2.0;
+            assert!(
+                amp > 0.8 * want && amp < 1.3 * want,
+                "n {n}: {amp} vs {want}"
+            );
+            // A constant top code has the top code as its mean.
+            let mut d = DemodState::<0>::new(32_768);
+            for k in 0..n / 2 {
+                d.push_pair(2 * 65_535, k * 2 * step);
+            }
+            let _ = d.end_cycle(n, step);
+            assert_eq!(d.dc(), u16::MAX, "n {n}");
+        }
     }
 
     #[test]

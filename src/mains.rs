@@ -88,6 +88,12 @@ pub struct MainsTracker {
     rate_hz: u32,
     /// Samples in the present cycle.
     count: u32,
+    /// Length of the present cycle in samples, set at its start from the
+    /// cached quotient and remainder of (2^32 − 1) / step (see
+    /// [`samples_to_wrap`](Self::samples_to_wrap)).
+    cycle_len: u16,
+    div_q: u16,
+    div_r: u32,
     /// Phase of the previous learning cycle, and on which channel.
     prev_phi: u32,
     prev_ref: u8,
@@ -125,7 +131,7 @@ impl MainsTracker {
         // |i| + |q| ≥ A for any phase, so this never rejects a cycle whose
         // amplitude reaches track_min_codes.
         let min_l1 = crate::fixed::f32_to_fixed(cfg.track_min_codes, 8);
-        Self {
+        let mut t = Self {
             phase: 0,
             step: phase_step(start_mhz, rate),
             min_step: phase_step(lo, rate),
@@ -147,7 +153,41 @@ impl MainsTracker {
             pinned_cycles: 0,
             apparent_mhz: 0,
             lost_after: cfg.mains_lost_cycles,
-        }
+            cycle_len: 0,
+            div_q: 0,
+            div_r: 0,
+        };
+        t.retune();
+        t.start_cycle();
+        t
+    }
+
+    /// Caches `(2^32 − 1) = q·step + r` for the present step: one division,
+    /// at construction and whenever the step changes (at cycle ends, at
+    /// most once a cycle and in lock once every eight).
+    fn retune(&mut self) {
+        let step = self.step.max(1);
+        let q = u32::MAX / step;
+        self.div_q = q.min(u32::from(u16::MAX)) as u16;
+        self.div_r = u32::MAX - q.wrapping_mul(step);
+    }
+
+    /// Sets the length of the cycle that starts at the present phase `p`:
+    /// the least `k` with `p + k·step ≥ 2^32` is `⌊(2^32 − 1 − p)/step⌋ +
+    /// 1`, which for `p < step` is `q + 1` when `p ≤ r`, else `q`. After a
+    /// retune the start phase (below the old step) can exceed the new step
+    /// once (steps stay within the 2:3 tracking range), which shortens the
+    /// cycle by one.
+    fn start_cycle(&mut self) {
+        let step = self.step.max(1);
+        let (p, less) = if self.phase >= step {
+            (self.phase - step, 1)
+        } else {
+            (self.phase, 0)
+        };
+        let q = u32::from(self.div_q);
+        let k = if p <= self.div_r { q + 1 } else { q };
+        self.cycle_len = k.saturating_sub(less).min(u32::from(u16::MAX)) as u16;
     }
 
     /// Samples taken in the present, unfinished cycle.
@@ -162,11 +202,11 @@ impl MainsTracker {
     }
 
     /// Samples until the present cycle ends, counting the one that ends it:
-    /// the least `k ≥ 1` with `phase + k·step ≥ 2^32` (one division).
+    /// the least `k ≥ 1` with `phase + k·step ≥ 2^32`. No division: the
+    /// cycle's length is set when it starts (see `start_cycle`).
+    #[inline(always)]
     pub fn samples_to_wrap(&self) -> u32 {
-        // 2^32 − 1 − phase fits u32, so the division is a 32-bit one.
-        let left = u32::MAX - self.phase;
-        (left / self.step.max(1)).saturating_add(1)
+        u32::from(self.cycle_len).saturating_sub(self.count).max(1)
     }
 
     /// Ends a run of `k` samples processed outside the tracker (the block
@@ -208,8 +248,13 @@ impl MainsTracker {
     /// fundamental; the strongest channel (by |i| + |q|) is the reference.
     /// Per cycle.
     pub fn end_cycle(&mut self, fund: impl Iterator<Item = Iq>) {
+        let step = self.step;
         self.learn(fund);
         self.settle_lock();
+        if self.step != step {
+            self.retune();
+        }
+        self.start_cycle();
     }
 
     fn settle_lock(&mut self) {
@@ -397,5 +442,55 @@ impl MainsTracker {
     /// The mains system chosen (or fixed by configuration).
     pub const fn system(&self) -> MainsSystem {
         self.system
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    extern crate std;
+    use super::*;
+    use crate::config::Config;
+
+    /// `samples_to_wrap` (no division) against counting `advance` calls up
+    /// to the phase wrap, the definition of a cycle, over retunes at every
+    /// cycle end: steps anywhere in the tracking range, up and down, from a
+    /// fixed-seed generator.
+    #[test]
+    fn samples_to_wrap_matches_the_phase_wrap() {
+        for rate in [990, 2_000, 2_500, 50_000] {
+            let cfg = Config::touch().with_sample_rate(rate);
+            let mut t = MainsTracker::new(&cfg);
+            let mut seed = 0x2545_f491_u32;
+            for _ in 0..400 {
+                let want = {
+                    let mut probe = t;
+                    let mut k = 1;
+                    while probe.advance() == 0 {
+                        k += 1;
+                    }
+                    k
+                };
+                assert_eq!(t.samples_to_wrap(), want, "rate {rate}, step {}", t.step);
+                // Part of the cycle, then the rest.
+                let first = want / 3;
+                for _ in 0..first {
+                    assert_eq!(t.advance(), 0);
+                }
+                assert_eq!(t.samples_to_wrap(), want - first);
+                let mut n = 0;
+                while n == 0 {
+                    n = t.advance();
+                }
+                assert_eq!(n, want);
+                // A new step within the range, as the loop would set.
+                seed ^= seed << 13;
+                seed ^= seed >> 17;
+                seed ^= seed << 5;
+                let span = t.max_step - t.min_step;
+                t.step = t.min_step + seed % span.max(1);
+                t.retune();
+                t.start_cycle();
+            }
+        }
     }
 }
