@@ -17,7 +17,7 @@
 
 use crate::config::{Config, Profile};
 use crate::event::EventKind;
-use crate::fixed::{db_to_ratio_q16, f32_to_fixed, mul_q4, mul_q8};
+use crate::fixed::{db_to_ratio_q16, div_rem_u32, f32_to_fixed, mul_q4, mul_q8};
 
 /// Most levels a field profile can have.
 pub const MAX_LEVELS: usize = 16;
@@ -65,7 +65,7 @@ impl DecisionTuning {
         let off_q8 = f32_to_fixed(cfg.off_ratio, 8);
         // 10^(−h/20) in Q8 = 2^24 / 10^(h/20) in Q16, rounded.
         let h_q16 = db_to_ratio_q16(cfg.level_hysteresis_db).max(1);
-        let hyst_q8 = ((1u32 << 24) + h_q16 / 2) / h_q16;
+        let hyst_q8 = div_rem_u32((1u32 << 24) + h_q16 / 2, h_q16).0;
         Self {
             profile: cfg.profile,
             on_noise_q4: f32_to_fixed(cfg.on_noise, 4),
@@ -260,14 +260,15 @@ pub fn ratio_q8(a: u32, b: u32) -> u32 {
     if b == 0 {
         return u32::MAX;
     }
-    // Exact, in 32-bit division (no 64-bit division routine linked):
+    // Exact, in 32-bit division (`div_rem_u32`: no division routine
+    // linked on Cortex-M0, a short loop for the small ratios met here):
     // ⌊256a/b⌋ = 256⌊a/b⌋ + ⌊256(a mod b)/b⌋.
-    let (q, r) = (a / b, a % b);
+    let (q, r) = div_rem_u32(a, b);
     if q >= 1 << 24 {
         return u32::MAX;
     }
     let frac = if b < 1 << 24 {
-        (r << 8) / b
+        div_rem_u32(r << 8, b).0
     } else {
         // Eight restoring steps (r < b, so 2r fits u64 and each bit is
         // one compare).

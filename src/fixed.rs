@@ -62,6 +62,68 @@ const fn div_u64(num: u64, den: u64) -> u64 {
     q
 }
 
+/// `(n / d, n % d)` for `d > 0`; `d = 0` gives `(u32::MAX, n)`.
+///
+/// Cortex-M0/M0+ (thumbv6m, recognised as in [`mul_wide`]) has no divide
+/// instruction, and `/` or `%` on a runtime `u32` there links the
+/// `compiler_builtins` division routine (about 400 bytes). On those cores
+/// this is restoring (shift-subtract) division instead: the divisor is
+/// shifted up under the dividend's top bit, then one compare and at most
+/// one subtraction per quotient bit, so a quotient below 2^k costs about
+/// 2k short steps (a ratio of a few units, a handful). Elsewhere (one
+/// `udiv` on Cortex-M3/M4/M7, and the host) it is the plain operators.
+/// Both give the same bits (unit and property tests on the host, golden
+/// vectors on both emulated cores). Usable in `const` context.
+///
+/// ```
+/// use humsense::fixed::div_rem_u32;
+/// assert_eq!(div_rem_u32(1_000, 7), (142, 6));
+/// assert_eq!(div_rem_u32(5, 0), (u32::MAX, 5));
+/// ```
+#[inline]
+pub const fn div_rem_u32(n: u32, d: u32) -> (u32, u32) {
+    if d == 0 {
+        return (u32::MAX, n);
+    }
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        div_rem_shift(n, d)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        (n / d, n % d)
+    }
+}
+
+/// [`div_rem_u32`] by restoring division, `d > 0`. Compiled on every
+/// target so the host tests check it against `/` and `%`.
+#[cfg_attr(
+    not(all(target_arch = "arm", not(target_has_atomic = "32"))),
+    allow(dead_code)
+)]
+const fn div_rem_shift(n: u32, d: u32) -> (u32, u32) {
+    let mut r = n;
+    let mut q = 0u32;
+    // Align: the largest d · 2^k ≤ n. `dd ≤ r / 2` before each doubling,
+    // so `dd` cannot overflow.
+    let mut dd = d;
+    let mut bit = 1u32;
+    while dd <= r >> 1 {
+        dd <<= 1;
+        bit <<= 1;
+    }
+    // One quotient bit per step, from 2^k down; r < 2 · dd throughout.
+    while bit != 0 {
+        if r >= dd {
+            r -= dd;
+            q |= bit;
+        }
+        dd >>= 1;
+        bit >>= 1;
+    }
+    (q, r)
+}
+
 /// Frequency in hertz that a phase step represents at `rate_hz`
 /// (`step · rate / 2^32`). Per-cycle or diagnostic use only (floating point).
 pub fn step_to_hz(step: u32, rate_hz: u32) -> f32 {
@@ -131,9 +193,15 @@ pub const fn isqrt_u64(v: u64) -> u32 {
     if v <= u32::MAX as u64 {
         return isqrt_u32(v as u32);
     }
-    // Bits above 32, rounded up to an even count.
-    let high = 64 - v.leading_zeros();
-    let shift = (high - 32 + 1) & !1;
+    // Bits above 32, rounded up to an even count: counted two at a time
+    // (at most 16 steps), as `leading_zeros` is a library call on
+    // Cortex-M0.
+    let mut high = (v >> 32) as u32;
+    let mut shift = 0;
+    while high != 0 {
+        high >>= 2;
+        shift += 2;
+    }
     isqrt_u32((v >> shift) as u32) << (shift / 2)
 }
 
@@ -359,6 +427,60 @@ mod tests {
         assert_eq!(phase_step(60_000, 10), u32::MAX);
         let hz = step_to_hz(phase_step(50_000, 2_000), 2_000);
         assert!((hz - 50.0).abs() < 1e-4, "{hz}");
+    }
+
+    #[test]
+    fn shift_division_matches_the_operators() {
+        // Reference: Rust's own `/` and `%` on u32 (common practice).
+        let edges = [
+            0u32,
+            1,
+            2,
+            3,
+            7,
+            255,
+            256,
+            65_535,
+            65_536,
+            (1 << 24) - 1,
+            1 << 24,
+            0x7fff_ffff,
+            0x8000_0000,
+            0x8000_0001,
+            u32::MAX - 1,
+            u32::MAX,
+        ];
+        for n in edges {
+            for d in edges {
+                if d == 0 {
+                    assert_eq!(div_rem_u32(n, 0), (u32::MAX, n));
+                    continue;
+                }
+                assert_eq!(div_rem_shift(n, d), (n / d, n % d), "{n} / {d}");
+                assert_eq!(div_rem_u32(n, d), (n / d, n % d), "{n} / {d}");
+            }
+        }
+        // Every divisor against dividends around each of its multiples.
+        for d in 1..=2_000u32 {
+            for m in [0u32, 1, 2, 3, 17, 1_000, 65_537, u32::MAX / d] {
+                let base = m.saturating_mul(d);
+                for n in [base.saturating_sub(1), base, base.saturating_add(1)] {
+                    assert_eq!(div_rem_shift(n, d), (n / d, n % d), "{n} / {d}");
+                }
+            }
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn shift_division_matches_the_operators_anywhere(n: u32, d in 1u32..) {
+            // Reference: Rust's `/` and `%` (common practice).
+            proptest::prop_assert_eq!(div_rem_shift(n, d), (n / d, n % d));
+            let small = d >> (d % 31);
+            if small != 0 {
+                proptest::prop_assert_eq!(div_rem_shift(n, small), (n / small, n % small));
+            }
+        }
     }
 
     #[test]

@@ -17,7 +17,7 @@
 //!   other channel is on.
 
 use crate::config::{Config, PanelMode};
-use crate::fixed::f32_to_fixed;
+use crate::fixed::{div_rem_u32, f32_to_fixed};
 
 /// The panel stage's constants (from [`Config`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -40,7 +40,7 @@ impl PanelTuning {
         Self {
             independent: cfg.panel == PanelMode::Independent,
             ambient_q8,
-            ambient_inv_q8: (1u32 << 16) / ambient_q8,
+            ambient_inv_q8: div_rem_u32(1 << 16, ambient_q8).0,
             floor_q8: f32_to_fixed(cfg.floor_codes, 8).max(1),
         }
     }
