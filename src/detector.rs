@@ -406,8 +406,15 @@ const DIFF_GAIN_Q8: [u32; 5] = [181, 256, 362, 512, 724];
 impl<const N: usize, const H: usize> Backend<N, H> {
     /// Validates `cfg` and builds the back end. Never panics.
     pub fn new(cfg: &Config) -> Result<Self, ConfigError> {
-        const { assert!(N >= 1 && N <= MAX_CHANNELS && H <= MAX_HARMONICS) };
         cfg.validate(H)?;
+        Ok(Self::build(cfg))
+    }
+
+    /// Builds the back end from a validated `cfg` (by value, so it can be
+    /// built in its final place).
+    #[inline(always)]
+    fn build(cfg: &Config) -> Self {
+        const { assert!(N >= 1 && N <= MAX_CHANNELS && H <= MAX_HARMONICS) };
         let fresh = ChannelBack {
             avg: Iq::default(),
             avg_h: [Iq::default(); H],
@@ -416,7 +423,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             decision: DecisionState::new(),
             faults: FaultState::new(),
         };
-        Ok(Self {
+        Self {
             ch: [fresh; N],
             baseline_t: BaselineTuning {
                 rise_shift: cfg.baseline_rise_shift,
@@ -433,17 +440,28 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 .copied()
                 .unwrap_or(724),
             last_sample: 0,
-        })
+        }
     }
 
     /// Decides one cycle on every channel; calls `emit` for each event
     /// (at most one per channel). Never panics.
+    ///
+    /// Out of line: one copy serves the frame and the block paths.
+    #[inline(never)]
     pub fn process(&mut self, cycle: &Cycle<N, H>, mut emit: impl FnMut(Event)) {
         self.last_sample = cycle.end_sample;
         let k = self.avg_shift;
-        let inputs = cycle.fund.iter().zip(cycle.harm.iter());
-        let mut noise = [0u32; N];
-        for ((c, (f, h)), d) in self.ch.iter_mut().zip(inputs).zip(noise.iter_mut()) {
+        let gain = self.diff_gain_q8;
+        // Built element by element (an array filled first would be a
+        // `memset` call on small cores).
+        let mut inputs = self
+            .ch
+            .iter_mut()
+            .zip(cycle.fund.iter().zip(cycle.harm.iter()));
+        let noise: [u32; N] = core::array::from_fn(|_| {
+            let Some((c, (f, h))) = inputs.next() else {
+                return 0;
+            };
             average(&mut c.avg, f, k);
             let mut power = c.avg.power();
             for (a, z) in c.avg_h.iter_mut().zip(h.iter()) {
@@ -458,13 +476,26 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             };
             // Noise sample: the change since the last cycle, scaled to a
             // mean absolute deviation (see `diff_gain_q8`).
-            *d = mul_q8(amp.abs_diff(c.amp_q8), self.diff_gain_q8);
+            let d = mul_q8(amp.abs_diff(c.amp_q8), gain);
             c.amp_q8 = amp;
-        }
-        if N >= 3 {
-            self.ambient_rule();
-        }
-        let winner = strongest(self.rises().into_iter());
+            d
+        });
+        // The panel rules need the rises over the baselines: the ambient
+        // rule (three channels or more) and the strongest-pad rule (two
+        // or more, unless pads are independent). One channel alone is
+        // always its own strongest pad when it decides.
+        let winner = if N == 1 {
+            Some(0)
+        } else if N >= 3 || !self.panel_t.independent {
+            let mut rises = self.rises();
+            if N >= 3 && self.ambient_rule(&rises) {
+                // Baselines rescaled: the rises changed with them.
+                rises = self.rises();
+            }
+            strongest(rises.into_iter())
+        } else {
+            None
+        };
         let mut active_mask: u32 = 0;
         for (i, c) in self.ch.iter().enumerate() {
             if c.decision.active() {
@@ -540,39 +571,44 @@ impl<const N: usize, const H: usize> Backend<N, H> {
     /// Rises of the channels over their baselines (Q8), for the panel
     /// rules: `None` for channels not deciding (learning or faulted).
     fn rises(&self) -> [Option<u32>; N] {
-        let mut out = [None; N];
-        for (r, c) in out.iter_mut().zip(self.ch.iter()) {
+        let mut chs = self.ch.iter();
+        core::array::from_fn(|_| {
+            let c = chs.next()?;
             let deciding = c.baseline.settled(&self.baseline_t)
                 && !c.faults.present().intersects(SIGNAL_FAULTS);
-            if deciding {
-                let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
-                *r = Some(ratio_q8(c.amp_q8, b));
+            if !deciding {
+                return None;
             }
-        }
-        out
+            let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
+            Some(ratio_q8(c.amp_q8, b))
+        })
     }
 
     /// The ambient rule: rescale every settled baseline by the common
-    /// ratio when the panel rose or fell together.
-    fn ambient_rule(&mut self) {
-        let mut ratios = [0u32; N];
+    /// ratio when the panel rose or fell together. Returns whether it did.
+    fn ambient_rule(&mut self, rises: &[Option<u32>; N]) -> bool {
+        // The deciding channels' rises, packed at the front.
+        let mut eligible = rises.iter().flatten().copied();
         let mut n = 0usize;
-        for r in self.rises().into_iter().flatten() {
-            if let Some(slot) = ratios.get_mut(n) {
-                *slot = r;
+        let mut ratios: [u32; N] = core::array::from_fn(|_| match eligible.next() {
+            Some(r) => {
                 n += 1;
+                r
             }
-        }
+            None => 0,
+        });
         let Some(eligible) = ratios.get_mut(..n) else {
-            return;
+            return false;
         };
-        if let Some(factor) = self.panel_t.common_ratio(eligible) {
-            for c in self.ch.iter_mut() {
-                if c.baseline.settled(&self.baseline_t) {
-                    c.baseline.rescale(factor);
-                }
+        let Some(factor) = self.panel_t.common_ratio(eligible) else {
+            return false;
+        };
+        for c in self.ch.iter_mut() {
+            if c.baseline.settled(&self.baseline_t) {
+                c.baseline.rescale(factor);
             }
         }
+        true
     }
 
     /// A view of channel `ch`, or `None` past the last channel.
@@ -646,9 +682,10 @@ impl<const N: usize, const H: usize> Detector<N, H> {
     /// Validates `config` and builds the detector; the error names the
     /// field that is wrong. Never panics.
     pub fn new(config: Config) -> Result<Self, ConfigError> {
+        // `Frontend::new` validates; the back end is built in place.
         Ok(Self {
             front: Frontend::new(&config)?,
-            back: Backend::new(&config)?,
+            back: Backend::build(&config),
         })
     }
 

@@ -62,6 +62,11 @@ const fn div_u64(num: u64, den: u64) -> u64 {
     q
 }
 
+/// Whether the target lacks a divide instruction (Cortex-M0/M0+, thumbv6m,
+/// recognised as in [`mul_wide`]): there [`div_rem_u32`] is a loop, and a
+/// caller with a cheaper special case (a few quotient bits) may prefer it.
+pub const SOFT_DIVIDE: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+
 /// `(n / d, n % d)` for `d > 0`; `d = 0` gives `(u32::MAX, n)`.
 ///
 /// Cortex-M0/M0+ (thumbv6m, recognised as in [`mul_wide`]) has no divide
