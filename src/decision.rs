@@ -17,7 +17,7 @@
 
 use crate::config::{Config, Profile};
 use crate::event::EventKind;
-use crate::fixed::{db_to_ratio_q16, div_rem_u32, f32_to_fixed, mul_q4, mul_q8, SOFT_DIVIDE};
+use crate::fixed::{db_to_ratio_q16, div_rem_u32, f32_to_fixed, mul_q4, mul_q8, ARMV6M};
 
 /// Most levels a field profile can have.
 pub const MAX_LEVELS: usize = 16;
@@ -284,7 +284,7 @@ pub fn ratio_q8(a: u32, b: u32) -> u32 {
     if q >= 1 << 24 {
         return u32::MAX;
     }
-    let frac = if SOFT_DIVIDE || b >= 1 << 24 {
+    let frac = if ARMV6M || b >= 1 << 24 {
         frac_q8(r, b)
     } else {
         // One divide instruction (r · 2^8 fits 32 bits).

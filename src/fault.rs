@@ -22,7 +22,7 @@
 
 use crate::config::Config;
 use crate::event::{EventKind, Fault, Faults};
-use crate::fixed::{f32_to_fixed, mul_wide};
+use crate::fixed::{f32_to_fixed, mul_wide, SHORT_PATHS};
 use crate::mains::MainsHealth;
 
 /// Faults of the input itself.
@@ -109,9 +109,17 @@ impl FaultState {
         let span = hi.saturating_sub(lo).max(1);
         let full = span.unsigned_abs();
         // span/2 of amplitude is span·128 in Q8: 0.52 of it is span·66.6.
-        // Exact products (no 64-bit multiply call on Cortex-M0).
-        let swing_on = u64::from(x.amp_q8) > mul_wide(full, 67);
-        let swing_off = u64::from(x.amp_q8) < mul_wide(full, 61).min(u32::MAX as u64);
+        // Exact products (no 64-bit multiply call on Cortex-M0), there in
+        // 32 bits for any span of a 16-bit converter.
+        let (swing_on, swing_off) = if SHORT_PATHS && full >> 25 == 0 {
+            (x.amp_q8 > full * 67, x.amp_q8 < full * 61)
+        } else {
+            let amp = u64::from(x.amp_q8);
+            (
+                amp > mul_wide(full, 67),
+                amp < mul_wide(full, 61).min(u32::MAX as u64),
+            )
+        };
         let top_on = x.dc >= hi - span / 32;
         let top_off = x.dc < hi - span / 16;
         if x.active || (swing_off && top_off) {
@@ -200,6 +208,43 @@ mod tests {
             Some(EventKind::FaultClear(Fault::MainsLost))
         );
         assert_eq!(f.next_change(), None);
+    }
+
+    #[test]
+    fn swing_limits_are_exact_on_both_paths() {
+        // Reference: the limits of the module docs as exact products,
+        // amp > 67·span counts, amp < 61·span resets (common practice);
+        // a 16-bit span takes the short path, 4·10^7 (above 2^25) the wide
+        // one.
+        let t = FaultTuning::new(&Config::touch());
+        for span in [4_095u32, 65_535, 40_000_000] {
+            let rails = (0, span as i32);
+            let mid = (span / 2) as i32;
+            let at = |amp: u32, f: &mut FaultState| {
+                let x = FaultInput {
+                    amp_q8: amp,
+                    dc: mid,
+                    flat: false,
+                    active: false,
+                    rails,
+                    health: MainsHealth::Ok,
+                };
+                f.update(&x, &t);
+                f.saturated
+            };
+            let on = u64::from(span) * 67;
+            let off = u64::from(span) * 61;
+            let clamp = |v: u64| v.min(u64::from(u32::MAX)) as u32;
+            let mut f = FaultState::new();
+            assert_eq!(
+                at(clamp(on + 1), &mut f),
+                u16::from(on < u64::from(u32::MAX))
+            );
+            let before = f.saturated;
+            assert_eq!(at(clamp(on), &mut f), before, "{span}");
+            assert_eq!(at(clamp(off), &mut f), before, "{span}");
+            assert_eq!(at(clamp(off - 1), &mut f), 0, "{span}");
+        }
     }
 
     #[test]

@@ -42,30 +42,43 @@ pub const fn phase_step(freq_mhz: u32, rate_hz: u32) -> u32 {
     }
 }
 
-/// `num / den` (`den > 0`) by restoring long division: shifts, compares
-/// and subtractions only, so no 64-bit division routine is linked into
-/// firmware (it is 0.9 KiB on Cortex-M0). Used at construction and at the
-/// 50/60 Hz choice, never per sample or per cycle.
+/// `num / den` (`den > 0`) by restoring long division: shifts by one,
+/// compares and subtractions only, so no 64-bit division routine (0.9 KiB
+/// on Cortex-M0) and no variable 64-bit shift (a library call there) is
+/// linked into firmware. Used at construction and at the 50/60 Hz choice,
+/// never per sample or per cycle.
 const fn div_u64(num: u64, den: u64) -> u64 {
     let mut q = 0u64;
     let mut r = 0u64;
-    let mut i = 64;
-    while i > 0 {
-        i -= 1;
-        // r < den < 2^63 before the shift, so it cannot overflow.
-        r = (r << 1) | ((num >> i) & 1);
+    let mut n = num;
+    let mut i = 0;
+    while i < 64 {
+        // r < den < 2^63 before the shift, so it cannot overflow; the
+        // dividend's bits enter from the top, one a step.
+        r = (r << 1) | (n >> 63);
+        n <<= 1;
+        q <<= 1;
         if r >= den {
             r -= den;
-            q |= 1 << i;
+            q |= 1;
         }
+        i += 1;
     }
     q
 }
 
-/// Whether the target lacks a divide instruction (Cortex-M0/M0+, thumbv6m,
-/// recognised as in [`mul_wide`]): there [`div_rem_u32`] is a loop, and a
-/// caller with a cheaper special case (a few quotient bits) may prefer it.
-pub const SOFT_DIVIDE: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+/// Whether the target is an ARMv6-M core (Cortex-M0/M0+, thumbv6m;
+/// recognised as in [`mul_wide`]): no divide instruction (so
+/// [`div_rem_u32`] is a loop) and no 32 × 32 → 64-bit multiply (so
+/// [`mul_wide`] is four multiplies). Callers use it to pick a 32-bit short
+/// path where one exists; the result is the same either way.
+pub const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+
+/// Whether to take the 32-bit short paths that stand in for wide products
+/// on ARMv6-M: there, and in this crate's unit tests, so that the host
+/// checks them against the wide paths (which the integration tests and the
+/// other targets take).
+pub(crate) const SHORT_PATHS: bool = ARMV6M || cfg!(test);
 
 /// `(n / d, n % d)` for `d > 0`; `d = 0` gives `(u32::MAX, n)`.
 ///
@@ -138,6 +151,9 @@ pub fn step_to_hz(step: u32, rate_hz: u32) -> f32 {
 }
 
 /// Floor of the square root of a `u32`, exact (bit-by-bit method, 16 steps).
+/// Out of line on Cortex-M0, where it serves both amplitude paths of the
+/// back end.
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
 pub const fn isqrt_u32(v: u32) -> u32 {
     let mut rem = v;
     let mut res: u32 = 0;
@@ -198,16 +214,23 @@ pub const fn isqrt_u64(v: u64) -> u32 {
     if v <= u32::MAX as u64 {
         return isqrt_u32(v as u32);
     }
-    // Bits above 32, rounded up to an even count: counted two at a time
-    // (at most 16 steps), as `leading_zeros` is a library call on
-    // Cortex-M0.
-    let mut high = (v >> 32) as u32;
+    // Bits above 32, rounded up to an even count (2 to 32): counted two at
+    // a time (at most 16 steps), as `leading_zeros` is a library call on
+    // Cortex-M0, and the shift done on 32-bit halves (a variable 64-bit
+    // shift is a library call there too).
+    let (lo, hi) = (v as u32, (v >> 32) as u32);
+    let mut high = hi;
     let mut shift = 0;
     while high != 0 {
         high >>= 2;
         shift += 2;
     }
-    isqrt_u32((v >> shift) as u32) << (shift / 2)
+    let top = if shift >= 32 {
+        hi
+    } else {
+        (lo >> shift) | (hi << (32 - shift))
+    };
+    isqrt_u32(top) << (shift / 2)
 }
 
 /// CORDIC arctangent table: atan(2^-i) in `u32` turns, i = 0..16
@@ -310,23 +333,37 @@ pub const fn mul_wide_signed(a: i32, b: u32) -> i64 {
 }
 
 /// `(a · b) >> 8` for a Q8 factor `b`, saturating at `u32::MAX`.
+#[inline]
 pub const fn mul_q8(a: u32, b: u32) -> u32 {
-    let p = mul_wide(a, b) >> 8;
-    if p > u32::MAX as u64 {
-        u32::MAX
-    } else {
-        p as u32
-    }
+    mul_shr(a, b, 8)
 }
 
 /// `(a · b) >> 4` for a Q4 factor `b`, saturating at `u32::MAX`.
+#[inline]
 pub const fn mul_q4(a: u32, b: u32) -> u32 {
-    let p = mul_wide(a, b) >> 4;
-    if p > u32::MAX as u64 {
-        u32::MAX
-    } else {
-        p as u32
+    mul_shr(a, b, 4)
+}
+
+/// `(a · b) >> s` for `s` from 1 to 31, saturating at `u32::MAX`, shifting
+/// the product's 32-bit halves (a variable 64-bit shift is a library call
+/// on Cortex-M0). There it is one out-of-line copy for [`mul_q8`] and
+/// [`mul_q4`], with a short path for the common case of two factors below
+/// 2^16 (one 32-bit multiply instead of four); elsewhere it is inline (one
+/// long multiply).
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+#[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
+const fn mul_shr(a: u32, b: u32, s: u32) -> u32 {
+    if SHORT_PATHS && (a | b) >> 16 == 0 {
+        // The product fits 32 bits: nothing to saturate.
+        return (a * b) >> (s & 31);
     }
+    let p = mul_wide(a, b);
+    let (hi, lo) = ((p >> 32) as u32, p as u32);
+    let s = s & 31;
+    if hi >> s != 0 {
+        return u32::MAX;
+    }
+    (lo >> s) | (hi << ((32 - s) & 31))
 }
 
 /// Converts a non-negative `f32` to fixed point with `frac_bits` fraction
@@ -346,27 +383,25 @@ pub fn f32_to_fixed(v: f32, frac_bits: u32) -> u32 {
         // Infinity saturates; NaN is 0.
         return if bits & 0x7f_ffff == 0 { u32::MAX } else { 0 };
     }
-    let mant = u64::from((bits & 0x7f_ffff) | 0x80_0000);
+    let mant = (bits & 0x7f_ffff) | 0x80_0000;
     // v = mant · 2^(exp − 150), so v · 2^frac = mant · 2^(exp − 150 + frac).
+    // In 32 bits (no 64-bit shift, a library call on Cortex-M0):
+    // 2^23 ≤ mant < 2^24, so a left shift of 9 or more saturates, and a
+    // right shift of 25 or more rounds to 0 (mant + 2^(s−1) < 2^s).
     let sh = exp as i32 - 150 + frac_bits as i32;
-    let scaled = if sh >= 0 {
-        if sh > 40 {
-            u64::MAX
+    if sh >= 0 {
+        if sh > 8 {
+            u32::MAX
         } else {
             mant << sh
         }
     } else {
         let s = sh.unsigned_abs();
-        if s > 40 {
+        if s > 24 {
             0
         } else {
-            (mant + (1u64 << (s - 1))) >> s
+            (mant + (1 << (s - 1))) >> s
         }
-    };
-    if scaled > u64::from(u32::MAX) {
-        u32::MAX
-    } else {
-        scaled as u32
     }
 }
 
@@ -400,22 +435,21 @@ const LOG2_10_OVER_20_Q32: u64 = 713_378_626;
 /// 2·10^-5 relative. Construction-time use only.
 pub fn db_to_ratio_q16(db: f32) -> u32 {
     let db_q16 = u64::from(f32_to_fixed(db, 16).min(60 << 16));
-    let y = (db_q16 * LOG2_10_OVER_20_Q32) >> 32; // log2 of the ratio, Q16
-    let int = (y >> 16) as u32;
-    let frac = (y & 0xffff) as u32;
+    // log2 of the ratio, Q16 (below 10 · 2^16).
+    let y = ((db_q16 * LOG2_10_OVER_20_Q32) >> 32) as u32;
+    let int = y >> 16;
+    let frac = y & 0xffff;
+    // 2^frac in Q30 (below 2^31).
     let mut r: u64 = 1 << 30;
     for (k, c) in EXP2_FRAC_Q30.iter().enumerate() {
         if frac & (1 << (15 - k)) != 0 {
             r = (r * u64::from(*c)) >> 30;
         }
     }
-    // Q30 → Q16, times 2^int.
-    let q16 = (r << int.min(20)) >> 14;
-    if q16 > u64::from(u32::MAX) {
-        u32::MAX
-    } else {
-        q16 as u32
-    }
+    let r = r as u32;
+    // Times 2^int, Q30 → Q16, rounding down: ⌊r · 2^int / 2^14⌋. The
+    // clamp at 60 dB keeps int ≤ 9, so this is one right shift.
+    r >> (14 - int.min(14))
 }
 
 #[cfg(test)]
@@ -605,6 +639,37 @@ mod tests {
             mul_wide_signed(i32::MIN, u32::MAX),
             i64::from(i32::MIN) * i64::from(u32::MAX)
         );
+    }
+
+    #[test]
+    fn q_products_match_wide_shifts() {
+        // Reference: the u64 product shifted and saturated on the host
+        // (common practice).
+        let vals = [
+            0u32,
+            1,
+            15,
+            16,
+            255,
+            256,
+            724,
+            0xffff,
+            0x1_0000,
+            0x00ff_ffff,
+            0x8000_0000,
+            u32::MAX,
+        ];
+        for a in vals {
+            for b in vals {
+                let p = u64::from(a) * u64::from(b);
+                for s in 1..32 {
+                    let want = (p >> s).min(u64::from(u32::MAX)) as u32;
+                    assert_eq!(mul_shr(a, b, s), want, "{a} {b} {s}");
+                }
+                assert_eq!(mul_q8(a, b), (p >> 8).min(u64::from(u32::MAX)) as u32);
+                assert_eq!(mul_q4(a, b), (p >> 4).min(u64::from(u32::MAX)) as u32);
+            }
+        }
     }
 
     #[test]
