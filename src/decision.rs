@@ -272,7 +272,9 @@ impl DecisionState {
     }
 }
 
-/// `a / b` in Q8, saturating; `u32::MAX` when `b` is 0.
+/// `a / b` in Q8, saturating; `u32::MAX` when `b` is 0. Out of line: one
+/// copy for the panel rules and the field levels.
+#[inline(never)]
 pub fn ratio_q8(a: u32, b: u32) -> u32 {
     if b == 0 {
         return u32::MAX;

@@ -114,11 +114,13 @@ pub const fn div_rem_u32(n: u32, d: u32) -> (u32, u32) {
 }
 
 /// [`div_rem_u32`] by restoring division, `d > 0`. Compiled on every
-/// target so the host tests check it against `/` and `%`.
+/// target so the host tests check it against `/` and `%`; out of line on
+/// ARMv6-M (one copy for every caller).
 #[cfg_attr(
     not(all(target_arch = "arm", not(target_has_atomic = "32"))),
     allow(dead_code)
 )]
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
 const fn div_rem_shift(n: u32, d: u32) -> (u32, u32) {
     let mut r = n;
     let mut q = 0u32;
