@@ -28,6 +28,8 @@
 //! closed all but (3/4)^startup_cycles of its initial error (0.08 % for the
 //! touch default of 25 cycles, 0.5 s at 50 Hz).
 
+use crate::fixed::SHORT_PATHS;
+
 /// One code of amplitude in Q12.
 const ONE_CODE_Q12: u32 = 1 << 12;
 
@@ -112,10 +114,11 @@ impl BaselineState {
     /// mostly under a second) until the amplitude is back above 0.85 or
     /// the drop has lasted 100 cycles and is taken as a new level.
     fn hold(&mut self, a: u32, b: u32) -> bool {
-        // a ≥ 0.85 b and a < 0.7 b in Q8, exactly: in 32 bits when both
-        // are below 2^24 (amplitudes of a 12-bit converter always are),
-        // else in 64 (a library call on Cortex-M0, for huge amplitudes only).
-        let (back, low) = if (a | b) >> 24 == 0 {
+        // a ≥ 0.85 b and a < 0.7 b in Q8, exactly. On Cortex-M0 in 32 bits
+        // when both are below 2^24 (amplitudes of a 12-bit converter always
+        // are); else in 64 (one long multiply each on Cortex-M3 and up, a
+        // library call on Cortex-M0 for huge amplitudes only).
+        let (back, low) = if SHORT_PATHS && (a | b) >> 24 == 0 {
             let a = a << 8;
             (a >= b * HOLD_END_Q8, a < b * HOLD_BELOW_Q8)
         } else {

@@ -103,6 +103,7 @@ impl DecisionTuning {
     }
 
     /// The off threshold alone (what an active channel needs).
+    #[inline(always)]
     fn off_threshold(&self, b: u32, n: u32) -> u32 {
         let off = mul_q4(n, self.off_noise_q4)
             .max(mul_q8(b, self.off_excess_q8))
@@ -180,11 +181,25 @@ impl DecisionState {
         may_turn_on: bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
+        self.step_with(a, b, n, || may_turn_on, t)
+    }
+
+    /// [`step`](Self::step) with the panel's permission asked only when
+    /// it matters (an idle channel above its on threshold), so a costly
+    /// permission (the strongest-pad rule) is mostly never computed.
+    pub fn step_with(
+        &mut self,
+        a: u32,
+        b: u32,
+        n: u32,
+        may_turn_on: impl FnOnce() -> bool,
+        t: &DecisionTuning,
+    ) -> (Option<EventKind>, Verdict) {
         let touch = t.profile == Profile::Touch;
         if !self.active {
             // Only the threshold this state compares against is computed.
             let on = t.on_threshold(b, n);
-            if a > on && !may_turn_on {
+            if a > on && !may_turn_on() {
                 self.count = 0;
                 return (None, Verdict::Freeze);
             }

@@ -480,22 +480,17 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             c.amp_q8 = amp;
             d
         });
-        // The panel rules need the rises over the baselines: the ambient
-        // rule (three channels or more) and the strongest-pad rule (two
-        // or more, unless pads are independent). One channel alone is
-        // always its own strongest pad when it decides.
-        let winner = if N == 1 {
-            Some(0)
-        } else if N >= 3 || !self.panel_t.independent {
-            let mut rises = self.rises();
-            if N >= 3 && self.ambient_rule(&rises) {
-                // Baselines rescaled: the rises changed with them.
-                rises = self.rises();
-            }
-            strongest(rises.into_iter())
-        } else {
-            None
-        };
+        // The panel rules: the ambient rule (three channels or more) first,
+        // as it may rescale the baselines; then the strongest-pad rule
+        // (two or more, unless pads are independent) from the rises over
+        // the baselines as they stand now, computed only if a channel asks
+        // for permission to turn on (mostly never: dividing is costly on
+        // small cores). One channel alone is always its own strongest pad.
+        if N >= 3 {
+            self.ambient_rule();
+        }
+        let rise_in = self.rise_inputs();
+        let mut winner: Option<Option<u8>> = None;
         let mut active_mask: u32 = 0;
         for (i, c) in self.ch.iter().enumerate() {
             if c.decision.active() {
@@ -531,8 +526,21 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             } else if c.baseline.settled(&self.baseline_t) {
                 let n = c.baseline.noise_q8();
                 let others_active = active_mask & !bit != 0;
-                let may_on = pt.independent || (winner == Some(channel) && !others_active);
-                let (e, verdict) = c.decision.step(amp, b, n, may_on, &self.decision_t);
+                let winner = &mut winner;
+                let may_on = || {
+                    if pt.independent || N == 1 {
+                        return true;
+                    }
+                    let w = *winner.get_or_insert_with(|| {
+                        strongest(
+                            rise_in
+                                .iter()
+                                .map(|&(a, b)| (b != 0).then(|| ratio_q8(a, b))),
+                        )
+                    });
+                    w == Some(channel) && !others_active
+                };
+                let (e, verdict) = c.decision.step_with(amp, b, n, may_on, &self.decision_t);
                 match verdict {
                     // A cycle without hum (a supply interruption, a dropout
                     // shorter than the no-hum fault) says nothing about the
@@ -568,27 +576,42 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         }
     }
 
-    /// Rises of the channels over their baselines (Q8), for the panel
-    /// rules: `None` for channels not deciding (learning or faulted).
-    fn rises(&self) -> [Option<u32>; N] {
+    /// Amplitude and effective baseline (at least the decision floor) of
+    /// each channel, both Q8, for the panel rules; baseline 0 for channels
+    /// not deciding (learning or faulted).
+    fn rise_inputs(&self) -> [(u32, u32); N] {
         let mut chs = self.ch.iter();
         core::array::from_fn(|_| {
-            let c = chs.next()?;
+            let Some(c) = chs.next() else {
+                return (0, 0);
+            };
             let deciding = c.baseline.settled(&self.baseline_t)
                 && !c.faults.present().intersects(SIGNAL_FAULTS);
             if !deciding {
-                return None;
+                return (c.amp_q8, 0);
             }
-            let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
-            Some(ratio_q8(c.amp_q8, b))
+            (
+                c.amp_q8,
+                c.baseline.baseline_q8().max(self.panel_t.floor_q8),
+            )
         })
     }
 
     /// The ambient rule: rescale every settled baseline by the common
     /// ratio when the panel rose or fell together. Returns whether it did.
-    fn ambient_rule(&mut self, rises: &[Option<u32>; N]) -> bool {
+    /// The rises are divided out only when a division-free count says the
+    /// rule may fire ([`PanelTuning::may_be_ambient`]).
+    fn ambient_rule(&mut self) -> bool {
+        let inputs = self.rise_inputs();
+        let deciding = inputs.iter().copied().filter(|&(_, b)| b != 0);
+        if !self.panel_t.may_be_ambient(deciding) {
+            return false;
+        }
         // The deciding channels' rises, packed at the front.
-        let mut eligible = rises.iter().flatten().copied();
+        let mut eligible = inputs
+            .iter()
+            .filter(|&&(_, b)| b != 0)
+            .map(|&(a, b)| ratio_q8(a, b));
         let mut n = 0usize;
         let mut ratios: [u32; N] = core::array::from_fn(|_| match eligible.next() {
             Some(r) => {
