@@ -7,7 +7,7 @@
 //! same bits on every target and links no soft-float routine.
 
 use crate::error::{ConfigError, ConfigValue};
-use crate::fixed::div_rem_u32;
+use crate::fixed::{div_rem_u32, f32_mul_pow2};
 
 /// Which mains system to demodulate.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -240,16 +240,21 @@ impl Config {
     /// The amplitude floors (`spike_floor_codes`, `track_min_codes`,
     /// `floor_codes`, `nohum_codes`) are rescaled from their values at 12 bits, so a
     /// profile keeps its meaning in volts at the ADC pin.
+    ///
+    /// Integer only (the scale is a power of two: the `f32` fields get
+    /// exactly the bits of the product, see [`f32_mul_pow2`]), so calling
+    /// it links no soft-float routine.
     pub fn with_adc_bits(mut self, bits: u8) -> Self {
-        let scale = if bits >= self.adc_bits {
-            (1u32 << (bits - self.adc_bits).min(16)) as f32
-        } else {
-            1.0 / (1u32 << (self.adc_bits - bits).min(16)) as f32
-        };
-        self.spike_floor_codes = ((self.spike_floor_codes as f32 * scale) as u16).max(1);
-        self.track_min_codes *= scale;
-        self.floor_codes *= scale;
-        self.nohum_codes *= scale;
+        // Scale by 2^k, |k| at most 16.
+        let k = (i32::from(bits) - i32::from(self.adc_bits)).clamp(-16, 16);
+        let spike = u32::from(self.spike_floor_codes);
+        // The product with 2^k is exact, and `as u16` saturates (up) or
+        // truncates (down): a shift, saturated.
+        let scaled = if k >= 0 { spike << k } else { spike >> -k };
+        self.spike_floor_codes = (scaled.min(u32::from(u16::MAX)) as u16).max(1);
+        self.track_min_codes = f32_mul_pow2(self.track_min_codes, k);
+        self.floor_codes = f32_mul_pow2(self.floor_codes, k);
+        self.nohum_codes = f32_mul_pow2(self.nohum_codes, k);
         self.adc_bits = bits;
         self
     }
@@ -545,6 +550,47 @@ mod tests {
                 let key = order_key(v) as u32;
                 let inside = key >= rule.min && key <= rule.max;
                 assert_eq!(inside, v >= min && v <= max, "{} {v}", rule.field);
+            }
+        }
+    }
+
+    #[test]
+    fn adc_bits_rescale_like_the_float_products() {
+        // Reference: the float formula this builder used before (host
+        // f32 arithmetic with the power-of-two scale).
+        for (base, spike) in [
+            (Config::touch(), 1u16),
+            (Config::touch(), 1_000),
+            (Config::field(), 8),
+            (Config::field(), u16::MAX),
+        ] {
+            for from in [8u8, 12, 16] {
+                let start = Config {
+                    adc_bits: from,
+                    spike_floor_codes: spike,
+                    track_min_codes: 2.3,
+                    floor_codes: 1e-38,
+                    nohum_codes: 3e38,
+                    ..base
+                };
+                for bits in 0..=40u8 {
+                    let scale = if bits >= from {
+                        (1u32 << (bits - from).min(16)) as f32
+                    } else {
+                        1.0 / (1u32 << (from - bits).min(16)) as f32
+                    };
+                    let got = start.with_adc_bits(bits);
+                    let want_spike = ((start.spike_floor_codes as f32 * scale) as u16).max(1);
+                    assert_eq!(got.spike_floor_codes, want_spike, "{from} -> {bits}");
+                    for (g, v) in [
+                        (got.track_min_codes, start.track_min_codes),
+                        (got.floor_codes, start.floor_codes),
+                        (got.nohum_codes, start.nohum_codes),
+                    ] {
+                        assert_eq!(g.to_bits(), (v * scale).to_bits(), "{from} -> {bits}");
+                    }
+                    assert_eq!(got.adc_bits, bits);
+                }
             }
         }
     }

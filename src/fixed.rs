@@ -407,6 +407,62 @@ pub fn f32_to_fixed(v: f32, frac_bits: u32) -> u32 {
     }
 }
 
+/// `v · 2^k`, exactly as the IEEE 754 product with the power of two (round
+/// to nearest, ties to even, where the result is subnormal; ±infinity on
+/// overflow), for `k` from −64 to 64 (clamped), by integer arithmetic on
+/// the bits: no floating-point routine is linked on cores without an FPU.
+/// Infinities and zeros keep their value and sign; a NaN stays a NaN
+/// (quieted).
+pub fn f32_mul_pow2(v: f32, k: i32) -> f32 {
+    let bits = v.to_bits();
+    let sign = bits & 0x8000_0000;
+    let exp = ((bits >> 23) & 0xff) as i32;
+    let frac = bits & 0x7f_ffff;
+    if exp == 0xff {
+        // Infinity stays; a NaN is returned quieted.
+        return f32::from_bits(if frac == 0 { bits } else { bits | 0x40_0000 });
+    }
+    // v = m · 2^e with an integer significand m below 2^24.
+    let (mut m, mut e) = if exp == 0 {
+        (frac, -149)
+    } else {
+        (frac | 0x80_0000, exp - 150)
+    };
+    if m == 0 {
+        return v;
+    }
+    e += k.clamp(-64, 64);
+    // Normalise: the leading bit at 23 while the exponent allows.
+    while m < 0x80_0000 && e > -149 {
+        m <<= 1;
+        e -= 1;
+    }
+    if e > 104 {
+        // 2^24 · 2^104 = 2^128: beyond the largest finite value.
+        return f32::from_bits(sign | 0x7f80_0000);
+    }
+    if e < -149 {
+        // Subnormal: shift right, rounding half to even.
+        let s = (-149 - e) as u32;
+        if s > 25 {
+            return f32::from_bits(sign);
+        }
+        let keep = m >> s;
+        let rest = m & ((1 << s) - 1);
+        let half = 1 << (s - 1);
+        m = if rest > half || (rest == half && keep & 1 == 1) {
+            keep + 1
+        } else {
+            keep
+        };
+        e = -149;
+    }
+    // Subnormal (exponent field 0) when m < 2^23; a rounding carry to
+    // 2^23 is the smallest normal number, which the same sum encodes.
+    let field = if m >= 0x80_0000 { (e + 150) as u32 } else { 0 };
+    f32::from_bits(sign | ((field << 23) + (m & 0x7f_ffff)))
+}
+
 /// 2^(2^-k) in Q30 for k = 1..=16 (computed: round(2^(2^-k) · 2^30)).
 const EXP2_FRAC_Q30: [u32; 16] = [
     1_518_500_250,
@@ -670,6 +726,48 @@ mod tests {
                 }
                 assert_eq!(mul_q8(a, b), (p >> 8).min(u64::from(u32::MAX)) as u32);
                 assert_eq!(mul_q4(a, b), (p >> 4).min(u64::from(u32::MAX)) as u32);
+            }
+        }
+    }
+
+    #[test]
+    fn power_of_two_scaling_matches_the_float_product() {
+        // Reference: the host's IEEE 754 f32 multiplication by an exact
+        // power of two (common practice).
+        let mut vals = std::vec![
+            0.0f32,
+            -0.0,
+            1.0,
+            -1.0,
+            2.0,
+            0.1,
+            2.8,
+            10_000.0,
+            f32::MAX,
+            f32::MIN_POSITIVE,
+            f32::MIN_POSITIVE / 3.0,
+            1e-45,
+            -3e-40,
+            f32::INFINITY,
+            f32::NEG_INFINITY,
+        ];
+        let mut x = 0x1234_5678u32;
+        for _ in 0..3_000 {
+            // xorshift32 (13, 17, 5): bit patterns over the whole range.
+            x ^= x << 13;
+            x ^= x >> 17;
+            x ^= x << 5;
+            vals.push(f32::from_bits(x));
+        }
+        for v in vals {
+            for k in -30..=30 {
+                let want = v * 2f32.powi(k);
+                let got = f32_mul_pow2(v, k);
+                if want.is_nan() {
+                    assert!(got.is_nan(), "{v} {k}");
+                } else {
+                    assert_eq!(got.to_bits(), want.to_bits(), "{v:e} * 2^{k}");
+                }
             }
         }
     }
