@@ -59,11 +59,11 @@
 //!
 //! | stage | thumbv7em (M4F) | thumbv6m (M0) |
 //! |---|---|---|
-//! | block loop: gate, sin/cos, two MACs, sum, phase (`block_sample_path`) | 23.0 | 52.5 |
-//! | front-end cycle end: scaling, DC, gate limit, mains tracker | 247 /cycle = 6.2 | 377 /cycle = 9.4 |
-//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 345 /cycle = 8.6 | 773 /cycle = 19.3 |
+//! | block loop: gate, sin/cos, two MACs, sum, phase (`block_sample_path`) | 23.0 | 52.4 |
+//! | front-end cycle end: scaling, DC, gate limit, mains tracker | 247 /cycle = 6.2 | 374 /cycle = 9.4 |
+//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 280 /cycle = 7.0 | 547 /cycle = 13.7 |
 //! | run bookkeeping (wrap count, lanes in and out, the callback) | ≈ 2 | (in the block loop figure) |
-//! | **`Detector::push_block`** (`insn_per_sample`) | **39.9** (budget 25) | **80.3** (budget 60) |
+//! | **`Detector::push_block`** (`insn_per_sample`) | **37.3** (budget 25) | **76.1** (budget 60) |
 //!
 //! - The M4 block loop (from the disassembly) is 20 instructions a sample:
 //!   18 of work (load; subtract, compare, branch and subtract for the gate;
@@ -79,22 +79,26 @@
 //!   -singlestep -d exec`, instructions counted by symbol over 80 steady
 //!   cycle ends): `Frontend::end_cycle` itself 126 (scaling, DC, gate
 //!   limit, the `Cycle`), `MainsTracker::end_cycle` 82, the CORDIC 32 (257
-//!   once every 8 cycles); in `Backend::process`, `BaselineState::update`
-//!   68 and `DecisionState::step` 62, the rest (averaging, power, Newton
-//!   square root, noise sample, faults, events) about 215.
-//! - The per-cycle work alone is 14.8 instructions a sample on the M4 and
-//!   28.7 on the M0 at 40 samples a cycle: with the M4 loop at 19–23, the
+//!   once every 8 cycles). `Backend::process`, traced the same way over
+//!   400 cycles (start-up included): `BaselineState::update` 68, the rest
+//!   (averaging, power, Newton square root, noise sample, faults,
+//!   decision, events) 197; on the M0, the bit-by-bit square root 142,
+//!   `BaselineState::update` 99, the Q-format products 32, the rest 247.
+//! - The per-cycle work alone is 13.2 instructions a sample on the M4 and
+//!   23.0 on the M0 at 40 samples a cycle: with the M4 loop at 19–23, the
 //!   25 budget would leave the whole back end, the tracker and the cycle
 //!   end about 80–240 instructions a cycle. The budgets are not met; they
 //!   are kept as the targets.
-//! - Flash (thumbv6m, opt-level "s", 1 channel, 13 964 B against 8 192):
-//!   sine table 2 560 (1¼ turns of 1024 entries); the firmware loop with
-//!   `push_frame`, `Backend::process` and construction inlined 3 220;
-//!   `Config::validate` 1 128; `Frontend::end_cycle` 1 072; soft float for
-//!   the construction-time conversions (add 504, multiply 416, divide 528,
-//!   micromath `powf` 424, conversions and compares ≈ 350); `memcpy` 594;
-//!   32-bit division 398; `BaselineState::update` 356;
-//!   `MainsTracker::correct` 252. No 64-bit division is linked any more.
+//! - Flash (thumbv6m, opt-level "s", 1 channel, 9 632 B against 8 192):
+//!   sine table 2 560 (1¼ turns of 1024 entries); `Backend::process`
+//!   1 612 (faults, decision and averaging inlined); the firmware loop
+//!   with `push_frame` and construction (and `Config::validate`) inlined
+//!   1 420; `Frontend::end_cycle` 1 072; the validation table 400 and
+//!   field accessor 150; `BaselineState::update` 404; 32-bit division 398
+//!   (for the front end's reciprocal); `MainsTracker::correct` 252;
+//!   `memclr4` 158 (zeroing front-end fields at construction); 64-bit
+//!   multiply 74. No soft float, no 64-bit division or shift and no
+//!   `memcpy` is linked any more.
 //!
 //! On the host this example only prints how to run it.
 #![cfg_attr(target_os = "none", no_std, no_main)]

@@ -28,7 +28,7 @@
 //! closed all but (3/4)^startup_cycles of its initial error (0.08 % for the
 //! touch default of 25 cycles, 0.5 s at 50 Hz).
 
-use crate::fixed::mul_wide;
+use crate::fixed::SHORT_PATHS;
 
 /// One code of amplitude in Q12.
 const ONE_CODE_Q12: u32 = 1 << 12;
@@ -114,8 +114,20 @@ impl BaselineState {
     /// mostly under a second) until the amplitude is back above 0.85 or
     /// the drop has lasted 100 cycles and is taken as a new level.
     fn hold(&mut self, a: u32, b: u32) -> bool {
-        let a = u64::from(a) << 8;
-        let back = a >= mul_wide(b, HOLD_END_Q8);
+        // a ≥ 0.85 b and a < 0.7 b in Q8, exactly. On Cortex-M0 in 32 bits
+        // when both are below 2^24 (amplitudes of a 12-bit converter always
+        // are); else in 64 (one long multiply each on Cortex-M3 and up, a
+        // library call on Cortex-M0 for huge amplitudes only).
+        let (back, low) = if SHORT_PATHS && (a | b) >> 24 == 0 {
+            let a = a << 8;
+            (a >= b * HOLD_END_Q8, a < b * HOLD_BELOW_Q8)
+        } else {
+            let (a, b) = (u64::from(a) << 8, u64::from(b));
+            (
+                a >= b * u64::from(HOLD_END_Q8),
+                a < b * u64::from(HOLD_BELOW_Q8),
+            )
+        };
         if self.held == EXPIRED {
             if back {
                 self.held = 0;
@@ -134,7 +146,7 @@ impl BaselineState {
             self.held += 1;
             return true;
         }
-        if a < mul_wide(b, HOLD_BELOW_Q8) {
+        if low {
             self.held = 1;
             return true;
         }
@@ -195,6 +207,7 @@ const fn q8_to_q12(v: u32) -> u32 {
 
 #[cfg(test)]
 mod tests {
+    extern crate std;
     use super::*;
 
     const T: BaselineTuning = BaselineTuning {
@@ -284,6 +297,44 @@ mod tests {
             b.update(50 * 256, 0, &T);
         }
         assert!(b.baseline_q8() < 52 * 256, "{}", b.baseline_q8() / 256);
+    }
+
+    #[test]
+    fn hold_thresholds_are_exact_on_both_paths() {
+        // Reference: the Q8 comparisons in u64 (common practice); values
+        // below and above 2^24 take the short and the wide path.
+        for b in [
+            0u32,
+            1,
+            100,
+            5_120,
+            81_920,
+            (1 << 24) - 1,
+            1 << 24,
+            u32::MAX,
+        ] {
+            let bw = u64::from(b);
+            let mut cands = std::vec![0u32, 1, b, b.saturating_add(1), u32::MAX];
+            for k in [HOLD_END_Q8, HOLD_BELOW_Q8] {
+                let edge = (bw * u64::from(k)) >> 8;
+                for d in [0u64, 1, 2] {
+                    cands.push(edge.saturating_sub(d).min(u64::from(u32::MAX)) as u32);
+                    cands.push((edge + d).min(u64::from(u32::MAX)) as u32);
+                }
+            }
+            for a in cands {
+                let aw = u64::from(a) << 8;
+                let back = aw >= bw * u64::from(HOLD_END_Q8);
+                let low = aw < bw * u64::from(HOLD_BELOW_Q8);
+                let mut fresh = BaselineState::new();
+                assert_eq!(fresh.hold(a, b), low, "{a} {b}");
+                let mut holding = BaselineState {
+                    held: 1,
+                    ..BaselineState::new()
+                };
+                assert_eq!(holding.hold(a, b), !back, "{a} {b}");
+            }
+        }
     }
 
     #[test]

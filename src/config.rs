@@ -2,10 +2,12 @@
 //! validated once by [`Detector::new`](crate::Detector::new).
 //!
 //! Thresholds are given in human units (noise units, ratios, ADC codes);
-//! construction converts them to the fixed-point forms the hot path uses,
-//! with IEEE `f32` arithmetic that gives the same bits on every target.
+//! construction checks them and converts them to the fixed-point forms the
+//! hot path uses in integer arithmetic on their IEEE bits, which gives the
+//! same bits on every target and links no soft-float routine.
 
-use crate::error::ConfigError;
+use crate::error::{ConfigError, ConfigValue};
+use crate::fixed::{div_rem_u32, f32_mul_pow2};
 
 /// Which mains system to demodulate.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -238,16 +240,21 @@ impl Config {
     /// The amplitude floors (`spike_floor_codes`, `track_min_codes`,
     /// `floor_codes`, `nohum_codes`) are rescaled from their values at 12 bits, so a
     /// profile keeps its meaning in volts at the ADC pin.
+    ///
+    /// Integer only (the scale is a power of two: the `f32` fields get
+    /// exactly the bits of the product, see [`f32_mul_pow2`]), so calling
+    /// it links no soft-float routine.
     pub fn with_adc_bits(mut self, bits: u8) -> Self {
-        let scale = if bits >= self.adc_bits {
-            (1u32 << (bits - self.adc_bits).min(16)) as f32
-        } else {
-            1.0 / (1u32 << (self.adc_bits - bits).min(16)) as f32
-        };
-        self.spike_floor_codes = ((self.spike_floor_codes as f32 * scale) as u16).max(1);
-        self.track_min_codes *= scale;
-        self.floor_codes *= scale;
-        self.nohum_codes *= scale;
+        // Scale by 2^k, |k| at most 16.
+        let k = (i32::from(bits) - i32::from(self.adc_bits)).clamp(-16, 16);
+        let spike = u32::from(self.spike_floor_codes);
+        // The product with 2^k is exact, and `as u16` saturates (up) or
+        // truncates (down): a shift, saturated.
+        let scaled = if k >= 0 { spike << k } else { spike >> -k };
+        self.spike_floor_codes = (scaled.min(u32::from(u16::MAX)) as u16).max(1);
+        self.track_min_codes = f32_mul_pow2(self.track_min_codes, k);
+        self.floor_codes = f32_mul_pow2(self.floor_codes, k);
+        self.nohum_codes = f32_mul_pow2(self.nohum_codes, k);
         self.adc_bits = bits;
         self
     }
@@ -268,85 +275,97 @@ impl Config {
         }
     }
 
+    /// Field `i` of [`RULES`]: an integer field as it is, an `f32` field as
+    /// its IEEE bits (0 past the end). One short case per field, in flash
+    /// about as much as a table of values would take on the stack.
+    #[inline(never)]
+    fn raw(&self, i: usize) -> u32 {
+        match i {
+            0 => self.sample_rate_hz,
+            1 => self.adc_bits.into(),
+            2 => self.spike_max_len.into(),
+            3 => self.avg_shift.into(),
+            4 => self.startup_cycles.into(),
+            5 => self.baseline_rise_shift.into(),
+            6 => self.baseline_fall_shift.into(),
+            7 => self.noise_shift.into(),
+            8 => self.debounce_on.into(),
+            9 => self.debounce_off.into(),
+            10 => self.levels.into(),
+            11 => self.fault_saturation_cycles.into(),
+            12 => self.fault_stuck_cycles.into(),
+            13 => self.nohum_cycles.into(),
+            14 => self.mains_lost_cycles.into(),
+            15 => self.track_min_codes.to_bits(),
+            16 => self.on_noise.to_bits(),
+            17 => self.off_noise.to_bits(),
+            18 => self.on_ratio.to_bits(),
+            19 => self.off_ratio.to_bits(),
+            20 => self.floor_codes.to_bits(),
+            21 => self.level_step_db.to_bits(),
+            22 => self.level_hysteresis_db.to_bits(),
+            23 => self.ambient_ratio.to_bits(),
+            24 => self.nohum_codes.to_bits(),
+            _ => 0,
+        }
+    }
+
     /// Checks every field; `harmonics` is the number of extra harmonic bins
     /// the detector was built with.
+    ///
+    /// Table-driven (one loop over [`RULES`] instead of one call per
+    /// field: flash on small cores) and integer only: `f32` fields are
+    /// compared by their [`order_key`]s, so no soft-float routine is
+    /// linked.
     pub(crate) fn validate(&self, harmonics: usize) -> Result<(), ConfigError> {
-        range_u("sample_rate_hz", self.sample_rate_hz, 400, 50_000)?;
-        range_u("adc_bits", self.adc_bits.into(), 8, 16)?;
-        range_u("spike_max_len", self.spike_max_len.into(), 0, 8)?;
-        range_f("track_min_codes", self.track_min_codes, 0.0, 10_000.0)?;
-        range_u("avg_shift", self.avg_shift.into(), 0, 4)?;
-        range_u("startup_cycles", self.startup_cycles.into(), 1, 65_535)?;
-        range_u(
-            "baseline_rise_shift",
-            self.baseline_rise_shift.into(),
-            1,
-            16,
-        )?;
-        range_u(
-            "baseline_fall_shift",
-            self.baseline_fall_shift.into(),
-            1,
-            16,
-        )?;
+        for (i, rule) in RULES.iter().enumerate() {
+            let v = self.raw(i);
+            let float = i >= INT_RULES;
+            let key = if float {
+                if !finite(f32::from_bits(v)) {
+                    return Err(ConfigError::NotFinite { field: rule.field });
+                }
+                order_key(f32::from_bits(v)) as u32
+            } else {
+                v
+            };
+            if key < rule.min || key > rule.max {
+                return Err(rule.out_of_range(v, float));
+            }
+        }
         if self.baseline_fall_shift > self.baseline_rise_shift {
             // "Fall faster than rise" means a smaller or equal shift.
             return Err(ConfigError::OutOfRange {
                 field: "baseline_fall_shift",
-                value: self.baseline_fall_shift as f32,
-                min: 1.0,
-                max: self.baseline_rise_shift as f32,
+                value: ConfigValue::Int(self.baseline_fall_shift.into()),
+                min: ConfigValue::Int(1),
+                max: ConfigValue::Int(self.baseline_rise_shift.into()),
             });
         }
-        range_u("noise_shift", self.noise_shift.into(), 1, 16)?;
-        range_f("on_noise", self.on_noise, 0.5, 1000.0)?;
-        range_f("off_noise", self.off_noise, 0.0, 1000.0)?;
-        below("off_noise", self.off_noise, "on_noise", self.on_noise)?;
-        range_f("on_ratio", self.on_ratio, 1.01, 1000.0)?;
-        range_f("off_ratio", self.off_ratio, 1.0, 1000.0)?;
-        below("off_ratio", self.off_ratio, "on_ratio", self.on_ratio)?;
-        range_f("floor_codes", self.floor_codes, 0.0, 10_000.0)?;
-        range_u("debounce_on", self.debounce_on.into(), 1, 255)?;
-        range_u("debounce_off", self.debounce_off.into(), 1, 255)?;
-        range_u("levels", self.levels.into(), 1, 16)?;
-        range_f("level_step_db", self.level_step_db, 0.5, 20.0)?;
-        range_f("level_hysteresis_db", self.level_hysteresis_db, 0.0, 20.0)?;
-        below(
-            "level_hysteresis_db",
-            self.level_hysteresis_db,
-            "level_step_db",
-            self.level_step_db,
-        )?;
-        range_f("ambient_ratio", self.ambient_ratio, 1.05, 100.0)?;
-        range_u(
-            "fault_saturation_cycles",
-            self.fault_saturation_cycles.into(),
-            1,
-            65_535,
-        )?;
-        range_u(
-            "fault_stuck_cycles",
-            self.fault_stuck_cycles.into(),
-            1,
-            65_535,
-        )?;
-        range_f("nohum_codes", self.nohum_codes, 0.0, 10_000.0)?;
-        range_u("nohum_cycles", self.nohum_cycles.into(), 1, 65_535)?;
-        range_u(
-            "mains_lost_cycles",
-            self.mains_lost_cycles.into(),
-            1,
-            65_535,
-        )?;
+        // Off below on, in `RULES` indices (both finite by now; compared
+        // by order keys, so −0.0 counts as 0).
+        for (small, big) in BELOW {
+            if let (Some(rs), Some(rb)) = (RULES.get(small), RULES.get(big)) {
+                let key = |i| order_key(f32::from_bits(self.raw(i)));
+                if key(small) >= key(big) {
+                    return Err(ConfigError::NotBelow {
+                        field: rs.field,
+                        other: rb.field,
+                    });
+                }
+            }
+        }
         // Every demodulated bin must lie below Nyquist at the top of the
         // tracking range, with 10 % to spare: rate ≥ 2.2 · top · (H + 1),
         // in integers (rate in Hz · 10 000 against 22 · top in mHz · bins;
         // both below 2^32 for validated rates and at most 5 bins).
         let top_mhz = self.tracking_range_mhz().1;
         let bins = harmonics.min(crate::detector::MAX_HARMONICS) as u32 + 1;
-        if self.sample_rate_hz * 10_000 < 22 * top_mhz * bins {
+        let need = 22 * top_mhz * bins;
+        if self.sample_rate_hz * 10_000 < need {
             return Err(ConfigError::TooFewSamplesPerCycle {
-                samples_per_cycle: self.sample_rate_hz as f32 / (top_mhz as f32 / 1000.0),
+                sample_rate_hz: self.sample_rate_hz,
+                min_rate_hz: div_rem_u32(need + 9_999, 10_000).0,
             });
         }
         Ok(())
@@ -367,22 +386,89 @@ pub(crate) const RANGE_50: (u32, u32) = (46_000, 54_000);
 /// applied to 60 Hz is 56.4–62.4 Hz; margin either side).
 pub(crate) const RANGE_60: (u32, u32) = (55_200, 64_800);
 
-// The checks below are out of line: one copy each instead of one per
-// field (flash on small cores), and the float ones compare bit patterns
-// as integers (`order_key`), so no soft-float compare routine is linked.
-
-#[inline(never)]
-fn range_u(field: &'static str, v: u32, min: u32, max: u32) -> Result<(), ConfigError> {
-    if v < min || v > max {
-        return Err(ConfigError::OutOfRange {
-            field,
-            value: v as f32,
-            min: min as f32,
-            max: max as f32,
-        });
-    }
-    Ok(())
+/// One field's range check: its name in `Config` and its limits, as they
+/// are for integer fields and as [`order_key`]s for `f32` fields.
+struct Rule {
+    field: &'static str,
+    min: u32,
+    max: u32,
 }
+
+impl Rule {
+    const fn int(field: &'static str, min: u32, max: u32) -> Self {
+        Self { field, min, max }
+    }
+
+    /// Limits of an `f32` field, both non-negative: their keys are their
+    /// bits, and a negative value's key (as `u32`, at least 2^31) lies
+    /// above every such limit, so the unsigned comparison refuses it as
+    /// the signed one would.
+    const fn float(field: &'static str, min: f32, max: f32) -> Self {
+        Self {
+            field,
+            min: order_key(min) as u32,
+            max: order_key(max) as u32,
+        }
+    }
+
+    /// The error for raw value `v` (IEEE bits when `float`). Out of line:
+    /// one copy of the error's construction.
+    #[inline(never)]
+    fn out_of_range(&self, v: u32, float: bool) -> ConfigError {
+        let value = |x: u32| {
+            if float {
+                ConfigValue::Float(f32::from_bits(x))
+            } else {
+                ConfigValue::Int(x)
+            }
+        };
+        ConfigError::OutOfRange {
+            field: self.field,
+            value: value(v),
+            min: value(self.min),
+            max: value(self.max),
+        }
+    }
+}
+
+/// How many of [`RULES`] (the first ones) check integer fields.
+const INT_RULES: usize = 15;
+
+/// Every range check: the integer fields, then the `f32` fields (the
+/// ranges documented on each field of [`Config`]).
+static RULES: [Rule; 25] = [
+    Rule::int("sample_rate_hz", 400, 50_000),
+    Rule::int("adc_bits", 8, 16),
+    Rule::int("spike_max_len", 0, 8),
+    Rule::int("avg_shift", 0, 4),
+    Rule::int("startup_cycles", 1, 65_535),
+    Rule::int("baseline_rise_shift", 1, 16),
+    Rule::int("baseline_fall_shift", 1, 16),
+    Rule::int("noise_shift", 1, 16),
+    Rule::int("debounce_on", 1, 255),
+    Rule::int("debounce_off", 1, 255),
+    Rule::int("levels", 1, 16),
+    Rule::int("fault_saturation_cycles", 1, 65_535),
+    Rule::int("fault_stuck_cycles", 1, 65_535),
+    Rule::int("nohum_cycles", 1, 65_535),
+    Rule::int("mains_lost_cycles", 1, 65_535),
+    Rule::float("track_min_codes", 0.0, 10_000.0),
+    Rule::float("on_noise", 0.5, 1000.0),
+    Rule::float("off_noise", 0.0, 1000.0),
+    Rule::float("on_ratio", 1.01, 1000.0),
+    Rule::float("off_ratio", 1.0, 1000.0),
+    Rule::float("floor_codes", 0.0, 10_000.0),
+    Rule::float("level_step_db", 0.5, 20.0),
+    Rule::float("level_hysteresis_db", 0.0, 20.0),
+    Rule::float("ambient_ratio", 1.05, 100.0),
+    Rule::float("nohum_codes", 0.0, 10_000.0),
+];
+
+/// `f32` fields that must stay strictly below another, as indices into
+/// [`RULES`] (checked by a unit test): `off_noise` < `on_noise`,
+/// `off_ratio` < `on_ratio`,
+/// `level_hysteresis_db` < `level_step_db`.
+const BELOW: [(usize, usize); 3] = [(17, 16), (19, 18), (22, 21)];
 
 /// Whether `v` is neither infinite nor NaN (exponent not all ones).
 const fn finite(v: f32) -> bool {
@@ -401,33 +487,9 @@ const fn order_key(v: f32) -> i32 {
     }
 }
 
-#[inline(never)]
-fn range_f(field: &'static str, v: f32, min: f32, max: f32) -> Result<(), ConfigError> {
-    if !finite(v) {
-        return Err(ConfigError::NotFinite { field });
-    }
-    if order_key(v) < order_key(min) || order_key(v) > order_key(max) {
-        return Err(ConfigError::OutOfRange {
-            field,
-            value: v,
-            min,
-            max,
-        });
-    }
-    Ok(())
-}
-
-#[inline(never)]
-fn below(field: &'static str, v: f32, other: &'static str, o: f32) -> Result<(), ConfigError> {
-    // Both are finite here (range-checked first).
-    if order_key(v) >= order_key(o) {
-        return Err(ConfigError::NotBelow { field, other });
-    }
-    Ok(())
-}
-
 #[cfg(test)]
 mod tests {
+    extern crate std;
     use super::*;
 
     #[test]
@@ -454,5 +516,142 @@ mod tests {
             }
         }
         assert!(!finite(f32::NAN) && !finite(f32::INFINITY) && !finite(f32::NEG_INFINITY));
+    }
+
+    #[test]
+    fn unsigned_keys_against_non_negative_limits_order_like_the_floats() {
+        // Reference: IEEE 754 ordering as the host's f32 comparison gives
+        // it (common practice). Every `f32` limit is non-negative.
+        let vals = [
+            f32::MIN,
+            -1000.0,
+            -1.0,
+            -f32::MIN_POSITIVE,
+            -1e-40,
+            -0.0,
+            0.0,
+            1e-40,
+            0.5,
+            0.999_999_9,
+            1.0,
+            1.01,
+            1.05,
+            20.0,
+            100.0,
+            1000.0,
+            1_000.000_06,
+            10_000.0,
+            f32::MAX,
+        ];
+        for rule in RULES.iter().skip(INT_RULES) {
+            let (min, max) = (f32::from_bits(rule.min), f32::from_bits(rule.max));
+            assert!(min >= 0.0 && min < max, "{}", rule.field);
+            for v in vals {
+                let key = order_key(v) as u32;
+                let inside = key >= rule.min && key <= rule.max;
+                assert_eq!(inside, v >= min && v <= max, "{} {v}", rule.field);
+            }
+        }
+    }
+
+    #[test]
+    fn adc_bits_rescale_like_the_float_products() {
+        // Reference: the float formula this builder used before (host
+        // f32 arithmetic with the power-of-two scale).
+        for (base, spike) in [
+            (Config::touch(), 1u16),
+            (Config::touch(), 1_000),
+            (Config::field(), 8),
+            (Config::field(), u16::MAX),
+        ] {
+            for from in [8u8, 12, 16] {
+                let start = Config {
+                    adc_bits: from,
+                    spike_floor_codes: spike,
+                    track_min_codes: 2.3,
+                    floor_codes: 1e-38,
+                    nohum_codes: 3e38,
+                    ..base
+                };
+                for bits in 0..=40u8 {
+                    let scale = if bits >= from {
+                        (1u32 << (bits - from).min(16)) as f32
+                    } else {
+                        1.0 / (1u32 << (from - bits).min(16)) as f32
+                    };
+                    let got = start.with_adc_bits(bits);
+                    let want_spike = ((start.spike_floor_codes as f32 * scale) as u16).max(1);
+                    assert_eq!(got.spike_floor_codes, want_spike, "{from} -> {bits}");
+                    for (g, v) in [
+                        (got.track_min_codes, start.track_min_codes),
+                        (got.floor_codes, start.floor_codes),
+                        (got.nohum_codes, start.nohum_codes),
+                    ] {
+                        assert_eq!(g.to_bits(), (v * scale).to_bits(), "{from} -> {bits}");
+                    }
+                    assert_eq!(got.adc_bits, bits);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn rule_table_matches_the_fields() {
+        let names: std::vec::Vec<&str> = RULES.iter().map(|r| r.field).collect();
+        for (small, big) in BELOW {
+            assert!(small >= INT_RULES && big >= INT_RULES);
+            let pair = (names[small], names[big]);
+            assert!(
+                [
+                    ("off_noise", "on_noise"),
+                    ("off_ratio", "on_ratio"),
+                    ("level_hysteresis_db", "level_step_db"),
+                ]
+                .contains(&pair),
+                "{pair:?}"
+            );
+        }
+        // Integer rules first, then the f32 fields.
+        assert_eq!(names[INT_RULES - 1], "mains_lost_cycles");
+        assert_eq!(names[INT_RULES], "track_min_codes");
+        let e = Config {
+            sample_rate_hz: 399,
+            ..Config::touch()
+        }
+        .validate(0);
+        assert_eq!(
+            e,
+            Err(ConfigError::OutOfRange {
+                field: "sample_rate_hz",
+                value: ConfigValue::Int(399),
+                min: ConfigValue::Int(400),
+                max: ConfigValue::Int(50_000),
+            })
+        );
+        let e = Config {
+            on_ratio: 1.0,
+            ..Config::touch()
+        }
+        .validate(0);
+        assert_eq!(
+            e,
+            Err(ConfigError::OutOfRange {
+                field: "on_ratio",
+                value: ConfigValue::Float(1.0),
+                min: ConfigValue::Float(1.01),
+                max: ConfigValue::Float(1000.0),
+            })
+        );
+        // 3 bins up to 66 Hz: 2.2 · 66 · 3 = 435.6 Hz, so 436 Hz.
+        let e = Config::touch().with_sample_rate(400).validate(2);
+        assert_eq!(
+            e,
+            Err(ConfigError::TooFewSamplesPerCycle {
+                sample_rate_hz: 400,
+                min_rate_hz: 436,
+            })
+        );
+        assert!(Config::touch().with_sample_rate(436).validate(2).is_ok());
+        assert!(Config::touch().with_sample_rate(435).validate(2).is_err());
     }
 }

@@ -17,7 +17,7 @@
 
 use crate::config::{Config, Profile};
 use crate::event::EventKind;
-use crate::fixed::{db_to_ratio_q16, f32_to_fixed, mul_q4, mul_q8};
+use crate::fixed::{db_to_ratio_q16, div_rem_u32, f32_to_fixed, mul_q4, mul_q8, ARMV6M};
 
 /// Most levels a field profile can have.
 pub const MAX_LEVELS: usize = 16;
@@ -49,23 +49,29 @@ impl DecisionTuning {
     pub fn new(cfg: &Config) -> Self {
         // Level boundaries r_on · s^k, in Q16 integers (no floating-point
         // routine on cores without an FPU).
-        let mut level_q8 = [u32::MAX; MAX_LEVELS];
+        // Every slot written once, in order (an array filled first and
+        // then overwritten would be a `memset` call on small cores);
+        // `u32::MAX` past the configured levels.
         let step_q16 = u64::from(db_to_ratio_q16(cfg.level_step_db));
         let mut r_q16 = u64::from(f32_to_fixed(cfg.on_ratio, 16));
-        for slot in level_q8.iter_mut().take(usize::from(cfg.levels)) {
+        let levels = usize::from(cfg.levels);
+        let level_q8 = core::array::from_fn(|k| {
+            if k >= levels {
+                return u32::MAX;
+            }
             let q8 = (r_q16 + 128) >> 8;
-            *slot = if q8 > u64::from(u32::MAX) {
+            r_q16 = ((r_q16 * step_q16) >> 16).min(u64::from(u32::MAX) << 8);
+            if q8 > u64::from(u32::MAX) {
                 u32::MAX
             } else {
                 q8 as u32
-            };
-            r_q16 = ((r_q16 * step_q16) >> 16).min(u64::from(u32::MAX) << 8);
-        }
+            }
+        });
         let on_q8 = f32_to_fixed(cfg.on_ratio, 8);
         let off_q8 = f32_to_fixed(cfg.off_ratio, 8);
         // 10^(−h/20) in Q8 = 2^24 / 10^(h/20) in Q16, rounded.
         let h_q16 = db_to_ratio_q16(cfg.level_hysteresis_db).max(1);
-        let hyst_q8 = ((1u32 << 24) + h_q16 / 2) / h_q16;
+        let hyst_q8 = div_rem_u32((1u32 << 24) + h_q16 / 2, h_q16).0;
         Self {
             profile: cfg.profile,
             on_noise_q4: f32_to_fixed(cfg.on_noise, 4),
@@ -85,13 +91,24 @@ impl DecisionTuning {
 
     /// On and off thresholds (Q8 codes) for baseline `b` and noise `n`.
     pub fn thresholds(&self, b: u32, n: u32) -> (u32, u32) {
+        (self.on_threshold(b, n), self.off_threshold(b, n))
+    }
+
+    /// The on threshold alone (what an idle channel needs).
+    fn on_threshold(&self, b: u32, n: u32) -> u32 {
         let on = mul_q4(n, self.on_noise_q4)
             .max(mul_q8(b, self.on_excess_q8))
             .max(self.floor_q8);
+        b.saturating_add(on)
+    }
+
+    /// The off threshold alone (what an active channel needs).
+    #[inline(always)]
+    fn off_threshold(&self, b: u32, n: u32) -> u32 {
         let off = mul_q4(n, self.off_noise_q4)
             .max(mul_q8(b, self.off_excess_q8))
             .max(self.floor_q8 / 2);
-        (b.saturating_add(on), b.saturating_add(off))
+        b.saturating_add(off)
     }
 
     fn level_at(&self, index: u8) -> u32 {
@@ -164,10 +181,25 @@ impl DecisionState {
         may_turn_on: bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
-        let (on, off) = t.thresholds(b, n);
+        self.step_with(a, b, n, || may_turn_on, t)
+    }
+
+    /// [`step`](Self::step) with the panel's permission asked only when
+    /// it matters (an idle channel above its on threshold), so a costly
+    /// permission (the strongest-pad rule) is mostly never computed.
+    pub fn step_with(
+        &mut self,
+        a: u32,
+        b: u32,
+        n: u32,
+        may_turn_on: impl FnOnce() -> bool,
+        t: &DecisionTuning,
+    ) -> (Option<EventKind>, Verdict) {
         let touch = t.profile == Profile::Touch;
         if !self.active {
-            if a > on && !may_turn_on {
+            // Only the threshold this state compares against is computed.
+            let on = t.on_threshold(b, n);
+            if a > on && !may_turn_on() {
                 self.count = 0;
                 return (None, Verdict::Freeze);
             }
@@ -200,7 +232,7 @@ impl DecisionState {
             self.release();
             return (Some(off_kind), Verdict::Relearn);
         }
-        if a < off {
+        if a < t.off_threshold(b, n) {
             self.count = self.count.saturating_add(1);
             if self.count >= t.debounce_off && self.active_cycles >= t.min_active {
                 self.release();
@@ -255,34 +287,46 @@ impl DecisionState {
     }
 }
 
-/// `a / b` in Q8, saturating; `u32::MAX` when `b` is 0.
+/// `a / b` in Q8, saturating; `u32::MAX` when `b` is 0. Out of line: one
+/// copy for the panel rules and the field levels.
+#[inline(never)]
 pub fn ratio_q8(a: u32, b: u32) -> u32 {
     if b == 0 {
         return u32::MAX;
     }
-    // Exact, in 32-bit division (no 64-bit division routine linked):
+    // Exact, in 32-bit division (`div_rem_u32`: no division routine
+    // linked on Cortex-M0, a short loop for the small ratios met here):
     // ⌊256a/b⌋ = 256⌊a/b⌋ + ⌊256(a mod b)/b⌋.
-    let (q, r) = (a / b, a % b);
+    let (q, r) = div_rem_u32(a, b);
     if q >= 1 << 24 {
         return u32::MAX;
     }
-    let frac = if b < 1 << 24 {
-        (r << 8) / b
+    let frac = if ARMV6M || b >= 1 << 24 {
+        frac_q8(r, b)
     } else {
-        // Eight restoring steps (r < b, so 2r fits u64 and each bit is
-        // one compare).
-        let (mut r, b, mut f) = (u64::from(r), u64::from(b), 0u32);
-        for _ in 0..8 {
-            r <<= 1;
-            f <<= 1;
-            if r >= b {
-                r -= b;
-                f |= 1;
-            }
-        }
-        f
+        // One divide instruction (r · 2^8 fits 32 bits).
+        div_rem_u32(r << 8, b).0
     };
     (q << 8) | frac
+}
+
+/// `⌊2^8 · r / b⌋` for `r < b`, by eight restoring steps (shift, compare,
+/// subtract), for any `b`: the bit shifted out of `r` counts in the compare.
+const fn frac_q8(r: u32, b: u32) -> u32 {
+    let (mut r, mut f, mut i) = (r, 0u32, 0);
+    while i < 8 {
+        // 2r < 2b ≤ 2^33: with the carry, `2r ≥ b` is exact, and 2r − b
+        // < b fits 32 bits (wrapping arithmetic gives it exactly).
+        let carry = r >> 31 != 0;
+        r <<= 1;
+        f <<= 1;
+        if carry || r >= b {
+            r = r.wrapping_sub(b);
+            f |= 1;
+        }
+        i += 1;
+    }
+    f
 }
 
 #[cfg(test)]
@@ -305,6 +349,47 @@ mod tests {
         assert_eq!(on, 10 * 256 + 80 * 256);
         // Zero baseline and noise: the absolute floor rules.
         assert_eq!(t.thresholds(0, 0), (512, 256));
+    }
+
+    #[test]
+    fn ratio_matches_wide_division() {
+        // Reference: u64 division on the host (common practice).
+        let vals = [
+            0u32,
+            1,
+            2,
+            255,
+            256,
+            5_120,
+            65_535,
+            (1 << 24) - 1,
+            1 << 24,
+            (1 << 24) + 1,
+            0x7fff_ffff,
+            0x8000_0000,
+            0xfff0_0001,
+            u32::MAX,
+        ];
+        for a in vals {
+            for b in vals {
+                let want = if b == 0 {
+                    u32::MAX
+                } else {
+                    ((u64::from(a) << 8) / u64::from(b)).min(u64::from(u32::MAX)) as u32
+                };
+                assert_eq!(ratio_q8(a, b), want, "{a} / {b}");
+                if a < b {
+                    let f = ((u64::from(a) << 8) / u64::from(b)) as u32;
+                    assert_eq!(frac_q8(a, b), f, "{a} / {b}");
+                }
+            }
+        }
+        for b in 1..3_000u32 {
+            for a in [0, b - 1, b, 3 * b + 1, 1_000 * b] {
+                let want = ((u64::from(a) << 8) / u64::from(b)) as u32;
+                assert_eq!(ratio_q8(a, b), want, "{a} / {b}");
+            }
+        }
     }
 
     #[test]

@@ -498,8 +498,15 @@ const DIFF_GAIN_Q8: [u32; 5] = [181, 256, 362, 512, 724];
 impl<const N: usize, const H: usize> Backend<N, H> {
     /// Validates `cfg` and builds the back end. Never panics.
     pub fn new(cfg: &Config) -> Result<Self, ConfigError> {
-        const { assert!(N >= 1 && N <= MAX_CHANNELS && H <= MAX_HARMONICS) };
         cfg.validate(H)?;
+        Ok(Self::build(cfg))
+    }
+
+    /// Builds the back end from a validated `cfg` (by value, so it can be
+    /// built in its final place).
+    #[inline(always)]
+    fn build(cfg: &Config) -> Self {
+        const { assert!(N >= 1 && N <= MAX_CHANNELS && H <= MAX_HARMONICS) };
         let fresh = ChannelBack {
             avg: Iq::default(),
             avg_h: [Iq::default(); H],
@@ -508,7 +515,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             decision: DecisionState::new(),
             faults: FaultState::new(),
         };
-        Ok(Self {
+        Self {
             ch: [fresh; N],
             baseline_t: BaselineTuning {
                 rise_shift: cfg.baseline_rise_shift,
@@ -525,17 +532,28 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 .copied()
                 .unwrap_or(724),
             last_sample: 0,
-        })
+        }
     }
 
     /// Decides one cycle on every channel; calls `emit` for each event
     /// (at most one per channel). Never panics.
+    ///
+    /// Out of line: one copy serves the frame and the block paths.
+    #[inline(never)]
     pub fn process(&mut self, cycle: &Cycle<N, H>, mut emit: impl FnMut(Event)) {
         self.last_sample = cycle.end_sample;
         let k = self.avg_shift;
-        let inputs = cycle.fund.iter().zip(cycle.harm.iter());
-        let mut noise = [0u32; N];
-        for ((c, (f, h)), d) in self.ch.iter_mut().zip(inputs).zip(noise.iter_mut()) {
+        let gain = self.diff_gain_q8;
+        // Built element by element (an array filled first would be a
+        // `memset` call on small cores).
+        let mut inputs = self
+            .ch
+            .iter_mut()
+            .zip(cycle.fund.iter().zip(cycle.harm.iter()));
+        let noise: [u32; N] = core::array::from_fn(|_| {
+            let Some((c, (f, h))) = inputs.next() else {
+                return 0;
+            };
             average(&mut c.avg, f, k);
             let mut power = c.avg.power();
             for (a, z) in c.avg_h.iter_mut().zip(h.iter()) {
@@ -550,13 +568,21 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             };
             // Noise sample: the change since the last cycle, scaled to a
             // mean absolute deviation (see `diff_gain_q8`).
-            *d = mul_q8(amp.abs_diff(c.amp_q8), self.diff_gain_q8);
+            let d = mul_q8(amp.abs_diff(c.amp_q8), gain);
             c.amp_q8 = amp;
-        }
+            d
+        });
+        // The panel rules: the ambient rule (three channels or more) first,
+        // as it may rescale the baselines; then the strongest-pad rule
+        // (two or more, unless pads are independent) from the rises over
+        // the baselines as they stand now, computed only if a channel asks
+        // for permission to turn on (mostly never: dividing is costly on
+        // small cores). One channel alone is always its own strongest pad.
         if N >= 3 {
             self.ambient_rule();
         }
-        let winner = strongest(self.rises().into_iter());
+        let rise_in = self.rise_inputs();
+        let mut winner: Option<Option<u8>> = None;
         let mut active_mask: u32 = 0;
         for (i, c) in self.ch.iter().enumerate() {
             if c.decision.active() {
@@ -592,8 +618,21 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             } else if c.baseline.settled(&self.baseline_t) {
                 let n = c.baseline.noise_q8();
                 let others_active = active_mask & !bit != 0;
-                let may_on = pt.independent || (winner == Some(channel) && !others_active);
-                let (e, verdict) = c.decision.step(amp, b, n, may_on, &self.decision_t);
+                let winner = &mut winner;
+                let may_on = || {
+                    if pt.independent || N == 1 {
+                        return true;
+                    }
+                    let w = *winner.get_or_insert_with(|| {
+                        strongest(
+                            rise_in
+                                .iter()
+                                .map(|&(a, b)| (b != 0).then(|| ratio_q8(a, b))),
+                        )
+                    });
+                    w == Some(channel) && !others_active
+                };
+                let (e, verdict) = c.decision.step_with(amp, b, n, may_on, &self.decision_t);
                 match verdict {
                     // A cycle without hum (a supply interruption, a dropout
                     // shorter than the no-hum fault) says nothing about the
@@ -629,42 +668,62 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         }
     }
 
-    /// Rises of the channels over their baselines (Q8), for the panel
-    /// rules: `None` for channels not deciding (learning or faulted).
-    fn rises(&self) -> [Option<u32>; N] {
-        let mut out = [None; N];
-        for (r, c) in out.iter_mut().zip(self.ch.iter()) {
+    /// Amplitude and effective baseline (at least the decision floor) of
+    /// each channel, both Q8, for the panel rules; baseline 0 for channels
+    /// not deciding (learning or faulted).
+    fn rise_inputs(&self) -> [(u32, u32); N] {
+        let mut chs = self.ch.iter();
+        core::array::from_fn(|_| {
+            let Some(c) = chs.next() else {
+                return (0, 0);
+            };
             let deciding = c.baseline.settled(&self.baseline_t)
                 && !c.faults.present().intersects(SIGNAL_FAULTS);
-            if deciding {
-                let b = c.baseline.baseline_q8().max(self.panel_t.floor_q8);
-                *r = Some(ratio_q8(c.amp_q8, b));
+            if !deciding {
+                return (c.amp_q8, 0);
             }
-        }
-        out
+            (
+                c.amp_q8,
+                c.baseline.baseline_q8().max(self.panel_t.floor_q8),
+            )
+        })
     }
 
     /// The ambient rule: rescale every settled baseline by the common
-    /// ratio when the panel rose or fell together.
-    fn ambient_rule(&mut self) {
-        let mut ratios = [0u32; N];
+    /// ratio when the panel rose or fell together. Returns whether it did.
+    /// The rises are divided out only when a division-free count says the
+    /// rule may fire ([`PanelTuning::may_be_ambient`]).
+    fn ambient_rule(&mut self) -> bool {
+        let inputs = self.rise_inputs();
+        let deciding = inputs.iter().copied().filter(|&(_, b)| b != 0);
+        if !self.panel_t.may_be_ambient(deciding) {
+            return false;
+        }
+        // The deciding channels' rises, packed at the front.
+        let mut eligible = inputs
+            .iter()
+            .filter(|&&(_, b)| b != 0)
+            .map(|&(a, b)| ratio_q8(a, b));
         let mut n = 0usize;
-        for r in self.rises().into_iter().flatten() {
-            if let Some(slot) = ratios.get_mut(n) {
-                *slot = r;
+        let mut ratios: [u32; N] = core::array::from_fn(|_| match eligible.next() {
+            Some(r) => {
                 n += 1;
+                r
             }
-        }
+            None => 0,
+        });
         let Some(eligible) = ratios.get_mut(..n) else {
-            return;
+            return false;
         };
-        if let Some(factor) = self.panel_t.common_ratio(eligible) {
-            for c in self.ch.iter_mut() {
-                if c.baseline.settled(&self.baseline_t) {
-                    c.baseline.rescale(factor);
-                }
+        let Some(factor) = self.panel_t.common_ratio(eligible) else {
+            return false;
+        };
+        for c in self.ch.iter_mut() {
+            if c.baseline.settled(&self.baseline_t) {
+                c.baseline.rescale(factor);
             }
         }
+        true
     }
 
     /// A view of channel `ch`, or `None` past the last channel.
@@ -738,9 +797,10 @@ impl<const N: usize, const H: usize> Detector<N, H> {
     /// Validates `config` and builds the detector; the error names the
     /// field that is wrong. Never panics.
     pub fn new(config: Config) -> Result<Self, ConfigError> {
+        // `Frontend::new` validates; the back end is built in place.
         Ok(Self {
             front: Frontend::new(&config)?,
-            back: Backend::new(&config)?,
+            back: Backend::build(&config),
         })
     }
 

@@ -2,6 +2,27 @@
 
 use core::fmt;
 
+/// A field's value or limit in a [`ConfigError`], in the field's own type:
+/// integer fields report integers (no conversion), `f32` fields their
+/// `f32`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ConfigValue {
+    /// The value of an integer field.
+    Int(u32),
+    /// The value of an `f32` field.
+    Float(f32),
+}
+
+impl fmt::Display for ConfigValue {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match *self {
+            Self::Int(v) => write!(f, "{v}"),
+            Self::Float(v) => write!(f, "{v}"),
+        }
+    }
+}
+
 /// Why a [`Config`](crate::Config) was refused. Each variant names the
 /// offending field by its name in `Config`, so a message can point at it.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -12,12 +33,12 @@ pub enum ConfigError {
     OutOfRange {
         /// Field name in `Config`.
         field: &'static str,
-        /// The value given (integers are converted exactly).
-        value: f32,
+        /// The value given.
+        value: ConfigValue,
         /// Smallest accepted value.
-        min: f32,
+        min: ConfigValue,
         /// Largest accepted value.
-        max: f32,
+        max: ConfigValue,
     },
     /// A floating-point field is NaN or infinite.
     NotFinite {
@@ -31,11 +52,16 @@ pub enum ConfigError {
         /// The field it must stay below (for example `on_ratio`).
         other: &'static str,
     },
-    /// The sample rate gives too few samples per mains cycle for the
-    /// quadrature demodulator (fewer than 8 at the top of the tracking range).
+    /// The sample rate (field `sample_rate_hz`) is too low for the
+    /// demodulated bins: every bin (the fundamental and the `H` extra
+    /// harmonics) must lie below the Nyquist frequency at the top of the
+    /// tracking range with 10 % to spare, `rate ≥ 2.2 · top · (H + 1)`.
     TooFewSamplesPerCycle {
-        /// Samples per cycle at the highest trackable mains frequency.
-        samples_per_cycle: f32,
+        /// The rate given, in hertz.
+        sample_rate_hz: u32,
+        /// The lowest rate accepted for this mains mode and bin count, in
+        /// hertz.
+        min_rate_hz: u32,
     },
 }
 
@@ -58,10 +84,13 @@ impl fmt::Display for ConfigError {
                 f,
                 "config field `{field}` must be below `{other}` (hysteresis needs off below on)"
             ),
-            Self::TooFewSamplesPerCycle { samples_per_cycle } => write!(
+            Self::TooFewSamplesPerCycle {
+                sample_rate_hz,
+                min_rate_hz,
+            } => write!(
                 f,
-                "config field `sample_rate_hz` gives {samples_per_cycle} samples per mains cycle, \
-                 at least 8 are needed"
+                "config field `sample_rate_hz` is {sample_rate_hz}, expected at least \
+                 {min_rate_hz} to demodulate every bin at the top of the mains tracking range"
             ),
         }
     }

@@ -125,13 +125,14 @@ impl Faults {
 
     /// The first fault in bit order that is in `self` but not in `other`.
     pub fn first_not_in(self, other: Faults) -> Option<Fault> {
-        if self.0 & !other.0 == 0 {
+        let new = self.0 & !other.0;
+        if new == 0 {
             // Nothing to find (every cycle without a change): no search.
             return None;
         }
-        Fault::ALL
-            .into_iter()
-            .find(|f| self.contains(*f) && !other.contains(*f))
+        // By reference: iterating the array by value would copy it (a
+        // `memcpy` call on small cores).
+        Fault::ALL.iter().copied().find(|f| new & f.bit() != 0)
     }
 }
 

@@ -22,7 +22,7 @@
 
 use crate::config::Config;
 use crate::event::{EventKind, Fault, Faults};
-use crate::fixed::{f32_to_fixed, mul_wide};
+use crate::fixed::f32_to_fixed;
 use crate::mains::MainsHealth;
 
 /// Faults of the input itself.
@@ -109,9 +109,16 @@ impl FaultState {
         let span = hi.saturating_sub(lo).max(1);
         let full = span.unsigned_abs();
         // span/2 of amplitude is span·128 in Q8: 0.52 of it is span·66.6.
-        // Exact products (no 64-bit multiply call on Cortex-M0).
-        let swing_on = u64::from(x.amp_q8) > mul_wide(full, 67);
-        let swing_off = u64::from(x.amp_q8) < mul_wide(full, 61).min(u32::MAX as u64);
+        // Exact: the products fit 32 bits for any span below 2^25 (every
+        // 16-bit converter); above, a product that overflows saturates,
+        // which compares the same (it is above every amplitude).
+        let (on, off) = if full >> 25 == 0 {
+            (full * 67, full * 61)
+        } else {
+            (full.saturating_mul(67), full.saturating_mul(61))
+        };
+        let swing_on = x.amp_q8 > on;
+        let swing_off = x.amp_q8 < off;
         let top_on = x.dc >= hi - span / 32;
         let top_off = x.dc < hi - span / 16;
         if x.active || (swing_off && top_off) {
@@ -130,16 +137,21 @@ impl FaultState {
             self.nohum = 0;
         }
         let stuck = self.stuck >= t.stuck_cycles;
-        let present = Faults::NONE
-            .with(Fault::Saturated, self.saturated >= t.saturated_cycles)
-            .with(Fault::Stuck, stuck)
-            .with(Fault::NoHum, !stuck && self.nohum >= t.nohum_cycles);
-        self.present = match x.health {
-            MainsHealth::Ok => present,
-            MainsHealth::Lost => present.with(Fault::MainsLost, true),
-            MainsHealth::OutOfRange => present.with(Fault::MainsOutOfRange, true),
-            MainsHealth::RateMismatch => present.with(Fault::RateMismatch, true),
+        let mut bits = match x.health {
+            MainsHealth::Ok => 0,
+            MainsHealth::Lost => Fault::MainsLost.bit(),
+            MainsHealth::OutOfRange => Fault::MainsOutOfRange.bit(),
+            MainsHealth::RateMismatch => Fault::RateMismatch.bit(),
         };
+        if self.saturated >= t.saturated_cycles {
+            bits |= Fault::Saturated.bit();
+        }
+        if stuck {
+            bits |= Fault::Stuck.bit();
+        } else if self.nohum >= t.nohum_cycles {
+            bits |= Fault::NoHum.bit();
+        }
+        self.present = Faults(bits);
         self.present
     }
 
@@ -200,6 +212,43 @@ mod tests {
             Some(EventKind::FaultClear(Fault::MainsLost))
         );
         assert_eq!(f.next_change(), None);
+    }
+
+    #[test]
+    fn swing_limits_are_exact_on_both_paths() {
+        // Reference: the limits of the module docs as exact products,
+        // amp > 67·span counts, amp < 61·span resets (common practice);
+        // a 16-bit span takes the short path, 4·10^7 (above 2^25) the
+        // saturating one without overflow, 2^31 − 1 with it.
+        let t = FaultTuning::new(&Config::touch());
+        for span in [4_095u32, 65_535, 40_000_000, i32::MAX as u32] {
+            let rails = (0, span as i32);
+            let mid = (span / 2) as i32;
+            let at = |amp: u32, f: &mut FaultState| {
+                let x = FaultInput {
+                    amp_q8: amp,
+                    dc: mid,
+                    flat: false,
+                    active: false,
+                    rails,
+                    health: MainsHealth::Ok,
+                };
+                f.update(&x, &t);
+                f.saturated
+            };
+            let on = u64::from(span) * 67;
+            let off = u64::from(span) * 61;
+            let clamp = |v: u64| v.min(u64::from(u32::MAX)) as u32;
+            let mut f = FaultState::new();
+            assert_eq!(
+                at(clamp(on + 1), &mut f),
+                u16::from(on < u64::from(u32::MAX))
+            );
+            let before = f.saturated;
+            assert_eq!(at(clamp(on), &mut f), before, "{span}");
+            assert_eq!(at(clamp(off), &mut f), before, "{span}");
+            assert_eq!(at(clamp(off - 1), &mut f), 0, "{span}");
+        }
     }
 
     #[test]

@@ -42,24 +42,106 @@ pub const fn phase_step(freq_mhz: u32, rate_hz: u32) -> u32 {
     }
 }
 
-/// `num / den` (`den > 0`) by restoring long division: shifts, compares
-/// and subtractions only, so no 64-bit division routine is linked into
-/// firmware (it is 0.9 KiB on Cortex-M0). Used at construction and at the
-/// 50/60 Hz choice, never per sample or per cycle.
+/// `num / den` (`den > 0`) by restoring long division: shifts by one,
+/// compares and subtractions only, so no 64-bit division routine (0.9 KiB
+/// on Cortex-M0) and no variable 64-bit shift (a library call there) is
+/// linked into firmware. Used at construction and at the 50/60 Hz choice,
+/// never per sample or per cycle.
 const fn div_u64(num: u64, den: u64) -> u64 {
     let mut q = 0u64;
     let mut r = 0u64;
-    let mut i = 64;
-    while i > 0 {
-        i -= 1;
-        // r < den < 2^63 before the shift, so it cannot overflow.
-        r = (r << 1) | ((num >> i) & 1);
+    let mut n = num;
+    let mut i = 0;
+    while i < 64 {
+        // r < den < 2^63 before the shift, so it cannot overflow; the
+        // dividend's bits enter from the top, one a step.
+        r = (r << 1) | (n >> 63);
+        n <<= 1;
+        q <<= 1;
         if r >= den {
             r -= den;
-            q |= 1 << i;
+            q |= 1;
         }
+        i += 1;
     }
     q
+}
+
+/// Whether the target is an ARMv6-M core (Cortex-M0/M0+, thumbv6m;
+/// recognised as in [`mul_wide`]): no divide instruction (so
+/// [`div_rem_u32`] is a loop) and no 32 × 32 → 64-bit multiply (so
+/// [`mul_wide`] is four multiplies). Callers use it to pick a 32-bit short
+/// path where one exists; the result is the same either way.
+pub const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+
+/// Whether to take the 32-bit short paths that stand in for wide products
+/// on ARMv6-M: there, and in this crate's unit tests, so that the host
+/// checks them against the wide paths (which the integration tests and the
+/// other targets take).
+pub(crate) const SHORT_PATHS: bool = ARMV6M || cfg!(test);
+
+/// `(n / d, n % d)` for `d > 0`; `d = 0` gives `(u32::MAX, n)`.
+///
+/// Cortex-M0/M0+ (thumbv6m, recognised as in [`mul_wide`]) has no divide
+/// instruction, and `/` or `%` on a runtime `u32` there links the
+/// `compiler_builtins` division routine (about 400 bytes). On those cores
+/// this is restoring (shift-subtract) division instead: the divisor is
+/// shifted up under the dividend's top bit, then one compare and at most
+/// one subtraction per quotient bit, so a quotient below 2^k costs about
+/// 2k short steps (a ratio of a few units, a handful). Elsewhere (one
+/// `udiv` on Cortex-M3/M4/M7, and the host) it is the plain operators.
+/// Both give the same bits (unit and property tests on the host, golden
+/// vectors on both emulated cores). Usable in `const` context.
+///
+/// ```
+/// use humsense::fixed::div_rem_u32;
+/// assert_eq!(div_rem_u32(1_000, 7), (142, 6));
+/// assert_eq!(div_rem_u32(5, 0), (u32::MAX, 5));
+/// ```
+#[inline]
+pub const fn div_rem_u32(n: u32, d: u32) -> (u32, u32) {
+    if d == 0 {
+        return (u32::MAX, n);
+    }
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        div_rem_shift(n, d)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        (n / d, n % d)
+    }
+}
+
+/// [`div_rem_u32`] by restoring division, `d > 0`. Compiled on every
+/// target so the host tests check it against `/` and `%`; out of line on
+/// ARMv6-M (one copy for every caller).
+#[cfg_attr(
+    not(all(target_arch = "arm", not(target_has_atomic = "32"))),
+    allow(dead_code)
+)]
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+const fn div_rem_shift(n: u32, d: u32) -> (u32, u32) {
+    let mut r = n;
+    let mut q = 0u32;
+    // Align: the largest d · 2^k ≤ n. `dd ≤ r / 2` before each doubling,
+    // so `dd` cannot overflow.
+    let mut dd = d;
+    let mut bit = 1u32;
+    while dd <= r >> 1 {
+        dd <<= 1;
+        bit <<= 1;
+    }
+    // One quotient bit per step, from 2^k down; r < 2 · dd throughout.
+    while bit != 0 {
+        if r >= dd {
+            r -= dd;
+            q |= bit;
+        }
+        dd >>= 1;
+        bit >>= 1;
+    }
+    (q, r)
 }
 
 /// Frequency in hertz that a phase step represents at `rate_hz`
@@ -71,6 +153,9 @@ pub fn step_to_hz(step: u32, rate_hz: u32) -> f32 {
 }
 
 /// Floor of the square root of a `u32`, exact (bit-by-bit method, 16 steps).
+/// Out of line on Cortex-M0, where it serves both amplitude paths of the
+/// back end.
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
 pub const fn isqrt_u32(v: u32) -> u32 {
     let mut rem = v;
     let mut res: u32 = 0;
@@ -131,10 +216,23 @@ pub const fn isqrt_u64(v: u64) -> u32 {
     if v <= u32::MAX as u64 {
         return isqrt_u32(v as u32);
     }
-    // Bits above 32, rounded up to an even count.
-    let high = 64 - v.leading_zeros();
-    let shift = (high - 32 + 1) & !1;
-    isqrt_u32((v >> shift) as u32) << (shift / 2)
+    // Bits above 32, rounded up to an even count (2 to 32): counted two at
+    // a time (at most 16 steps), as `leading_zeros` is a library call on
+    // Cortex-M0, and the shift done on 32-bit halves (a variable 64-bit
+    // shift is a library call there too).
+    let (lo, hi) = (v as u32, (v >> 32) as u32);
+    let mut high = hi;
+    let mut shift = 0;
+    while high != 0 {
+        high >>= 2;
+        shift += 2;
+    }
+    let top = if shift >= 32 {
+        hi
+    } else {
+        (lo >> shift) | (hi << (32 - shift))
+    };
+    isqrt_u32(top) << (shift / 2)
 }
 
 /// CORDIC arctangent table: atan(2^-i) in `u32` turns, i = 0..16
@@ -237,23 +335,37 @@ pub const fn mul_wide_signed(a: i32, b: u32) -> i64 {
 }
 
 /// `(a · b) >> 8` for a Q8 factor `b`, saturating at `u32::MAX`.
+#[inline]
 pub const fn mul_q8(a: u32, b: u32) -> u32 {
-    let p = mul_wide(a, b) >> 8;
-    if p > u32::MAX as u64 {
-        u32::MAX
-    } else {
-        p as u32
-    }
+    mul_shr(a, b, 8)
 }
 
 /// `(a · b) >> 4` for a Q4 factor `b`, saturating at `u32::MAX`.
+#[inline]
 pub const fn mul_q4(a: u32, b: u32) -> u32 {
-    let p = mul_wide(a, b) >> 4;
-    if p > u32::MAX as u64 {
-        u32::MAX
-    } else {
-        p as u32
+    mul_shr(a, b, 4)
+}
+
+/// `(a · b) >> s` for `s` from 1 to 31, saturating at `u32::MAX`, shifting
+/// the product's 32-bit halves (a variable 64-bit shift is a library call
+/// on Cortex-M0). There it is one out-of-line copy for [`mul_q8`] and
+/// [`mul_q4`], with a short path for the common case of two factors below
+/// 2^16 (one 32-bit multiply instead of four); elsewhere it is inline (one
+/// long multiply).
+#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+#[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
+const fn mul_shr(a: u32, b: u32, s: u32) -> u32 {
+    if SHORT_PATHS && (a | b) >> 16 == 0 {
+        // The product fits 32 bits: nothing to saturate.
+        return (a * b) >> (s & 31);
     }
+    let p = mul_wide(a, b);
+    let (hi, lo) = ((p >> 32) as u32, p as u32);
+    let s = s & 31;
+    if hi >> s != 0 {
+        return u32::MAX;
+    }
+    (lo >> s) | (hi << ((32 - s) & 31))
 }
 
 /// Converts a non-negative `f32` to fixed point with `frac_bits` fraction
@@ -273,28 +385,82 @@ pub fn f32_to_fixed(v: f32, frac_bits: u32) -> u32 {
         // Infinity saturates; NaN is 0.
         return if bits & 0x7f_ffff == 0 { u32::MAX } else { 0 };
     }
-    let mant = u64::from((bits & 0x7f_ffff) | 0x80_0000);
+    let mant = (bits & 0x7f_ffff) | 0x80_0000;
     // v = mant · 2^(exp − 150), so v · 2^frac = mant · 2^(exp − 150 + frac).
+    // In 32 bits (no 64-bit shift, a library call on Cortex-M0):
+    // 2^23 ≤ mant < 2^24, so a left shift of 9 or more saturates, and a
+    // right shift of 25 or more rounds to 0 (mant + 2^(s−1) < 2^s).
     let sh = exp as i32 - 150 + frac_bits as i32;
-    let scaled = if sh >= 0 {
-        if sh > 40 {
-            u64::MAX
+    if sh >= 0 {
+        if sh > 8 {
+            u32::MAX
         } else {
             mant << sh
         }
     } else {
         let s = sh.unsigned_abs();
-        if s > 40 {
+        if s > 24 {
             0
         } else {
-            (mant + (1u64 << (s - 1))) >> s
+            (mant + (1 << (s - 1))) >> s
         }
-    };
-    if scaled > u64::from(u32::MAX) {
-        u32::MAX
-    } else {
-        scaled as u32
     }
+}
+
+/// `v · 2^k`, exactly as the IEEE 754 product with the power of two (round
+/// to nearest, ties to even, where the result is subnormal; ±infinity on
+/// overflow), for `k` from −64 to 64 (clamped), by integer arithmetic on
+/// the bits: no floating-point routine is linked on cores without an FPU.
+/// Infinities and zeros keep their value and sign; a NaN stays a NaN
+/// (quieted).
+pub fn f32_mul_pow2(v: f32, k: i32) -> f32 {
+    let bits = v.to_bits();
+    let sign = bits & 0x8000_0000;
+    let exp = ((bits >> 23) & 0xff) as i32;
+    let frac = bits & 0x7f_ffff;
+    if exp == 0xff {
+        // Infinity stays; a NaN is returned quieted.
+        return f32::from_bits(if frac == 0 { bits } else { bits | 0x40_0000 });
+    }
+    // v = m · 2^e with an integer significand m below 2^24.
+    let (mut m, mut e) = if exp == 0 {
+        (frac, -149)
+    } else {
+        (frac | 0x80_0000, exp - 150)
+    };
+    if m == 0 {
+        return v;
+    }
+    e += k.clamp(-64, 64);
+    // Normalise: the leading bit at 23 while the exponent allows.
+    while m < 0x80_0000 && e > -149 {
+        m <<= 1;
+        e -= 1;
+    }
+    if e > 104 {
+        // 2^24 · 2^104 = 2^128: beyond the largest finite value.
+        return f32::from_bits(sign | 0x7f80_0000);
+    }
+    if e < -149 {
+        // Subnormal: shift right, rounding half to even.
+        let s = (-149 - e) as u32;
+        if s > 25 {
+            return f32::from_bits(sign);
+        }
+        let keep = m >> s;
+        let rest = m & ((1 << s) - 1);
+        let half = 1 << (s - 1);
+        m = if rest > half || (rest == half && keep & 1 == 1) {
+            keep + 1
+        } else {
+            keep
+        };
+        e = -149;
+    }
+    // Subnormal (exponent field 0) when m < 2^23; a rounding carry to
+    // 2^23 is the smallest normal number, which the same sum encodes.
+    let field = if m >= 0x80_0000 { (e + 150) as u32 } else { 0 };
+    f32::from_bits(sign | ((field << 23) + (m & 0x7f_ffff)))
 }
 
 /// 2^(2^-k) in Q30 for k = 1..=16 (computed: round(2^(2^-k) · 2^30)).
@@ -327,22 +493,21 @@ const LOG2_10_OVER_20_Q32: u64 = 713_378_626;
 /// 2·10^-5 relative. Construction-time use only.
 pub fn db_to_ratio_q16(db: f32) -> u32 {
     let db_q16 = u64::from(f32_to_fixed(db, 16).min(60 << 16));
-    let y = (db_q16 * LOG2_10_OVER_20_Q32) >> 32; // log2 of the ratio, Q16
-    let int = (y >> 16) as u32;
-    let frac = (y & 0xffff) as u32;
+    // log2 of the ratio, Q16 (below 10 · 2^16).
+    let y = ((db_q16 * LOG2_10_OVER_20_Q32) >> 32) as u32;
+    let int = y >> 16;
+    let frac = y & 0xffff;
+    // 2^frac in Q30 (below 2^31).
     let mut r: u64 = 1 << 30;
     for (k, c) in EXP2_FRAC_Q30.iter().enumerate() {
         if frac & (1 << (15 - k)) != 0 {
             r = (r * u64::from(*c)) >> 30;
         }
     }
-    // Q30 → Q16, times 2^int.
-    let q16 = (r << int.min(20)) >> 14;
-    if q16 > u64::from(u32::MAX) {
-        u32::MAX
-    } else {
-        q16 as u32
-    }
+    let r = r as u32;
+    // Times 2^int, Q30 → Q16, rounding down: ⌊r · 2^int / 2^14⌋. The
+    // clamp at 60 dB keeps int ≤ 9, so this is one right shift.
+    r >> (14 - int.min(14))
 }
 
 #[cfg(test)]
@@ -359,6 +524,60 @@ mod tests {
         assert_eq!(phase_step(60_000, 10), u32::MAX);
         let hz = step_to_hz(phase_step(50_000, 2_000), 2_000);
         assert!((hz - 50.0).abs() < 1e-4, "{hz}");
+    }
+
+    #[test]
+    fn shift_division_matches_the_operators() {
+        // Reference: Rust's own `/` and `%` on u32 (common practice).
+        let edges = [
+            0u32,
+            1,
+            2,
+            3,
+            7,
+            255,
+            256,
+            65_535,
+            65_536,
+            (1 << 24) - 1,
+            1 << 24,
+            0x7fff_ffff,
+            0x8000_0000,
+            0x8000_0001,
+            u32::MAX - 1,
+            u32::MAX,
+        ];
+        for n in edges {
+            for d in edges {
+                if d == 0 {
+                    assert_eq!(div_rem_u32(n, 0), (u32::MAX, n));
+                    continue;
+                }
+                assert_eq!(div_rem_shift(n, d), (n / d, n % d), "{n} / {d}");
+                assert_eq!(div_rem_u32(n, d), (n / d, n % d), "{n} / {d}");
+            }
+        }
+        // Every divisor against dividends around each of its multiples.
+        for d in 1..=2_000u32 {
+            for m in [0u32, 1, 2, 3, 17, 1_000, 65_537, u32::MAX / d] {
+                let base = m.saturating_mul(d);
+                for n in [base.saturating_sub(1), base, base.saturating_add(1)] {
+                    assert_eq!(div_rem_shift(n, d), (n / d, n % d), "{n} / {d}");
+                }
+            }
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn shift_division_matches_the_operators_anywhere(n: u32, d in 1u32..) {
+            // Reference: Rust's `/` and `%` (common practice).
+            proptest::prop_assert_eq!(div_rem_shift(n, d), (n / d, n % d));
+            let small = d >> (d % 31);
+            if small != 0 {
+                proptest::prop_assert_eq!(div_rem_shift(n, small), (n / small, n % small));
+            }
+        }
     }
 
     #[test]
@@ -478,6 +697,79 @@ mod tests {
             mul_wide_signed(i32::MIN, u32::MAX),
             i64::from(i32::MIN) * i64::from(u32::MAX)
         );
+    }
+
+    #[test]
+    fn q_products_match_wide_shifts() {
+        // Reference: the u64 product shifted and saturated on the host
+        // (common practice).
+        let vals = [
+            0u32,
+            1,
+            15,
+            16,
+            255,
+            256,
+            724,
+            0xffff,
+            0x1_0000,
+            0x00ff_ffff,
+            0x8000_0000,
+            u32::MAX,
+        ];
+        for a in vals {
+            for b in vals {
+                let p = u64::from(a) * u64::from(b);
+                for s in 1..32 {
+                    let want = (p >> s).min(u64::from(u32::MAX)) as u32;
+                    assert_eq!(mul_shr(a, b, s), want, "{a} {b} {s}");
+                }
+                assert_eq!(mul_q8(a, b), (p >> 8).min(u64::from(u32::MAX)) as u32);
+                assert_eq!(mul_q4(a, b), (p >> 4).min(u64::from(u32::MAX)) as u32);
+            }
+        }
+    }
+
+    #[test]
+    fn power_of_two_scaling_matches_the_float_product() {
+        // Reference: the host's IEEE 754 f32 multiplication by an exact
+        // power of two (common practice).
+        let mut vals = std::vec![
+            0.0f32,
+            -0.0,
+            1.0,
+            -1.0,
+            2.0,
+            0.1,
+            2.8,
+            10_000.0,
+            f32::MAX,
+            f32::MIN_POSITIVE,
+            f32::MIN_POSITIVE / 3.0,
+            1e-45,
+            -3e-40,
+            f32::INFINITY,
+            f32::NEG_INFINITY,
+        ];
+        let mut x = 0x1234_5678u32;
+        for _ in 0..3_000 {
+            // xorshift32 (13, 17, 5): bit patterns over the whole range.
+            x ^= x << 13;
+            x ^= x >> 17;
+            x ^= x << 5;
+            vals.push(f32::from_bits(x));
+        }
+        for v in vals {
+            for k in -30..=30 {
+                let want = v * 2f32.powi(k);
+                let got = f32_mul_pow2(v, k);
+                if want.is_nan() {
+                    assert!(got.is_nan(), "{v} {k}");
+                } else {
+                    assert_eq!(got.to_bits(), want.to_bits(), "{v:e} * 2^{k}");
+                }
+            }
+        }
     }
 
     #[test]

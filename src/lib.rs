@@ -19,7 +19,7 @@ pub mod queue;
 
 pub use config::{Config, MainsMode, PanelMode, Profile};
 pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};
-pub use error::ConfigError;
+pub use error::{ConfigError, ConfigValue};
 pub use event::{Event, EventKind, Fault, Faults};
 pub use mains::{MainsHealth, MainsSystem};
 pub use queue::EventQueue;

@@ -17,7 +17,7 @@
 //!   other channel is on.
 
 use crate::config::{Config, PanelMode};
-use crate::fixed::f32_to_fixed;
+use crate::fixed::{div_rem_u32, f32_to_fixed, mul_wide};
 
 /// The panel stage's constants (from [`Config`]).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -40,7 +40,7 @@ impl PanelTuning {
         Self {
             independent: cfg.panel == PanelMode::Independent,
             ambient_q8,
-            ambient_inv_q8: (1u32 << 16) / ambient_q8,
+            ambient_inv_q8: div_rem_u32(1 << 16, ambient_q8).0,
             floor_q8: f32_to_fixed(cfg.floor_codes, 8).max(1),
         }
     }
@@ -67,6 +67,34 @@ impl PanelTuning {
     }
 }
 
+impl PanelTuning {
+    /// Whether [`common_ratio`](Self::common_ratio) can find an ambient
+    /// change among channels with amplitudes and baselines `pairs` (Q8;
+    /// baselines at least 1), decided without dividing: the rise
+    /// `⌊256a/b⌋` (as `ratio_q8` gives it, saturating) is at least `T`
+    /// exactly when `256a ≥ T·b`, and at most `T` exactly when
+    /// `256a < (T + 1)·b`. So this counts the channels at or above the
+    /// ambient ratio and those at or below its inverse; `false` means
+    /// `common_ratio` would return `None` for their rises.
+    pub fn may_be_ambient(&self, pairs: impl Iterator<Item = (u32, u32)>) -> bool {
+        let (mut n, mut high, mut low) = (0usize, 0usize, 0usize);
+        for (a, b) in pairs {
+            let a = u64::from(a) << 8;
+            n += 1;
+            if a >= mul_wide(self.ambient_q8, b) {
+                high += 1;
+            }
+            if a < mul_wide(self.ambient_inv_q8 + 1, b) {
+                low += 1;
+            }
+        }
+        // common_ratio: the k-th smallest rise at or above the ratio, or
+        // the k-th largest at or below its inverse (k = ⌊(n − 1)/4⌋).
+        let need = n - n.saturating_sub(1) / 4;
+        n >= 3 && (high >= need || low >= need)
+    }
+}
+
 /// Index of the largest rise among `ratios` (`None` entries are channels
 /// not deciding yet); ties go to the lower index.
 pub fn strongest(ratios: impl Iterator<Item = Option<u32>>) -> Option<u8> {
@@ -83,7 +111,45 @@ pub fn strongest(ratios: impl Iterator<Item = Option<u32>>) -> Option<u8> {
 
 #[cfg(test)]
 mod tests {
+    extern crate std;
     use super::*;
+    use crate::decision::ratio_q8;
+
+    proptest::proptest! {
+        /// The division-free pre-check never misses what `common_ratio`
+        /// finds, and says no whenever it finds nothing (reference: the
+        /// rule itself on the divided rises, common practice).
+        #[test]
+        fn ambient_precheck_agrees_with_the_rule(
+            ratio in 257u32..3_000,
+            pairs in proptest::collection::vec((0u32..1 << 26, 1u32..1 << 26), 0..10),
+            scale in proptest::collection::vec(100u32..2_000, 10),
+        ) {
+            let t = PanelTuning {
+                independent: false,
+                ambient_q8: ratio,
+                ambient_inv_q8: div_rem_u32(1 << 16, ratio).0,
+                floor_q8: 1,
+            };
+            // Half the cases with amplitudes near a common multiple of
+            // their baselines, where the rule fires.
+            let pairs: std::vec::Vec<(u32, u32)> = pairs
+                .iter()
+                .zip(scale.iter())
+                .map(|(&(a, b), &s)| {
+                    if a % 2 == 0 {
+                        (((u64::from(b) * u64::from(s)) >> 8) as u32, b)
+                    } else {
+                        (a, b)
+                    }
+                })
+                .collect();
+            let mut rises: std::vec::Vec<u32> = pairs.iter().map(|&(a, b)| ratio_q8(a, b)).collect();
+            let found = t.common_ratio(&mut rises).is_some();
+            let may = t.may_be_ambient(pairs.iter().copied());
+            proptest::prop_assert_eq!(may, found, "{:?}", pairs);
+        }
+    }
 
     #[test]
     fn leakage_is_not_ambient_but_a_common_rise_is() {
