@@ -355,13 +355,17 @@ impl Config {
                 }
             }
         }
-        // Every demodulated bin must lie below Nyquist at the top of the
-        // tracking range, with 10 % to spare: rate ≥ 2.2 · top · (H + 1),
-        // in integers (rate in Hz · 10 000 against 22 · top in mHz · bins;
-        // both below 2^32 for validated rates and at most 5 bins).
+        // Every demodulated bin must lie below the Nyquist frequency of the
+        // demodulator's pairs (half the sample rate) at the top of the
+        // tracking range, with 10 % to spare: rate ≥ 4.4 · top · (H + 1),
+        // which also keeps the pair correction's series within 10⁻⁴
+        // (`demod::pair_correction_q16`). In integers: rate in Hz · 10 000
+        // against 44 · top in mHz · bins, both below 2^32 for validated
+        // rates and at most 5 bins. (For H = 0 this is 291 Hz, below the
+        // lowest rate accepted anyway.)
         let top_mhz = self.tracking_range_mhz().1;
         let bins = harmonics.min(crate::detector::MAX_HARMONICS) as u32 + 1;
-        let need = 22 * top_mhz * bins;
+        let need = 44 * top_mhz * bins;
         if self.sample_rate_hz * 10_000 < need {
             return Err(ConfigError::TooFewSamplesPerCycle {
                 sample_rate_hz: self.sample_rate_hz,
@@ -642,16 +646,16 @@ mod tests {
                 max: ConfigValue::Float(1000.0),
             })
         );
-        // 3 bins up to 66 Hz: 2.2 · 66 · 3 = 435.6 Hz, so 436 Hz.
+        // 3 bins up to 66 Hz: 4.4 · 66 · 3 = 871.2 Hz, so 872 Hz.
         let e = Config::touch().with_sample_rate(400).validate(2);
         assert_eq!(
             e,
             Err(ConfigError::TooFewSamplesPerCycle {
                 sample_rate_hz: 400,
-                min_rate_hz: 436,
+                min_rate_hz: 872,
             })
         );
-        assert!(Config::touch().with_sample_rate(436).validate(2).is_ok());
-        assert!(Config::touch().with_sample_rate(435).validate(2).is_err());
+        assert!(Config::touch().with_sample_rate(872).validate(2).is_ok());
+        assert!(Config::touch().with_sample_rate(871).validate(2).is_err());
     }
 }

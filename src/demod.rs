@@ -36,8 +36,8 @@
 //! mean, within 1/32 code) for the next cycle. The first cycle uses the
 //! mid-scale code as its DC.
 
-use crate::fixed::{mul_wide, mul_wide_signed};
-use crate::nco::{half_turn, sin_cos_q14};
+use crate::fixed::{div_rem_u32, mul_wide, mul_wide_signed};
+use crate::nco::half_turn;
 
 /// One quadrature pair, Q8 ADC codes of amplitude.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
@@ -78,10 +78,12 @@ pub const PRODUCT_SHIFT: u32 = 10;
 /// `n = 0`). Callers keep it while `n` repeats, so the division runs only
 /// when the cycle length changes.
 pub const fn reciprocal(n: u32) -> u32 {
-    match u32::MAX.checked_div(n) {
-        Some(r) => r,
-        None => 0,
+    if n == 0 {
+        return 0;
     }
+    // Shift-subtract on cores without a divide instruction (no library
+    // division linked), `/` elsewhere.
+    div_rem_u32(u32::MAX, n).0
 }
 
 /// `1/cos(π·h·s)` in Q16, times 16 384/16 383 (the table's peak is 16 383), for the
@@ -281,26 +283,32 @@ impl<const H: usize> DemodState<H> {
     }
 
     /// Accumulates one pair with gated sum `v` (below 2^17) at midpoint
-    /// phase `mid`.
-    #[inline(always)]
+    /// phase `mid` (the frame path: one group at a time).
     pub fn push_pair(&mut self, v: u32, mid: u32) {
-        let mut lane = self.lane();
-        let xc = (v as i32).wrapping_sub(lane.dc2);
-        lane.push_pair(xc, half_turn(mid), mid);
-        self.store(&lane, 1);
+        let xc = (v as i32).wrapping_sub(2 * i32::from(self.dc));
+        self.accumulate(xc, mid, v);
     }
 
     /// Accumulates a lone sample `x` (the last of a cycle of odd length) at
     /// its own phase `phase`.
     pub fn push_single(&mut self, x: u16, phase: u32) {
         let xc = i32::from(x) - i32::from(self.dc);
-        let (s, c) = sin_cos_q14(phase);
-        mac(&mut self.acc, xc, s, c);
+        self.accumulate(xc, phase, u32::from(x));
+    }
+
+    /// One group on the frame path: `xc` (the group's sum less its DC) at
+    /// reference phase `phase`, `v` into the cycle's sum. Out of line: one
+    /// copy serves pairs and lone samples (the block path has its own, in
+    /// registers).
+    #[inline(never)]
+    fn accumulate(&mut self, xc: i32, phase: u32, v: u32) {
+        let (s, c, m) = half_turn(phase);
+        mac(&mut self.acc, (xc ^ m).wrapping_sub(m), s, c);
         for (order, acc) in (2u32..).zip(self.harm.iter_mut()) {
-            let (s, c) = sin_cos_q14(phase.wrapping_mul(order));
-            mac(acc, xc, s, c);
+            let (s, c, m) = half_turn(phase.wrapping_mul(order));
+            mac(acc, (xc ^ m).wrapping_sub(m), s, c);
         }
-        self.sum = self.sum.wrapping_add(u32::from(x));
+        self.sum = self.sum.wrapping_add(v);
     }
 
     /// Ends a cycle of `n` samples taken at phase step `step`: returns the

@@ -118,8 +118,13 @@ pub struct Frontend<const N: usize, const H: usize> {
 impl<const N: usize, const H: usize> Frontend<N, H> {
     /// Validates `cfg` and builds the front end. Never panics.
     pub fn new(cfg: &Config) -> Result<Self, ConfigError> {
-        const { assert!(N >= 1 && N <= MAX_CHANNELS && H <= MAX_HARMONICS) };
         cfg.validate(H)?;
+        Ok(Self::build(cfg))
+    }
+
+    /// Builds the front end from a config that has been validated.
+    fn build(cfg: &Config) -> Self {
+        const { assert!(N >= 1 && N <= MAX_CHANNELS && H <= MAX_HARMONICS) };
         let tracker = MainsTracker::new(cfg);
         // Mid-scale of an unsigned converter; the first cycle's mean
         // replaces it.
@@ -128,7 +133,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             0 => 0,
             len => len / 2 + 1,
         };
-        Ok(Self {
+        Self {
             tracker,
             impulse: [ImpulseState::new(); N],
             demod: [DemodState::new(mid); N],
@@ -139,13 +144,26 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             spike_floor: cfg.spike_floor_codes,
             adc_bits: cfg.adc_bits,
             signed: false,
-        })
+        }
     }
 
     /// Takes one sample per channel. Returns the cycle's I/Q when this
     /// sample completed a mains cycle. Never panics.
     #[inline]
     pub fn push_frame<S: AdcSample>(&mut self, frame: &[S; N]) -> Option<Cycle<N, H>> {
+        let mut out = None;
+        self.push_frame_with(frame, |c| out = Some(*c));
+        out
+    }
+
+    /// [`push_frame`](Self::push_frame) handing the completed cycle to
+    /// `on_cycle` by reference (no copy of the `Cycle`). Never panics.
+    #[inline]
+    pub fn push_frame_with<S: AdcSample>(
+        &mut self,
+        frame: &[S; N],
+        on_cycle: impl FnOnce(&Cycle<N, H>),
+    ) {
         let phase = self.tracker.phase();
         let step = self.tracker.step();
         if self.tracker.samples_in_cycle() & 1 != 0 {
@@ -156,27 +174,22 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             self.hold_frame(frame);
         }
         let n = self.tracker.advance();
-        if n == 0 {
-            return None;
+        if n != 0 {
+            on_cycle(&self.end_cycle(n, S::SIGNED));
         }
-        Some(self.end_cycle(n, S::SIGNED))
     }
 
     /// The second sample of a pair per channel, at phase `phase`: the pair
     /// through the gate and the demodulator at its midpoint.
     fn pair_frame<S: AdcSample>(&mut self, frame: &[S; N], phase: u32, step: u32) {
         let mid = phase.wrapping_sub(step >> 1);
-        let table = half_turn(mid);
         let max_len = self.spike_groups;
         let stages = self.impulse.iter_mut().zip(self.demod.iter_mut());
         for (x, (gate, dem)) in frame.iter().zip(stages) {
             // Taking the pending sample clears it (0 whenever no pair is
             // open), so the state is the same whichever path filled it.
             let sum = u32::from(dem.take_pending()) + u32::from(x.offset_code());
-            let v = gate.gate(sum, (sum >> 1) as u16, 1, max_len);
-            let mut d = dem.lane();
-            d.push_pair((v as i32).wrapping_sub(d.dc2()), table, mid);
-            dem.store(&d, 1);
+            dem.push_pair(gate.gate(sum, (sum >> 1) as u16, 1, max_len), mid);
         }
     }
 
@@ -797,9 +810,10 @@ impl<const N: usize, const H: usize> Detector<N, H> {
     /// Validates `config` and builds the detector; the error names the
     /// field that is wrong. Never panics.
     pub fn new(config: Config) -> Result<Self, ConfigError> {
-        // `Frontend::new` validates; the back end is built in place.
+        // Validated once; both halves are built in place.
+        config.validate(H)?;
         Ok(Self {
-            front: Frontend::new(&config)?,
+            front: Frontend::build(&config),
             back: Backend::build(&config),
         })
     }
@@ -808,9 +822,9 @@ impl<const N: usize, const H: usize> Detector<N, H> {
     /// one per channel per mains cycle). Never panics.
     #[inline]
     pub fn push_frame<S: AdcSample>(&mut self, frame: &[S; N], emit: impl FnMut(Event)) {
-        if let Some(cycle) = self.front.push_frame(frame) {
-            self.back.process(&cycle, emit);
-        }
+        let back = &mut self.back;
+        self.front
+            .push_frame_with(frame, |cycle| back.process(cycle, emit));
     }
 
     /// Takes a block of interleaved samples (`ch0, ch1, …, ch0, ch1, …`),

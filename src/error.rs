@@ -55,7 +55,8 @@ pub enum ConfigError {
     /// The sample rate (field `sample_rate_hz`) is too low for the
     /// demodulated bins: every bin (the fundamental and the `H` extra
     /// harmonics) must lie below the Nyquist frequency at the top of the
-    /// tracking range with 10 % to spare, `rate ≥ 2.2 · top · (H + 1)`.
+    /// tracking range with 10 % to spare; the demodulator works on pairs
+    /// of samples, so `rate ≥ 4.4 · top · (H + 1)`.
     TooFewSamplesPerCycle {
         /// The rate given, in hertz.
         sample_rate_hz: u32,

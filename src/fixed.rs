@@ -303,16 +303,27 @@ pub fn atan2_turns(y: i32, x: i32) -> u32 {
 pub const fn mul_wide(a: u32, b: u32) -> u64 {
     #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
     {
+        mul_wide_v6m(a, b)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        a as u64 * b as u64
+    }
+}
+
+/// [`mul_wide`] on ARMv6-M: four 16 × 16-bit products, out of line (one
+/// copy of its 15 instructions serves every caller; it runs a few times a
+/// cycle, never per sample).
+#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+#[inline(never)]
+const fn mul_wide_v6m(a: u32, b: u32) -> u64 {
+    {
         let (al, ah) = (a & 0xffff, a >> 16);
         let (bl, bh) = (b & 0xffff, b >> 16);
         let (mid, c1) = (al * bh).overflowing_add(ah * bl);
         let (lo, c2) = (al * bl).overflowing_add(mid << 16);
         let hi = ah * bh + (mid >> 16) + ((c1 as u32) << 16) + c2 as u32;
         ((hi as u64) << 32) | lo as u64
-    }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
-    {
-        a as u64 * b as u64
     }
 }
 

@@ -61,8 +61,9 @@ impl ImpulseState {
     /// Passes one group through the gate: `sum` is the group's sum, `m`
     /// its mean and `shift` the log2 of its size (1 for a pair, 0 for a
     /// lone sample). Returns the sum to demodulate: `sum`, or the held mean
-    /// `<< shift`. Never panics.
-    #[inline(always)]
+    /// `<< shift`. Never panics. Out of line: the frame path's one copy for
+    /// pairs and lone samples (the block path's pairs use [`BlockGate`]).
+    #[inline(never)]
     pub fn gate(&mut self, sum: u32, m: u16, shift: u32, max_len: u8) -> u32 {
         // In u32, so no masking to 16 bits is needed between steps.
         let step = u32::from(m).abs_diff(u32::from(self.last));

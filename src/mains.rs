@@ -32,7 +32,7 @@
 
 use crate::config::{Config, MainsMode, RANGE_50, RANGE_60};
 use crate::demod::Iq;
-use crate::fixed::{atan2_turns, mul_wide_signed, phase_step, step_to_hz};
+use crate::fixed::{atan2_turns, mul_wide, mul_wide_signed, phase_step, step_to_hz};
 
 /// Which mains system the tracker has settled on.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -166,10 +166,9 @@ impl MainsTracker {
     /// at construction and whenever the step changes (at cycle ends, at
     /// most once a cycle and in lock once every eight).
     fn retune(&mut self) {
-        let step = self.step.max(1);
-        let q = u32::MAX / step;
+        let (q, r) = crate::fixed::div_rem_u32(u32::MAX, self.step.max(1));
         self.div_q = q.min(u32::from(u16::MAX)) as u16;
-        self.div_r = u32::MAX - q.wrapping_mul(step);
+        self.div_r = r;
     }
 
     /// Sets the length of the cycle that starts at the present phase `p`:
@@ -301,25 +300,26 @@ impl MainsTracker {
         self.weak_cycles = 0;
         let same_ref = self.prev_ref == ch;
         self.prev_ref = ch;
-        if self.fine && same_ref {
+        let fine = self.fine && same_ref;
+        if fine {
             // Fine stage: only the block ends need the phase, so the
             // CORDIC runs once every 8 cycles while locked.
             self.block_len += 1;
             if u32::from(self.block_len) < (1 << BLOCK_SHIFT) {
                 return;
             }
-            let phi = atan2_turns(z.q.saturating_neg(), z.i);
-            let e = (phi.wrapping_sub(self.block_phi) as i32) >> BLOCK_SHIFT;
-            self.block_phi = phi;
-            self.block_len = 0;
-            self.prev_phi = phi;
-            self.correct(e);
-            self.fine_verdict(e.unsigned_abs());
-            return;
         }
         let phi = atan2_turns(z.q.saturating_neg(), z.i);
         let prev = self.prev_phi;
         self.prev_phi = phi;
+        if fine {
+            let e = (phi.wrapping_sub(self.block_phi) as i32) >> BLOCK_SHIFT;
+            self.block_phi = phi;
+            self.block_len = 0;
+            self.correct(e);
+            self.fine_verdict(e.unsigned_abs());
+            return;
+        }
         if !same_ref {
             self.block_phi = phi;
             self.block_len = 0;
@@ -342,10 +342,11 @@ impl MainsTracker {
         let pinned = wanted != step && e.unsigned_abs() >= COARSE_E;
         if pinned {
             self.pinned_cycles = self.pinned_cycles.saturating_add(1);
-            // f_mains = f_ref · (1 + e), in mHz.
-            let ref_mhz = (u64::from(self.step) * u64::from(self.rate_hz) * 1000) >> 32;
-            let app = ref_mhz as i64 + ((ref_mhz as i64 * i64::from(e)) >> 32);
-            self.apparent_mhz = app.clamp(0, i64::from(u32::MAX)) as u32;
+            // f_mains = f_ref · (1 + e), in mHz (rate · 1000 ≤ 5·10^7 and
+            // f_ref ≤ 66 000 mHz fit u32; |e| < 2^31 keeps the sum in i64).
+            let ref_mhz = (mul_wide(self.step, self.rate_hz * 1000) >> 32) as u32;
+            let app = i64::from(ref_mhz) + (mul_wide_signed(e, ref_mhz) >> 32);
+            self.apparent_mhz = app.max(0) as u32;
         } else {
             self.pinned_cycles = 0;
         }

@@ -83,14 +83,15 @@ fn each_invalid_field_is_named() {
 
 #[test]
 fn harmonic_bins_need_the_rate_for_them() {
-    // Three bins at up to 66 Hz (automatic mode) reach 198 Hz: 400 Hz
-    // sampling is below 2.2 times that.
-    let e = Detector::<1, 2>::new(Config::touch().with_sample_rate(400)).err();
+    // Three bins at up to 66 Hz (automatic mode) reach 198 Hz: the
+    // demodulator's pairs (half the sample rate) must sample that at 2.2
+    // times, so 871 Hz is too slow and 872 Hz enough.
+    let e = Detector::<1, 2>::new(Config::touch().with_sample_rate(871)).err();
     assert!(
         matches!(e, Some(ConfigError::TooFewSamplesPerCycle { .. })),
         "{e:?}"
     );
-    assert!(Detector::<1, 2>::new(Config::touch().with_sample_rate(500)).is_ok());
+    assert!(Detector::<1, 2>::new(Config::touch().with_sample_rate(872)).is_ok());
 }
 
 fn any_config() -> impl Strategy<Value = Config> {
