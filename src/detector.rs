@@ -29,7 +29,7 @@ use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
 use crate::fixed::{isqrt_u32_from, isqrt_u64, mul_q8};
 use crate::impulse::{BlockGate, BlockHold, ImpulseState};
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
-use crate::nco::half_turn;
+use crate::nco::sin_cos_q14;
 use crate::panel::{strongest, PanelTuning};
 
 /// An integer ADC sample type the detector accepts.
@@ -166,14 +166,15 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     ) {
         let phase = self.tracker.phase();
         let step = self.tracker.step();
+        let (next, wraps) = phase.overflowing_add(step);
         if self.tracker.samples_in_cycle() & 1 != 0 {
             self.pair_frame(frame, phase, step);
-        } else if phase.checked_add(step).is_none() {
+        } else if wraps {
             self.single_frame(frame, phase);
         } else {
             self.hold_frame(frame);
         }
-        let n = self.tracker.advance();
+        let n = self.tracker.advance_to(next, wraps);
         if n != 0 {
             on_cycle(&self.end_cycle(n, S::SIGNED));
         }
@@ -294,7 +295,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
                 max_len,
                 (mid, step2),
             );
-            d.push_pair(xc, half_turn(mid), mid);
+            d.push_pair(xc, sin_cos_q14(mid), mid);
             mid = mid.wrapping_add(step2);
         }
         gate.store_block(&g, &hold, mid, dc);
@@ -325,7 +326,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let chunks = run.chunks_exact(2 * N);
         let pairs = chunks.len() as u32;
         for chunk in chunks {
-            let table = half_turn(mid);
+            let table = sin_cos_q14(mid);
             let (first, second) = chunk.split_at(N);
             let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
             for ((a, b), ((g, h), d)) in first.iter().zip(second.iter()).zip(stages) {
@@ -351,11 +352,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let index = self.cycle_start.wrapping_add(u64::from(n) - 1);
         self.cycle_start = self.cycle_start.wrapping_add(u64::from(n));
         let span = 1i32 << self.adc_bits;
-        let rails = if signed {
-            (32_768 - span / 2, 32_767 + span / 2)
-        } else {
-            (0, span - 1)
-        };
+        let low = if signed { 32_768 - span / 2 } else { 0 };
+        let rails = (low, low + span - 1);
         let mut cycle = Cycle {
             end_sample: index,
             samples: n,
@@ -385,7 +383,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             *dc = dem.dc();
             *flat = gate.end_cycle(self.spike_groups, self.spike_floor);
         }
-        self.tracker.end_cycle(cycle.fund.iter().copied());
+        self.tracker.end_cycle(&cycle.fund);
         cycle.health = self.tracker.health();
         cycle
     }

@@ -295,9 +295,9 @@ pub fn atan2_turns(y: i32, x: i32) -> u32 {
 /// is a call to the 64 × 64-bit `__aeabi_lmul` (about 40 instructions).
 /// On those cores (recognised, among ARM targets, by their lack of 32-bit
 /// compare-and-swap atomics: no stable `cfg` names the architecture
-/// version) this builds the product from four 16 × 16-bit products inline
-/// instead; elsewhere (one `umull` on Cortex-M3/M4/M7) it is the plain
-/// product. Both give the same bits (checked by a unit test on the host
+/// version) this builds the product from four 16 × 16-bit products
+/// instead, in one out-of-line copy; elsewhere (one `umull` on
+/// Cortex-M3/M4/M7) it is the plain product, inline. Both give the same bits (checked by a unit test on the host
 /// and by the golden vectors on both emulated cores).
 #[inline(always)]
 pub const fn mul_wide(a: u32, b: u32) -> u64 {
@@ -332,16 +332,24 @@ const fn mul_wide_v6m(a: u32, b: u32) -> u64 {
 pub const fn mul_wide_signed(a: i32, b: u32) -> i64 {
     #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
     {
-        let m = mul_wide(a.unsigned_abs(), b) as i64;
-        if a < 0 {
-            -m
-        } else {
-            m
-        }
+        mul_wide_signed_v6m(a, b)
     }
     #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
     {
         a as i64 * b as i64
+    }
+}
+
+/// [`mul_wide_signed`] on ARMv6-M: the magnitude's product, negated for
+/// a negative `a`; out of line like [`mul_wide`] there.
+#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+#[inline(never)]
+const fn mul_wide_signed_v6m(a: i32, b: u32) -> i64 {
+    let m = mul_wide(a.unsigned_abs(), b) as i64;
+    if a < 0 {
+        -m
+    } else {
+        m
     }
 }
 

@@ -232,7 +232,14 @@ impl MainsTracker {
     #[inline(always)]
     pub fn advance(&mut self) -> u32 {
         let (p, wrapped) = self.phase.overflowing_add(self.step);
-        self.phase = p;
+        self.advance_to(p, wrapped)
+    }
+
+    /// [`advance`](Self::advance) with its sum already formed by the
+    /// caller: `(next, wrapped) = phase.overflowing_add(step)`.
+    #[inline(always)]
+    pub fn advance_to(&mut self, next: u32, wrapped: bool) -> u32 {
+        self.phase = next;
         self.count += 1;
         if wrapped {
             let n = self.count;
@@ -243,10 +250,10 @@ impl MainsTracker {
         }
     }
 
-    /// Learns from the cycle just ended. `fund` yields each channel's
+    /// Learns from the cycle just ended. `fund` holds each channel's
     /// fundamental; the strongest channel (by |i| + |q|) is the reference.
     /// Per cycle.
-    pub fn end_cycle(&mut self, fund: impl Iterator<Item = Iq>) {
+    pub fn end_cycle(&mut self, fund: &[Iq]) {
         let step = self.step;
         self.learn(fund);
         self.settle_lock();
@@ -264,27 +271,31 @@ impl MainsTracker {
         };
     }
 
-    fn learn(&mut self, fund: impl Iterator<Item = Iq>) {
+    fn learn(&mut self, fund: &[Iq]) {
         // The reference channel is sticky: another channel takes over only
         // when it is twice as strong (or the present one is gone), so that
         // pads of similar strength do not swap every cycle and restart the
-        // phase measurement.
-        let mut best: Option<(u8, Iq, u32)> = None;
-        let mut current: Option<(u8, Iq, u32)> = None;
-        for (ch, z) in (0u8..).zip(fund) {
-            let l1 = z.i.unsigned_abs().saturating_add(z.q.unsigned_abs());
+        // phase measurement. By index and |i| + |q| only (the first of
+        // equal strongest wins).
+        let l1_of = |z: &Iq| z.i.unsigned_abs().saturating_add(z.q.unsigned_abs());
+        let (mut best, mut best_l1) = (0u8, 0u32);
+        let mut current: Option<u32> = None;
+        for (ch, z) in (0u8..).zip(fund.iter()) {
+            let l1 = l1_of(z);
             if ch == self.prev_ref {
-                current = Some((ch, z, l1));
+                current = Some(l1);
             }
-            if best.is_none_or(|(_, _, b)| l1 > b) {
-                best = Some((ch, z, l1));
+            if ch == 0 || l1 > best_l1 {
+                (best, best_l1) = (ch, l1);
             }
         }
-        let chosen = match (current, best) {
-            (Some(c), Some(b)) if b.2 / 2 <= c.2 => Some(c),
-            (_, b) => b,
+        let (ch, l1) = match current {
+            Some(c) if best_l1 / 2 <= c => (self.prev_ref, c),
+            _ => (best, best_l1),
         };
-        let Some((ch, z, l1)) = chosen else { return };
+        let Some(z) = fund.get(usize::from(ch)) else {
+            return;
+        };
         if l1 < self.min_l1 || l1 == 0 {
             // Too weak to learn from: hold frequency, restart measuring;
             // after a second of that the lock is no longer known.

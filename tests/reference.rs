@@ -80,15 +80,12 @@ fn amplitudes_match_rustfft_bins_on_the_same_buffer() {
             let ours = [amp(c.fund[0]), amp(c.harm[0][0]), amp(c.harm[0][1])];
             for (k, got) in ours.iter().enumerate() {
                 let want = bin(k + 1);
-                // Tolerance: the table's ±π/1024 phase steps and the
-                // previous-cycle DC estimate, 0.1 % plus a tenth of a code;
-                // in a harmonic bin, the phase steps of its reference also
-                // let the strong fundamental through: an error of up to
-                // π/1024 rad in the reference at each pair midpoint, so at
-                // most A₁·π/1024 when they all line up (the demodulator
-                // works on pairs: half as many products as samples, which
-                // averages these errors less than sample by sample did;
-                // seen here: up to 0.4 codes next to 300);
+                // Tolerance: the table's phase steps and the previous-cycle
+                // DC estimate, 0.1 % plus a tenth of a code; in a harmonic
+                // bin, the phase steps of its reference also let the strong
+                // fundamental through: an error of up to π/512 rad (the
+                // table has 512 bins a turn) in the reference at each pair
+                // midpoint, so at most A₁·π/512 when they all line up;
                 // while tracking, the reference sits off the bin by the
                 // loop's jitter (a few parts in 10^5) and the strong
                 // fundamental leaks into the weaker harmonic bins: up to
@@ -96,7 +93,7 @@ fn amplitudes_match_rustfft_bins_on_the_same_buffer() {
                 let steps = if k == 0 {
                     0.0
                 } else {
-                    bin(1) * std::f64::consts::PI / 1024.0
+                    bin(1) * std::f64::consts::PI / 512.0
                 };
                 let leak = if hold || k == 0 { 0.0 } else { 1e-3 * bin(1) };
                 assert!(
