@@ -59,46 +59,38 @@
 //!
 //! | stage | thumbv7em (M4F) | thumbv6m (M0) |
 //! |---|---|---|
-//! | block loop: gate, sin/cos, two MACs, sum, phase (`block_sample_path`) | 23.0 | 52.4 |
-//! | front-end cycle end: scaling, DC, gate limit, mains tracker | 247 /cycle = 6.2 | 374 /cycle = 9.4 |
-//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 280 /cycle = 7.0 | 547 /cycle = 13.7 |
-//! | run bookkeeping (wrap count, lanes in and out, the callback) | ≈ 2 | (in the block loop figure) |
-//! | **`Detector::push_block`** (`insn_per_sample`) | **37.3** (budget 25) | **76.1** (budget 60) |
+//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 14.5 | 24.0 |
+//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 294 /cycle = 7.3 | 502 /cycle = 12.5 |
+//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 281 /cycle = 7.0 | 560 /cycle = 14.0 |
+//! | **`Detector::push_block`** (`insn_per_sample`) | **30.6** (budget 25) | **52.6** (budget 60) |
 //!
-//! - The M4 block loop (from the disassembly) is 20 instructions a sample:
-//!   18 of work (load; subtract, compare, branch and subtract for the gate;
-//!   shift, add and two loads for sine and cosine from one index; subtract
-//!   for the DC; two multiplies with their shifted adds; the sum; the
-//!   phase; the loop count and branch) plus two reloads (DC and step): it
-//!   needs 14 live registers and Thumb-2 leaves 13 (r7 is the frame
-//!   pointer). The rest of the 23 is steps above the gate's watermark
-//!   (mostly in the first quarter of each cycle) and the setup of each run.
-//!   On the M0 only r0–r7 serve loads and 3-operand arithmetic, so about
-//!   half of its loop is stack traffic.
-//! - Inside the M4 per-cycle figures (an execution trace, `qemu-system-arm
-//!   -singlestep -d exec`, instructions counted by symbol over 80 steady
-//!   cycle ends): `Frontend::end_cycle` itself 126 (scaling, DC, gate
-//!   limit, the `Cycle`), `MainsTracker::end_cycle` 82, the CORDIC 32 (257
-//!   once every 8 cycles). `Backend::process`, traced the same way over
-//!   400 cycles (start-up included): `BaselineState::update` 68, the rest
-//!   (averaging, power, Newton square root, noise sample, faults,
-//!   decision, events) 197; on the M0, the bit-by-bit square root 142,
-//!   `BaselineState::update` 99, the Q-format products 32, the rest 247.
-//! - The per-cycle work alone is 13.2 instructions a sample on the M4 and
-//!   23.0 on the M0 at 40 samples a cycle: with the M4 loop at 19–23, the
-//!   25 budget would leave the whole back end, the tracker and the cycle
-//!   end about 80–240 instructions a cycle. The budgets are not met; they
-//!   are kept as the targets.
-//! - Flash (thumbv6m, opt-level "s", 1 channel, 9 632 B against 8 192):
-//!   sine table 2 560 (1¼ turns of 1024 entries); `Backend::process`
-//!   1 612 (faults, decision and averaging inlined); the firmware loop
-//!   with `push_frame` and construction (and `Config::validate`) inlined
-//!   1 420; `Frontend::end_cycle` 1 072; the validation table 400 and
-//!   field accessor 150; `BaselineState::update` 404; 32-bit division 398
-//!   (for the front end's reciprocal); `MainsTracker::correct` 252;
-//!   `memclr4` 158 (zeroing front-end fields at construction); 64-bit
-//!   multiply 74. No soft float, no 64-bit division or shift and no
-//!   `memcpy` is linked any more.
+//! - The M4 loop (disassembly) is 22 instructions a pair, 11 a sample: two
+//!   loads and an add for the pair, the DC and the halving, subtract,
+//!   compare, branch and subtract for the gate, shift, address and two
+//!   loads for sine and cosine, two multiplies with their shifted adds, the
+//!   sum, the phase, the loop test, and two reloads (the end pointer and
+//!   the table address: the loop wants 14 registers and Thumb-2 leaves
+//!   13). An execution trace (`CORTEXM_TRACE=1`, see DEVELOPERS.md) puts
+//!   the rest of the 14.5 in the gate's watermark raises (about 4 a cycle,
+//!   20 instructions each, while the watermark climbs to the cycle's
+//!   largest step) and the setup of each run (about 100 instructions, 1.2
+//!   runs a cycle with 200-frame blocks).
+//! - Per cycle on the M4, from the same trace: `Frontend::end_cycle` with
+//!   the tracker about 180 (scaling with the pair correction, DC, gate
+//!   limit, the `Cycle`, the loop filter; the CORDIC once every 8 cycles);
+//!   `Backend::process` about 280. Meeting 25 a sample needs the per-cycle
+//!   work near 300 instructions, or about 4 fewer a sample in the loop:
+//!   the M4 budget is not met yet (listed open in `.ci/run`).
+//! - Flash (thumbv6m, opt-level "s", 1 channel, 7 944 B against 8 192):
+//!   the firmware loop with `push_frame` and construction inlined 1 444;
+//!   `Backend::process` 1 164; `Frontend::end_cycle` 1 152 (the tracker
+//!   and the CORDIC inlined); the sine table 1 280; `BaselineState::update`
+//!   404; the validation table 400 and field accessor 150;
+//!   `MainsTracker::correct` 168; `phase_step` 160; `memclr8` 158 (zeroing
+//!   at construction). No soft float, no library division, no 64-bit
+//!   shift and no `memcpy` is linked. Four and eight channels take 10 328
+//!   and 10 500 B (panel rules, per-channel loops, and `memcpy` for the
+//!   wider `Cycle`): over 8 KiB, listed open.
 //!
 //! On the host this example only prints how to run it.
 #![cfg_attr(target_os = "none", no_std, no_main)]

@@ -63,7 +63,9 @@ pub enum PanelMode {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Config {
     /// ADC sample rate per channel in hertz, 400 to 50 000. Need not be a
-    /// multiple of the mains frequency.
+    /// multiple of the mains frequency. With `H` harmonic bins it must be
+    /// at least 4.4 · f_top · (H + 1) (f_top the top of the tracking range:
+    /// 66 Hz in automatic mode), as samples are demodulated in pairs.
     pub sample_rate_hz: u32,
     /// ADC resolution in bits, 8 to 16. Codes are `0..2^bits` for `u16`
     /// input and `-2^(bits-1)..2^(bits-1)` for `i16` input.
@@ -73,7 +75,9 @@ pub struct Config {
     /// Touch or field events.
     pub profile: Profile,
     /// Longest spike, in samples, that impulse rejection removes (0 turns
-    /// rejection off, at most 8). Longer disturbances pass through.
+    /// rejection off, at most 8). Longer disturbances pass through. The
+    /// gate works on pairs of samples and holds up to `⌊len/2⌋ + 1` pairs,
+    /// which covers a spike of `len` samples wherever it falls.
     pub spike_max_len: u8,
     /// Smallest sample-to-sample step, in ADC codes, that can count as a
     /// spike, whatever the signal (0 to 65 535).
