@@ -89,12 +89,12 @@ impl ImpulseState {
     /// The block path's gate for a run whose first pair is at position
     /// (reference phase) `start`: a run of held groups at the end of the
     /// last call continues there.
-    #[inline(always)]
     ///
     /// The block path works on pair sums less twice the demodulator's DC
     /// estimate `dc` (`xc = v − 2·dc`), so the gate's means there are
     /// `m − dc` (exactly, as `2·dc` is even); the gate only compares
     /// differences, so its decisions are the same.
+    #[inline(always)]
     pub const fn block(&self, start: u32, dc: u16) -> (BlockGate, BlockHold) {
         // The largest step so far is within the limit unless a step above
         // it was accepted; either way it is a valid watermark only up to
