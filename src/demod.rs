@@ -201,6 +201,16 @@ fn mac(acc: &mut [i32; 2], xc: i32, s: i16, c: i16) {
     *q = q.wrapping_add(xc.wrapping_mul(i32::from(s)) >> PRODUCT_SHIFT);
 }
 
+/// The harmonic bins' products for `xc` at reference phase `phase`: order
+/// `h` (2 to H + 1) at `h·phase`.
+#[inline(always)]
+fn mac_harmonics<const H: usize>(harm: &mut [[i32; 2]; H], xc: i32, phase: u32) {
+    for (order, acc) in (2u32..).zip(harm.iter_mut()) {
+        let (s, c) = sin_cos_q14(phase.wrapping_mul(order));
+        mac(acc, xc, s, c);
+    }
+}
+
 impl<const H: usize> DemodLane<H> {
     /// Twice the DC estimate: a pair sum less this is the `xc` that
     /// [`push_pair`](Self::push_pair) takes.
@@ -217,10 +227,7 @@ impl<const H: usize> DemodLane<H> {
         let mut f = [self.i, self.q];
         mac(&mut f, xc, s, c);
         [self.i, self.q] = f;
-        for (order, acc) in (2u32..).zip(self.harm.iter_mut()) {
-            let (s, c) = sin_cos_q14(mid.wrapping_mul(order));
-            mac(acc, xc, s, c);
-        }
+        mac_harmonics(&mut self.harm, xc, mid);
         self.sum = self.sum.wrapping_add(xc);
     }
 }
@@ -302,10 +309,7 @@ impl<const H: usize> DemodState<H> {
     fn accumulate(&mut self, xc: i32, phase: u32, v: u32) {
         let (s, c) = sin_cos_q14(phase);
         mac(&mut self.acc, xc, s, c);
-        for (order, acc) in (2u32..).zip(self.harm.iter_mut()) {
-            let (s, c) = sin_cos_q14(phase.wrapping_mul(order));
-            mac(acc, xc, s, c);
-        }
+        mac_harmonics(&mut self.harm, xc, phase);
         self.sum = self.sum.wrapping_add(v);
     }
 
