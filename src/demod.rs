@@ -19,7 +19,10 @@
 //! `I += (xc · T_cos(θ_mid)) >> 10`, `Q += (xc · T_sin(θ_mid)) >> 10`
 //! (Q14 table values, arithmetic shift: floor; see [`PRODUCT_SHIFT`]), and
 //! for harmonic h the same with `h·θ_mid`; `S += v`. A lone sample `x`
-//! enters the same sums with `x − dc` at its own phase.
+//! enters the same sums with `x − dc` at its own phase. On ARMv7E-M the
+//! same products are computed as `((xc·2^6) · T) >> 16`, one `smlawb` or
+//! `smlawt` each from a packed sine/cosine word ([`WIDE_MAC`]): the same
+//! bits with fewer instructions.
 //!
 //! `θ` is the shared oscillator phase; a cycle ends when it wraps, so every
 //! window spans one whole turn of the reference at any sample rate. At the
@@ -36,7 +39,7 @@
 //! mid-scale code as its DC.
 
 use crate::fixed::{div_rem_u32, mul_wide, mul_wide_signed};
-use crate::nco::sin_cos_q14;
+use crate::nco::{reference, RefQ14};
 
 /// One quadrature pair, Q8 ADC codes of amplitude.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
@@ -72,6 +75,22 @@ impl Iq {
 /// quantisation noise of the ADC itself (0.29 codes per sample, 0.065 codes
 /// of amplitude at 40 samples a cycle).
 pub const PRODUCT_SHIFT: u32 = 10;
+
+/// Whether the multiply-accumulate takes the "wide" form: `x` pre-scaled by
+/// 2^[`LANE_SHIFT`] and the product's top 32 bits of 48,
+/// `((x·2^6) · t) >> 16`, which ARMv7E-M does in one `smlawb`/`smlawt`
+/// with the table value a halfword of a packed word ([`RefQ14`]), instead of
+/// `(x · t) >> 10` (a multiply and a shifted add). The two are the same
+/// number: `⌊2^6·x·t / 2^16⌋ = ⌊x·t / 2^10⌋` (tested over the whole range).
+/// Taken on ARMv7E-M and ARMv8-M Mainline (`humsense_dsp`, set by the build
+/// script from the target) and on 64-bit hosts; ARMv6-M and ARMv7-M keep
+/// the narrow form, where a 64-bit product would cost more.
+pub const WIDE_MAC: bool = cfg!(any(humsense_dsp, target_pointer_width = "64"));
+
+/// The left shift of the value the accumulators take (`x = xc << LANE_SHIFT`):
+/// `16 − PRODUCT_SHIFT` in the wide form, 0 in the narrow one. At most
+/// 131 070 · 2^6 < 2^23 in magnitude.
+pub const LANE_SHIFT: u32 = if WIDE_MAC { 16 - PRODUCT_SHIFT } else { 0 };
 
 /// `⌊(2^32 − 1) / n⌋`, the per-cycle reciprocal of the sample count (0 for
 /// `n = 0`). Callers keep it while `n` repeats, so the division runs only
@@ -192,43 +211,66 @@ pub struct DemodLane<const H: usize> {
     dc2: i32,
 }
 
-/// `i += (xc · c) >> 10`, `q += (xc · s) >> 10` (wrapping: see
-/// [`PRODUCT_SHIFT`] for why the true sum fits).
+/// `(xc · t) >> 10` for `x = xc << LANE_SHIFT`, in the target's form (see
+/// [`WIDE_MAC`]).
 #[inline(always)]
-fn mac(acc: &mut [i32; 2], xc: i32, s: i16, c: i16) {
-    let [i, q] = acc;
-    *i = i.wrapping_add(xc.wrapping_mul(i32::from(c)) >> PRODUCT_SHIFT);
-    *q = q.wrapping_add(xc.wrapping_mul(i32::from(s)) >> PRODUCT_SHIFT);
+fn product(x: i32, t: i16) -> i32 {
+    if WIDE_MAC {
+        product_wide(x, t)
+    } else {
+        product_narrow(x, t)
+    }
 }
 
-/// The harmonic bins' products for `xc` at reference phase `phase`: order
+/// `(x · t) >> 10`: a 32-bit multiply and a shifted add.
+#[inline(always)]
+const fn product_narrow(x: i32, t: i16) -> i32 {
+    x.wrapping_mul(t as i32) >> PRODUCT_SHIFT
+}
+
+/// `(x · t) >> 16` with `x` scaled by 2^6: the top 32 bits of a 48-bit
+/// product (`smlawb`/`smlawt` with the add).
+#[inline(always)]
+const fn product_wide(x: i32, t: i16) -> i32 {
+    ((x as i64 * t as i64) >> 16) as i32
+}
+
+/// `i += (xc · cos) >> 10`, `q += (xc · sin) >> 10` for `x = xc <<
+/// LANE_SHIFT` (wrapping: see [`PRODUCT_SHIFT`] for why the true sum fits).
+#[inline(always)]
+fn mac(acc: &mut [i32; 2], x: i32, r: RefQ14) {
+    let [i, q] = acc;
+    *i = i.wrapping_add(product(x, r.cos()));
+    *q = q.wrapping_add(product(x, r.sin()));
+}
+
+/// The harmonic bins' products for `x` at reference phase `phase`: order
 /// `h` (2 to H + 1) at `h·phase`.
 #[inline(always)]
-fn mac_harmonics<const H: usize>(harm: &mut [[i32; 2]; H], xc: i32, phase: u32) {
+fn mac_harmonics<const H: usize>(harm: &mut [[i32; 2]; H], x: i32, phase: u32) {
     for (order, acc) in (2u32..).zip(harm.iter_mut()) {
-        let (s, c) = sin_cos_q14(phase.wrapping_mul(order));
-        mac(acc, xc, s, c);
+        mac(acc, x, reference(phase.wrapping_mul(order)));
     }
 }
 
 impl<const H: usize> DemodLane<H> {
     /// Twice the DC estimate: a pair sum less this is the `xc` that
-    /// [`push_pair`](Self::push_pair) takes.
+    /// [`push_pair`](Self::push_pair) takes (scaled by 2^[`LANE_SHIFT`]).
     #[inline(always)]
     pub const fn dc2(&self) -> i32 {
         self.dc2
     }
 
-    /// Accumulates one pair given as `xc`, its gated sum less
-    /// [`dc2`](Self::dc2) (|xc| ≤ 131 070), at the midpoint phase `mid`,
-    /// whose table sine and cosine are `(s, c)` ([`sin_cos_q14`]).
+    /// Accumulates one pair given as `x = xc << LANE_SHIFT`, with `xc` its
+    /// gated sum less [`dc2`](Self::dc2) (|xc| ≤ 131 070), at the midpoint
+    /// phase `mid`, whose table reference is `r` ([`reference`]).
     #[inline(always)]
-    pub fn push_pair(&mut self, xc: i32, (s, c): (i16, i16), mid: u32) {
+    pub fn push_pair(&mut self, x: i32, r: RefQ14, mid: u32) {
         let mut f = [self.i, self.q];
-        mac(&mut f, xc, s, c);
+        mac(&mut f, x, r);
         [self.i, self.q] = f;
-        mac_harmonics(&mut self.harm, xc, mid);
-        self.sum = self.sum.wrapping_add(xc);
+        mac_harmonics(&mut self.harm, x, mid);
+        self.sum = self.sum.wrapping_add(x >> LANE_SHIFT);
     }
 }
 
@@ -307,9 +349,9 @@ impl<const H: usize> DemodState<H> {
     /// registers).
     #[inline(never)]
     fn accumulate(&mut self, xc: i32, phase: u32, v: u32) {
-        let (s, c) = sin_cos_q14(phase);
-        mac(&mut self.acc, xc, s, c);
-        mac_harmonics(&mut self.harm, xc, phase);
+        let x = xc << LANE_SHIFT;
+        mac(&mut self.acc, x, reference(phase));
+        mac_harmonics(&mut self.harm, x, phase);
         self.sum = self.sum.wrapping_add(v);
     }
 
@@ -502,6 +544,29 @@ mod tests {
                 (got - want).abs() < 1e-4 * want,
                 "{step} {h}: {got} vs {want}"
             );
+        }
+    }
+
+    #[test]
+    fn wide_and_narrow_products_agree() {
+        // ⌊2^6·x·t / 2^16⌋ = ⌊x·t / 2^10⌋ (floor division by a power of two
+        // composes: identity of integer arithmetic). Every table value
+        // against pair values spread over the whole range, both ends
+        // included, and a dense run around zero where the floors of
+        // negative products matter.
+        let mut xs: std::vec::Vec<i32> = (-131_070..=131_070).step_by(997).collect();
+        xs.extend(-3_000..=3_000);
+        xs.extend([-131_070, -131_069, 131_069, 131_070]);
+        for t in crate::nco::SINE_Q14.iter().copied() {
+            for &xc in &xs {
+                let want = (i64::from(xc) * i64::from(t)).div_euclid(1 << 10);
+                assert_eq!(i64::from(product_narrow(xc, t)), want, "{xc} {t}");
+                assert_eq!(
+                    i64::from(product_wide(xc << (16 - PRODUCT_SHIFT), t)),
+                    want,
+                    "{xc} {t}"
+                );
+            }
         }
     }
 

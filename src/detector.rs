@@ -22,14 +22,14 @@
 use crate::baseline::{BaselineState, BaselineTuning};
 use crate::config::Config;
 use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
-use crate::demod::{reciprocal, CycleScale, DemodState, Iq};
+use crate::demod::{reciprocal, CycleScale, DemodState, Iq, LANE_SHIFT};
 use crate::error::ConfigError;
 use crate::event::{Event, Faults};
 use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
 use crate::fixed::{isqrt_u32_from, isqrt_u64, mul_q8};
 use crate::impulse::{BlockGate, BlockHold, ImpulseState};
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
-use crate::nco::sin_cos_q14;
+use crate::nco::reference;
 use crate::panel::{strongest, PanelTuning};
 
 /// An integer ADC sample type the detector accepts.
@@ -285,17 +285,14 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let dc = dem.dc();
         let (mut g, mut hold) = gate.block(mid, dc);
         let mut d = dem.lane();
-        let dc2 = d.dc2();
+        // Pair sums less twice the DC, scaled as the accumulators take them.
+        let dc2 = d.dc2() << LANE_SHIFT;
         let (pairs, _) = run.as_chunks::<2>();
         for [a, b] in pairs {
             let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
-            let xc = g.pair(
-                &mut hold,
-                (v as i32).wrapping_sub(dc2),
-                max_len,
-                (mid, step2),
-            );
-            d.push_pair(xc, sin_cos_q14(mid), mid);
+            let x = ((v << LANE_SHIFT) as i32).wrapping_sub(dc2);
+            let x = g.pair(&mut hold, x, max_len, (mid, step2));
+            d.push_pair(x, reference(mid), mid);
             mid = mid.wrapping_add(step2);
         }
         gate.store_block(&g, &hold, mid, dc);
@@ -326,13 +323,14 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let chunks = run.chunks_exact(2 * N);
         let pairs = chunks.len() as u32;
         for chunk in chunks {
-            let table = sin_cos_q14(mid);
+            let table = reference(mid);
             let (first, second) = chunk.split_at(N);
             let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
             for ((a, b), ((g, h), d)) in first.iter().zip(second.iter()).zip(stages) {
                 let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
-                let xc = g.pair(h, (v as i32).wrapping_sub(d.dc2()), max_len, (mid, step2));
-                d.push_pair(xc, table, mid);
+                let x = ((v << LANE_SHIFT) as i32).wrapping_sub(d.dc2() << LANE_SHIFT);
+                let x = g.pair(h, x, max_len, (mid, step2));
+                d.push_pair(x, table, mid);
             }
             mid = mid.wrapping_add(step2);
         }

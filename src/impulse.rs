@@ -33,6 +33,8 @@
 //! compare and leaves the limit and the hold counter to the rare groups
 //! above the watermark.
 
+use crate::demod::LANE_SHIFT;
+
 /// Per-channel state of the impulse gate (8 bytes).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -192,9 +194,11 @@ pub struct BlockHold {
 
 impl BlockGate {
     /// The gate for the pair at position `pos` of a run, given as its sum
-    /// less twice the DC estimate, `xc` (see [`ImpulseState::block`]):
-    /// returns `xc`, or twice the held mean in the same terms; the same
-    /// decision as [`ImpulseState::gate`] with `shift = 1`. Positions are
+    /// less twice the DC estimate, `xc` (see [`ImpulseState::block`]),
+    /// scaled as the demodulator takes it: `x = xc << LANE_SHIFT`
+    /// ([`crate::demod::LANE_SHIFT`]). Returns `x`, or twice the held mean
+    /// in the same terms; the same decision as [`ImpulseState::gate`] with
+    /// `shift = 1`. Positions are
     /// the pairs' reference phases (`pos_step` is the phase step of a
     /// pair): they increase within a run, which never crosses a phase wrap
     /// except after its last pair.
@@ -202,16 +206,16 @@ impl BlockGate {
     pub fn pair(
         &mut self,
         hold: &mut BlockHold,
-        xc: i32,
+        x: i32,
         max_len: u32,
         (pos, pos_step): (u32, u32),
     ) -> i32 {
         // m − dc, as a wrapping u32 (the compare below is modular).
-        let m = (xc >> 1) as u32;
+        let m = (x >> (1 + LANE_SHIFT)) as u32;
         let w = self.w;
         if m.wrapping_sub(self.lo) <= w << 1 {
             self.lo = m.wrapping_sub(w);
-            return xc;
+            return x;
         }
         let last = self.lo.wrapping_add(w);
         let step = (m as i32).abs_diff(last as i32);
@@ -219,14 +223,14 @@ impl BlockGate {
             // A new largest step within the limit.
             self.w = step;
             self.lo = m.wrapping_sub(step);
-            return xc;
+            return x;
         }
         let (lo, held) = Self::beyond(hold, m, step, last, max_len, (pos, pos_step));
         match held {
-            Some(last) => (last as i32).wrapping_mul(2),
+            Some(last) => (last as i32).wrapping_mul(2) << LANE_SHIFT,
             None => {
                 self.lo = lo.wrapping_sub(w);
-                xc
+                x
             }
         }
     }

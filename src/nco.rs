@@ -83,6 +83,79 @@ pub const SINE_Q14: [i16; TABLE_ENTRIES] = [
     16088, 16124, 16159, 16191, 16220, 16247, 16272, 16294, 16314, 16331, 16346, 16358, 16368, 16375, 16380, 16383,
 ];
 
+/// Whether [`reference`] reads [`PACKED_Q14`] (one 32-bit load a phase)
+/// rather than two entries of [`SINE_Q14`]: on the targets whose
+/// demodulator multiplies by a halfword of a register (`smlawb`/`smlawt`,
+/// see [`crate::demod::WIDE_MAC`]) and on 64-bit hosts. The values are the
+/// same either way.
+pub const PACKED: bool = cfg!(any(humsense_dsp, target_pointer_width = "64"));
+
+/// The table's sine and cosine of one phase bin in one word: the cosine in
+/// the low half, the sine in the high half (each a two's-complement Q14
+/// value).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct RefQ14(u32);
+
+impl RefQ14 {
+    /// Packs a sine and a cosine.
+    #[inline(always)]
+    pub const fn new(sin: i16, cos: i16) -> Self {
+        Self((cos as u16 as u32) | ((sin as u16 as u32) << 16))
+    }
+
+    /// The sine, Q14.
+    #[inline(always)]
+    pub const fn sin(self) -> i16 {
+        (self.0 >> 16) as i16
+    }
+
+    /// The cosine, Q14.
+    #[inline(always)]
+    pub const fn cos(self) -> i16 {
+        self.0 as i16
+    }
+
+    /// The packed word: cosine in bits 0..16, sine in bits 16..32.
+    #[inline(always)]
+    pub const fn bits(self) -> u32 {
+        self.0
+    }
+}
+
+/// [`SINE_Q14`] packed by phase bin: `PACKED_Q14[k]` is
+/// `RefQ14::new(sin_k, cos_k)` (entries `k` and `k + 128`), 512 words
+/// (2 KiB; the linker keeps only the table a target reads).
+// Indexing in a constant: it is evaluated by the compiler, so an index out
+// of range would fail the build, never run.
+#[allow(clippy::indexing_slicing)]
+pub const PACKED_Q14: [RefQ14; TABLE_LEN] = {
+    let mut t = [RefQ14(0); TABLE_LEN];
+    let mut k = 0;
+    while k < TABLE_LEN {
+        t[k] = RefQ14::new(SINE_Q14[k], SINE_Q14[k + QUARTER]);
+        k += 1;
+    }
+    t
+};
+
+/// The reference at `phase`: [`sin_cos_q14`] as one [`RefQ14`], from
+/// [`PACKED_Q14`] where [`PACKED`] holds.
+#[inline(always)]
+pub fn reference(phase: u32) -> RefQ14 {
+    if PACKED {
+        let k = (phase >> INDEX_SHIFT) as usize;
+        // `k < 512` by construction: the fallback is never taken and the
+        // check is removed.
+        match PACKED_Q14.get(k) {
+            Some(r) => *r,
+            None => RefQ14(0),
+        }
+    } else {
+        let (s, c) = sin_cos_q14(phase);
+        RefQ14::new(s, c)
+    }
+}
+
 /// Sine and cosine of a `u32` phase in Q14 (16 383 = +1.0): entries `k`
 /// and `k + 128` of the table, `k = phase >> 23`.
 #[inline(always)]
@@ -136,6 +209,21 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn packed_reference_matches_the_table() {
+        // The packed table and the halfword accessors against the two
+        // table reads, at both ends of every bin.
+        for k in 0..TABLE_LEN as u32 {
+            for phase in [k << INDEX_SHIFT, (k << INDEX_SHIFT) | 0x7f_ffff] {
+                let (s, c) = sin_cos_q14(phase);
+                let r = reference(phase);
+                assert_eq!((r.sin(), r.cos()), (s, c), "bin {k}");
+                assert_eq!(PACKED_Q14[k as usize], RefQ14::new(s, c), "bin {k}");
+            }
+        }
+        assert_eq!(RefQ14::new(-1, 2).bits(), 0xffff_0002);
     }
 
     #[test]
