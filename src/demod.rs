@@ -204,10 +204,10 @@ pub struct DemodLane<const H: usize> {
     i: i32,
     q: i32,
     harm: [[i32; 2]; H],
-    /// Sum of the run's `xc` (pair sums less `dc2`); [`DemodState::store`]
-    /// adds the `dc2` back.
+    /// Sum of the run's `xc` (pair sums less twice the DC);
+    /// [`DemodState::store`] adds the DC back.
     sum: i32,
-    /// Twice the DC estimate (a pair's DC).
+    /// Twice the DC estimate (a pair's DC), scaled by 2^[`LANE_SHIFT`].
     dc2: i32,
 }
 
@@ -254,8 +254,9 @@ fn mac_harmonics<const H: usize>(harm: &mut [[i32; 2]; H], x: i32, phase: u32) {
 }
 
 impl<const H: usize> DemodLane<H> {
-    /// Twice the DC estimate: a pair sum less this is the `xc` that
-    /// [`push_pair`](Self::push_pair) takes (scaled by 2^[`LANE_SHIFT`]).
+    /// Twice the DC estimate scaled by 2^[`LANE_SHIFT`]: a pair sum scaled
+    /// the same less this is the `x` that [`push_pair`](Self::push_pair)
+    /// takes.
     #[inline(always)]
     pub const fn dc2(&self) -> i32 {
         self.dc2
@@ -316,7 +317,7 @@ impl<const H: usize> DemodState<H> {
             q: self.acc[1],
             harm: self.harm,
             sum: 0,
-            dc2: 2 * self.dc as i32,
+            dc2: (2 * self.dc as i32) << LANE_SHIFT,
         }
     }
 
@@ -325,7 +326,7 @@ impl<const H: usize> DemodState<H> {
     pub fn store(&mut self, lane: &DemodLane<H>, pairs: u32) {
         self.acc = [lane.i, lane.q];
         self.harm = lane.harm;
-        let dc = (lane.dc2 as u32).wrapping_mul(pairs);
+        let dc = ((lane.dc2 >> LANE_SHIFT) as u32).wrapping_mul(pairs);
         self.sum = self.sum.wrapping_add(lane.sum as u32).wrapping_add(dc);
     }
 

@@ -286,7 +286,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let (mut g, mut hold) = gate.block(mid, dc);
         let mut d = dem.lane();
         // Pair sums less twice the DC, scaled as the accumulators take them.
-        let dc2 = d.dc2() << LANE_SHIFT;
+        let dc2 = d.dc2();
         let (pairs, _) = run.as_chunks::<2>();
         for [a, b] in pairs {
             let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
@@ -328,7 +328,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
             for ((a, b), ((g, h), d)) in first.iter().zip(second.iter()).zip(stages) {
                 let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
-                let x = ((v << LANE_SHIFT) as i32).wrapping_sub(d.dc2() << LANE_SHIFT);
+                let x = ((v << LANE_SHIFT) as i32).wrapping_sub(d.dc2());
                 let x = g.pair(h, x, max_len, (mid, step2));
                 d.push_pair(x, table, mid);
             }
