@@ -39,7 +39,7 @@
 //! mid-scale code as its DC.
 
 use crate::fixed::{div_rem_u32, mul_wide, mul_wide_signed};
-use crate::nco::{reference, RefQ14};
+use crate::nco::{ref_q14, RefQ14};
 
 /// One quadrature pair, Q8 ADC codes of amplitude.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
@@ -83,9 +83,14 @@ pub const PRODUCT_SHIFT: u32 = 10;
 /// `(x · t) >> 10` (a multiply and a shifted add). The two are the same
 /// number: `⌊2^6·x·t / 2^16⌋ = ⌊x·t / 2^10⌋` (tested over the whole range).
 /// Taken on ARMv7E-M and ARMv8-M Mainline (`humsense_dsp`, set by the build
-/// script from the target) and on 64-bit hosts; ARMv6-M and ARMv7-M keep
-/// the narrow form, where a 64-bit product would cost more.
-pub const WIDE_MAC: bool = cfg!(any(humsense_dsp, target_pointer_width = "64"));
+/// script from the target). ARMv6-M and ARMv7-M keep the narrow form, where
+/// a 64-bit product would cost more, and so does the host, where the wide
+/// form measured slower (`cargo bench -p humsim --bench host`, four
+/// channels: 5.09 ns a sample in two runs, against 4.7 and 4.1 ns in two
+/// runs of the narrow form); the unit tests check both forms
+/// there, and the golden vectors check the wide one on the emulated M4F
+/// against the host's narrow one, bit for bit.
+pub const WIDE_MAC: bool = cfg!(humsense_dsp);
 
 /// The left shift of the value the accumulators take (`x = xc << LANE_SHIFT`):
 /// `16 − PRODUCT_SHIFT` in the wide form, 0 in the narrow one. At most
@@ -249,7 +254,7 @@ fn mac(acc: &mut [i32; 2], x: i32, r: RefQ14) {
 #[inline(always)]
 fn mac_harmonics<const H: usize>(harm: &mut [[i32; 2]; H], x: i32, phase: u32) {
     for (order, acc) in (2u32..).zip(harm.iter_mut()) {
-        mac(acc, x, reference(phase.wrapping_mul(order)));
+        mac(acc, x, ref_q14(phase.wrapping_mul(order)));
     }
 }
 
@@ -264,7 +269,7 @@ impl<const H: usize> DemodLane<H> {
 
     /// Accumulates one pair given as `x = xc << LANE_SHIFT`, with `xc` its
     /// gated sum less [`dc2`](Self::dc2) (|xc| ≤ 131 070), at the midpoint
-    /// phase `mid`, whose table reference is `r` ([`reference`]).
+    /// phase `mid`, whose table reference is `r` ([`ref_q14`]).
     #[inline(always)]
     pub fn push_pair(&mut self, x: i32, r: RefQ14, mid: u32) {
         let mut f = [self.i, self.q];
@@ -351,7 +356,7 @@ impl<const H: usize> DemodState<H> {
     #[inline(never)]
     fn accumulate(&mut self, xc: i32, phase: u32, v: u32) {
         let x = xc << LANE_SHIFT;
-        mac(&mut self.acc, x, reference(phase));
+        mac(&mut self.acc, x, ref_q14(phase));
         mac_harmonics(&mut self.harm, x, phase);
         self.sum = self.sum.wrapping_add(v);
     }

@@ -29,7 +29,7 @@ use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
 use crate::fixed::{isqrt_u32_from, isqrt_u64, mul_q8};
 use crate::impulse::{BlockGate, BlockHold, ImpulseState};
 use crate::mains::{MainsHealth, MainsSystem, MainsTracker};
-use crate::nco::reference;
+use crate::nco::ref_q14;
 use crate::panel::{strongest, PanelTuning};
 
 /// An integer ADC sample type the detector accepts.
@@ -292,7 +292,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
             let x = ((v << LANE_SHIFT) as i32).wrapping_sub(dc2);
             let x = g.pair(&mut hold, x, max_len, (mid, step2));
-            d.push_pair(x, reference(mid), mid);
+            d.push_pair(x, ref_q14(mid), mid);
             mid = mid.wrapping_add(step2);
         }
         gate.store_block(&g, &hold, mid, dc);
@@ -323,7 +323,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let chunks = run.chunks_exact(2 * N);
         let pairs = chunks.len() as u32;
         for chunk in chunks {
-            let table = reference(mid);
+            let table = ref_q14(mid);
             let (first, second) = chunk.split_at(N);
             let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
             for ((a, b), ((g, h), d)) in first.iter().zip(second.iter()).zip(stages) {

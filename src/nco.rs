@@ -83,12 +83,11 @@ pub const SINE_Q14: [i16; TABLE_ENTRIES] = [
     16088, 16124, 16159, 16191, 16220, 16247, 16272, 16294, 16314, 16331, 16346, 16358, 16368, 16375, 16380, 16383,
 ];
 
-/// Whether [`reference`] reads [`PACKED_Q14`] (one 32-bit load a phase)
+/// Whether [`ref_q14`] reads [`PACKED_Q14`] (one 32-bit load a phase)
 /// rather than two entries of [`SINE_Q14`]: on the targets whose
 /// demodulator multiplies by a halfword of a register (`smlawb`/`smlawt`,
-/// see [`crate::demod::WIDE_MAC`]) and on 64-bit hosts. The values are the
-/// same either way.
-pub const PACKED: bool = cfg!(any(humsense_dsp, target_pointer_width = "64"));
+/// see [`crate::demod::WIDE_MAC`]). The values are the same either way.
+pub const PACKED: bool = cfg!(humsense_dsp);
 
 /// The table's sine and cosine of one phase bin in one word: the cosine in
 /// the low half, the sine in the high half (each a two's-complement Q14
@@ -141,7 +140,7 @@ pub const PACKED_Q14: [RefQ14; TABLE_LEN] = {
 /// The reference at `phase`: [`sin_cos_q14`] as one [`RefQ14`], from
 /// [`PACKED_Q14`] where [`PACKED`] holds.
 #[inline(always)]
-pub fn reference(phase: u32) -> RefQ14 {
+pub fn ref_q14(phase: u32) -> RefQ14 {
     if PACKED {
         let k = (phase >> INDEX_SHIFT) as usize;
         // `k < 512` by construction: the fallback is never taken and the
@@ -218,7 +217,7 @@ mod tests {
         for k in 0..TABLE_LEN as u32 {
             for phase in [k << INDEX_SHIFT, (k << INDEX_SHIFT) | 0x7f_ffff] {
                 let (s, c) = sin_cos_q14(phase);
-                let r = reference(phase);
+                let r = ref_q14(phase);
                 assert_eq!((r.sin(), r.cos()), (s, c), "bin {k}");
                 assert_eq!(PACKED_Q14[k as usize], RefQ14::new(s, c), "bin {k}");
             }
