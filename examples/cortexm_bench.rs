@@ -59,28 +59,36 @@
 //!
 //! | stage | thumbv7em (M4F) | thumbv6m (M0) |
 //! |---|---|---|
-//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 14.5 | 24.0 |
-//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 294 /cycle = 7.3 | 502 /cycle = 12.5 |
+//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 12.8 | 24.0 |
+//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 292 /cycle = 7.3 | 502 /cycle = 12.5 |
 //! | `Backend::process`: amplitude, noise, faults, baseline, decision | 281 /cycle = 7.0 | 560 /cycle = 14.0 |
-//! | **`Detector::push_block`** (`insn_per_sample`) | **30.6** (budget 25) | **52.6** (budget 60) |
+//! | **`Detector::push_block`** (`insn_per_sample`) | **28.7** (budget 25) | **52.6** (budget 60) |
 //!
-//! - The M4 loop (disassembly) is 22 instructions a pair, 11 a sample: two
-//!   loads and an add for the pair, the DC and the halving, subtract,
-//!   compare, branch and subtract for the gate, shift, address and two
-//!   loads for sine and cosine, two multiplies with their shifted adds, the
-//!   sum, the phase, the loop test, and two reloads (the end pointer and
-//!   the table address: the loop wants 14 registers and Thumb-2 leaves
-//!   13). An execution trace (`CORTEXM_TRACE=1`, see DEVELOPERS.md) puts
-//!   the rest of the 14.5 in the gate's watermark raises (about 4 a cycle,
-//!   20 instructions each, while the watermark climbs to the cycle's
-//!   largest step) and the setup of each run (about 100 instructions, 1.2
-//!   runs a cycle with 200-frame blocks).
-//! - Per cycle on the M4, from the same trace: `Frontend::end_cycle` with
-//!   the tracker about 180 (scaling with the pair correction, DC, gate
-//!   limit, the `Cycle`, the loop filter; the CORDIC once every 8 cycles);
-//!   `Backend::process` about 280. Meeting 25 a sample needs the per-cycle
-//!   work near 300 instructions, or about 4 fewer a sample in the loop:
-//!   the M4 budget is not met yet (listed open in `.ci/run`).
+//! - The M4 loop (disassembly) is 20 instructions a pair, 10 a sample: two
+//!   loads and an add for the pair, the scaled DC subtracted, the gate's
+//!   subtract, shift, compare, branch and subtract, shift and one load for
+//!   the packed sine/cosine word, one `smlawt` and one `smlawb`, the sum,
+//!   the phase, the pointer, the loop test, and two reloads (the scaled DC
+//!   and the end pointer). The loop carries 11 values (pointer, end, DC,
+//!   the gate's two, table address, I, Q, sum, phase, phase step) and
+//!   needs two temporaries; Thumb-2 leaves 13 registers with r7 kept as the
+//!   frame pointer (the thumb targets' default), and the compiler keeps
+//!   the gate's mean in a third temporary for the raise path, hence the
+//!   reloads. Variants measured and dropped: the raise path written on
+//!   `m − lo` alone (29.1), leaving the loop at a step above the limit
+//!   instead of carrying a hold state (30.8), earlier an unroll by two
+//!   (35.7, with the narrow multiply); a body taking four samples a table
+//!   read, compiled for its code only (its numerics were not kept), spills
+//!   the phase and the sum to the stack.
+//! - From an execution trace (`CORTEXM_TRACE=1`, see DEVELOPERS.md; per
+//!   cycle): the loop 354, the gate's watermark raises about 84 (4 a cycle
+//!   while the watermark climbs to the cycle's largest step), the setup
+//!   and teardown of the runs about 136 (1.2 runs a cycle with 200-frame
+//!   blocks), `Frontend::end_cycle` with the tracker 221 (the CORDIC, once
+//!   every 8 cycles, 28 of it), `Backend::process` 195 and
+//!   `BaselineState::update` 68. Meeting 25 a sample (1 000 a cycle) needs
+//!   about 150 fewer a cycle: the M4 budget is not met yet (listed open in
+//!   `.ci/run`).
 //! - Flash (thumbv6m, opt-level "s", 1 channel, 7 944 B against 8 192):
 //!   the firmware loop with `push_frame` and construction inlined 1 444;
 //!   `Backend::process` 1 164; `Frontend::end_cycle` 1 152 (the tracker
