@@ -88,6 +88,20 @@ pub struct Cycle<const N: usize, const H: usize> {
     pub rails: (i32, i32),
 }
 
+impl<const N: usize, const H: usize> Cycle<N, H> {
+    /// A cycle of nothing: zero samples, zero I/Q, healthy mains.
+    pub const EMPTY: Self = Self {
+        end_sample: 0,
+        samples: 0,
+        fund: [Iq { i: 0, q: 0 }; N],
+        harm: [[Iq { i: 0, q: 0 }; H]; N],
+        dc: [0; N],
+        flat: [false; N],
+        health: MainsHealth::Ok,
+        rails: (0, 0),
+    };
+}
+
 /// Per-sample half of the pipeline: impulse gate, demodulator and the shared
 /// mains tracker, for `N` channels with `H` extra harmonic bins.
 ///
@@ -176,7 +190,9 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         }
         let n = self.tracker.advance_to(next, wraps);
         if n != 0 {
-            on_cycle(&self.end_cycle(n, S::SIGNED));
+            let mut cycle = Cycle::EMPTY;
+            self.end_cycle(n, S::SIGNED, &mut cycle);
+            on_cycle(&cycle);
         }
     }
 
@@ -263,7 +279,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             }
             let n = self.tracker.finish_run(phase, take as u32, ends);
             if n != 0 {
-                let cycle = self.end_cycle(n, S::SIGNED);
+                let mut cycle = Cycle::EMPTY;
+                self.end_cycle(n, S::SIGNED, &mut cycle);
                 on_cycle(&cycle);
             }
         }
@@ -345,23 +362,15 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     }
 
     #[inline(never)]
-    fn end_cycle(&mut self, n: u32, signed: bool) -> Cycle<N, H> {
+    fn end_cycle(&mut self, n: u32, signed: bool, cycle: &mut Cycle<N, H>) {
         self.signed = signed;
         let index = self.cycle_start.wrapping_add(u64::from(n) - 1);
         self.cycle_start = self.cycle_start.wrapping_add(u64::from(n));
         let span = 1i32 << self.adc_bits;
         let low = if signed { 32_768 - span / 2 } else { 0 };
-        let rails = (low, low + span - 1);
-        let mut cycle = Cycle {
-            end_sample: index,
-            samples: n,
-            fund: [Iq::default(); N],
-            harm: [[Iq::default(); H]; N],
-            dc: [0; N],
-            flat: [false; N],
-            health: MainsHealth::Ok,
-            rails,
-        };
+        cycle.end_sample = index;
+        cycle.samples = n;
+        cycle.rails = (low, low + span - 1);
         let step = self.tracker.step();
         if n != self.scale.samples() || step != self.scale_step {
             let recip = if n == self.scale.samples() {
@@ -383,7 +392,6 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         }
         self.tracker.end_cycle(&cycle.fund);
         cycle.health = self.tracker.health();
-        cycle
     }
 
     /// The shared mains tracker.
