@@ -104,6 +104,9 @@ impl FaultState {
     }
 
     /// Updates the counters from one cycle; returns the faults present now.
+    /// Inline, for the same reason as the mains tracker's cycle end: one
+    /// caller, the back end.
+    #[inline(always)]
     pub fn update(&mut self, x: &FaultInput, t: &FaultTuning) -> Faults {
         let (lo, hi) = x.rails;
         let span = hi.saturating_sub(lo).max(1);

@@ -252,7 +252,10 @@ impl MainsTracker {
 
     /// Learns from the cycle just ended. `fund` holds each channel's
     /// fundamental; the strongest channel (by |i| + |q|) is the reference.
-    /// Per cycle.
+    /// Per cycle. Inline: its one caller is the front end's cycle end, and a
+    /// firmware with several front-end types (channel counts) would
+    /// otherwise get a shared out-of-line copy with its call overhead.
+    #[inline(always)]
     pub fn end_cycle(&mut self, fund: &[Iq]) {
         let step = self.step;
         self.learn(fund);
@@ -271,6 +274,8 @@ impl MainsTracker {
         };
     }
 
+    /// The phase measurement and the loop filter (inline: one caller).
+    #[inline(always)]
     fn learn(&mut self, fund: &[Iq]) {
         // The reference channel is sticky: another channel takes over only
         // when it is twice as strong (or the present one is gone), so that
