@@ -161,9 +161,8 @@ impl BaselineState {
     }
 
     /// Learns from one cycle's amplitude and noise sample (Q8 codes).
-    /// Per cycle. Out of line: the back end calls it from three branches,
-    /// and one copy is what a small core's flash wants.
-    #[inline(never)]
+    /// Per cycle. Inline: the back end calls it from one place.
+    #[inline(always)]
     pub fn update(&mut self, amp_q8: u32, noise_q8: u32, t: &BaselineTuning) {
         let a = q8_to_q12(amp_q8);
         let b = self.base_q12;

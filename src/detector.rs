@@ -623,6 +623,9 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 health: cycle.health,
             };
             let present = c.faults.update(&input, &self.fault_t);
+            // Whether the baseline learns from this cycle (one call below,
+            // after the decision, which reads the baseline as it was).
+            let mut learn = false;
             if present.intersects(SIGNAL_FAULTS) {
                 // No decisions on a broken input; an active channel is
                 // released first.
@@ -631,7 +634,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             } else if was_faulted {
                 // The fault has ended: learn the baseline afresh.
                 c.baseline.restart();
-                c.baseline.update(amp, *d, &self.baseline_t);
+                learn = true;
             } else if c.baseline.settled(&self.baseline_t) {
                 let n = c.baseline.noise_q8();
                 let others_active = active_mask & !bit != 0;
@@ -656,7 +659,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                     // untouched hum level: learning from it would make the
                     // hum's return look like a touch.
                     Verdict::Learn if amp < self.fault_t.nohum_q8() => {}
-                    Verdict::Learn => c.baseline.update(amp, *d, &self.baseline_t),
+                    Verdict::Learn => learn = true,
                     Verdict::Freeze => {}
                     Verdict::Relearn => c.baseline.relearn(amp),
                 }
@@ -668,6 +671,9 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 event = e;
             } else {
                 // Start-up: learn only, decide nothing.
+                learn = true;
+            }
+            if learn {
                 c.baseline.update(amp, *d, &self.baseline_t);
             }
             if event.is_none() {
