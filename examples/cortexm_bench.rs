@@ -59,10 +59,10 @@
 //!
 //! | stage | thumbv7em (M4F) | thumbv6m (M0) |
 //! |---|---|---|
-//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 12.8 | 24.0 |
-//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 292 /cycle = 7.3 | 502 /cycle = 12.5 |
-//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 281 /cycle = 7.0 | 560 /cycle = 14.0 |
-//! | **`Detector::push_block`** (`insn_per_sample`) | **28.7** (budget 25) | **52.6** (budget 60) |
+//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 12.7 | 24.1 |
+//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 242 /cycle = 6.0 | 458 /cycle = 11.4 |
+//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 249 /cycle = 6.2 | 558 /cycle = 14.0 |
+//! | **`Detector::push_block`** (`insn_per_sample`) | **26.6** (budget 25) | **51.4** (budget 60) |
 //!
 //! - The M4 loop (disassembly) is 20 instructions a pair, 10 a sample: two
 //!   loads and an add for the pair, the scaled DC subtracted, the gate's
@@ -81,24 +81,31 @@
 //!   read, compiled for its code only (its numerics were not kept), spills
 //!   the phase and the sum to the stack.
 //! - From an execution trace (`CORTEXM_TRACE=1`, see DEVELOPERS.md; per
-//!   cycle): the loop 354, the gate's watermark raises about 84 (4 a cycle
-//!   while the watermark climbs to the cycle's largest step), the setup
-//!   and teardown of the runs about 136 (1.2 runs a cycle with 200-frame
-//!   blocks), `Frontend::end_cycle` with the tracker 221 (the CORDIC, once
-//!   every 8 cycles, 28 of it), `Backend::process` 195 and
-//!   `BaselineState::update` 68. Meeting 25 a sample (1 000 a cycle) needs
-//!   about 150 fewer a cycle: the M4 budget is not met yet (listed open in
+//!   cycle): the loop's common path 354, the gate's watermark raises 40
+//!   more (4 a cycle, 10 extra instructions each, while the watermark
+//!   climbs to the cycle's largest step), the setup and teardown of the
+//!   runs about 136 (1.2 runs a cycle with 200-frame blocks),
+//!   `Frontend::end_cycle` with the tracker 208 (the CORDIC, once every 8
+//!   cycles, about 28 of it) and `Backend::process` with the baseline and
+//!   fault updates 247: 1 058 a cycle, 26.5 a sample, which the SysTick
+//!   count (26.55) agrees with. Meeting 25 a sample (1 000 a cycle) needs
+//!   about 60 fewer a cycle: the M4 budget is not met yet (listed open in
 //!   `.ci/run`).
-//! - Flash (thumbv6m, opt-level "s", 1 channel, 7 944 B against 8 192):
-//!   the firmware loop with `push_frame` and construction inlined 1 444;
-//!   `Backend::process` 1 164; `Frontend::end_cycle` 1 152 (the tracker
-//!   and the CORDIC inlined); the sine table 1 280; `BaselineState::update`
-//!   404; the validation table 400 and field accessor 150;
+//! - The per-cycle helpers with one caller (`MainsTracker::end_cycle` and
+//!   `learn`, `FaultState::update`, `BaselineState::update`) are always
+//!   inlined: with three channel counts in this binary the compiler had
+//!   kept them out of line and shared, so this benchmark counted 1.6
+//!   instructions a sample more than a one-detector build does.
+//! - Flash (thumbv6m, opt-level "s", 1 channel, 7 896 B against 8 192):
+//!   `Backend::process` with the baseline and fault updates 1 564; the
+//!   firmware loop with `push_frame` and construction inlined 1 444; the
+//!   sine table 1 280; `Frontend::end_cycle` 1 112 (the tracker and the
+//!   CORDIC inlined); the validation table 400 and field accessor 150;
 //!   `MainsTracker::correct` 168; `phase_step` 160; `memclr8` 158 (zeroing
 //!   at construction). No soft float, no library division, no 64-bit
-//!   shift and no `memcpy` is linked. Four and eight channels take 10 328
-//!   and 10 500 B (panel rules, per-channel loops, and `memcpy` for the
-//!   wider `Cycle`): over 8 KiB, listed open.
+//!   shift and no `memcpy` is linked. Four and eight channels take 10 204
+//!   and 10 420 B (panel rules, per-channel loops, and `memcpy` for the
+//!   construction of the wider detector): over 8 KiB, listed open.
 //!
 //! On the host this example only prints how to run it.
 #![cfg_attr(target_os = "none", no_std, no_main)]
