@@ -87,9 +87,9 @@ pub const PRODUCT_SHIFT: u32 = 10;
 /// a 64-bit product would cost more, and so does the host, where the wide
 /// form measured slower (`cargo bench -p humsim --bench host`, four
 /// channels: 5.09 ns a sample in two runs, against 4.7 and 4.1 ns in two
-/// runs of the narrow form); the unit tests check both forms
-/// there, and the golden vectors check the wide one on the emulated M4F
-/// against the host's narrow one, bit for bit.
+/// runs of the narrow form). The unit tests check both forms there, and
+/// the golden vectors check the wide one on the emulated M4F against the
+/// host's narrow one, bit for bit.
 pub const WIDE_MAC: bool = cfg!(humsense_dsp);
 
 /// The left shift of the value the accumulators take (`x = xc << LANE_SHIFT`):

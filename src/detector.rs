@@ -361,6 +361,10 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         mid.wrapping_sub(to_mid)
     }
 
+    /// Ends a mains cycle of `n` samples: writes every field of `cycle`
+    /// (the caller's, so the struct is never copied), sets the gate limits
+    /// and the next DC, and lets the mains tracker learn. Out of line: one
+    /// copy serves the frame and the block paths.
     #[inline(never)]
     fn end_cycle(&mut self, n: u32, signed: bool, cycle: &mut Cycle<N, H>) {
         self.signed = signed;
