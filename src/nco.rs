@@ -34,13 +34,28 @@ pub const TABLE_PEAK: i32 = 16_383;
 
 /// Q14 sine at the centre of each of 512 phase bins per turn, over one and
 /// a quarter turns: `SINE_Q14[k] = round(16383 · sin(2π(k + ½)/512))` for
-/// k = 0..640 (entries 512.. repeat entries 0..128).
+/// k = 0..640 (entries 512.. repeat entries 0..128: the cosine of bin `k`
+/// is entry `k + 128` with no wrap-around).
 ///
 /// Indexing by the truncated phase therefore returns the sine at the middle
 /// of the bin the phase falls in: the reference has no phase bias, only a
 /// uniform error of at most ±π/512 rad.
+// Indexing in a constant: it is evaluated by the compiler, so an index out
+// of range would fail the build, never run.
+#[allow(clippy::indexing_slicing)]
+pub const SINE_Q14: [i16; TABLE_ENTRIES] = {
+    let mut t = [0i16; TABLE_ENTRIES];
+    let mut k = 0;
+    while k < TABLE_ENTRIES {
+        t[k] = SINE_TURN_Q14[k % TABLE_LEN];
+        k += 1;
+    }
+    t
+};
+
+/// The sine of the 512 bins of one turn (see [`SINE_Q14`]).
 #[rustfmt::skip]
-pub const SINE_Q14: [i16; TABLE_ENTRIES] = [
+const SINE_TURN_Q14: [i16; TABLE_LEN] = [
     101, 302, 503, 703, 904, 1105, 1305, 1506, 1706, 1906, 2105, 2304, 2503, 2702, 2900, 3098,
     3295, 3491, 3688, 3883, 4078, 4273, 4466, 4659, 4852, 5044, 5234, 5425, 5614, 5802, 5990, 6177,
     6362, 6547, 6731, 6914, 7095, 7276, 7456, 7634, 7811, 7988, 8162, 8336, 8509, 8680, 8850, 9018,
@@ -73,14 +88,6 @@ pub const SINE_Q14: [i16; TABLE_ENTRIES] = [
     -9018, -8850, -8680, -8509, -8336, -8162, -7988, -7811, -7634, -7456, -7276, -7095, -6914, -6731, -6547, -6362,
     -6177, -5990, -5802, -5614, -5425, -5234, -5044, -4852, -4659, -4466, -4273, -4078, -3883, -3688, -3491, -3295,
     -3098, -2900, -2702, -2503, -2304, -2105, -1906, -1706, -1506, -1305, -1105, -904, -703, -503, -302, -101,
-    101, 302, 503, 703, 904, 1105, 1305, 1506, 1706, 1906, 2105, 2304, 2503, 2702, 2900, 3098,
-    3295, 3491, 3688, 3883, 4078, 4273, 4466, 4659, 4852, 5044, 5234, 5425, 5614, 5802, 5990, 6177,
-    6362, 6547, 6731, 6914, 7095, 7276, 7456, 7634, 7811, 7988, 8162, 8336, 8509, 8680, 8850, 9018,
-    9185, 9351, 9515, 9678, 9840, 10000, 10158, 10315, 10471, 10625, 10777, 10927, 11076, 11224, 11369, 11513,
-    11655, 11796, 11934, 12071, 12206, 12339, 12471, 12600, 12728, 12853, 12977, 13099, 13219, 13336, 13452, 13566,
-    13678, 13787, 13895, 14000, 14104, 14205, 14304, 14401, 14496, 14588, 14679, 14767, 14853, 14936, 15018, 15097,
-    15174, 15249, 15321, 15391, 15459, 15524, 15587, 15648, 15706, 15762, 15816, 15867, 15916, 15963, 16007, 16048,
-    16088, 16124, 16159, 16191, 16220, 16247, 16272, 16294, 16314, 16331, 16346, 16358, 16368, 16375, 16380, 16383,
 ];
 
 /// Whether [`ref_q14`] reads [`PACKED_Q14`] (one 32-bit load a phase)
