@@ -259,16 +259,17 @@ fn mac_harmonics<const H: usize>(harm: &mut [[i32; 2]; H], x: i32, phase: u32) {
 }
 
 impl<const H: usize> DemodLane<H> {
-    /// Twice the DC estimate scaled by 2^[`LANE_SHIFT`]: a pair sum scaled
-    /// the same less this is the `x` that [`push_pair`](Self::push_pair)
-    /// takes.
+    /// A pair's sum `v` (below 2^17) as [`push_pair`](Self::push_pair) and
+    /// the block gate take it: `v` less twice the DC estimate, scaled by
+    /// 2^[`LANE_SHIFT`].
     #[inline(always)]
-    pub const fn dc2(&self) -> i32 {
-        self.dc2
+    pub const fn centred(&self, v: u32) -> i32 {
+        ((v << LANE_SHIFT) as i32).wrapping_sub(self.dc2)
     }
 
     /// Accumulates one pair given as `x = xc << LANE_SHIFT`, with `xc` its
-    /// gated sum less [`dc2`](Self::dc2) (|xc| ≤ 131 070), at the midpoint
+    /// gated sum less twice the DC (|xc| ≤ 131 070; see
+    /// [`centred`](Self::centred)), at the midpoint
     /// phase `mid`, whose table reference is `r` ([`ref_q14`]).
     #[inline(always)]
     pub fn push_pair(&mut self, x: i32, r: RefQ14, mid: u32) {

@@ -22,7 +22,7 @@
 use crate::baseline::{BaselineState, BaselineTuning};
 use crate::config::Config;
 use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
-use crate::demod::{reciprocal, CycleScale, DemodState, Iq, LANE_SHIFT};
+use crate::demod::{reciprocal, CycleScale, DemodState, Iq};
 use crate::error::ConfigError;
 use crate::event::{Event, Faults};
 use crate::fault::{FaultInput, FaultState, FaultTuning, SIGNAL_FAULTS};
@@ -302,13 +302,10 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let dc = dem.dc();
         let (mut g, mut hold) = gate.block(mid, dc);
         let mut d = dem.lane();
-        // Pair sums less twice the DC, scaled as the accumulators take them.
-        let dc2 = d.dc2();
         let (pairs, _) = run.as_chunks::<2>();
         for [a, b] in pairs {
             let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
-            let x = ((v << LANE_SHIFT) as i32).wrapping_sub(dc2);
-            let x = g.pair(&mut hold, x, max_len, (mid, step2));
+            let x = g.pair(&mut hold, d.centred(v), max_len, (mid, step2));
             d.push_pair(x, ref_q14(mid), mid);
             mid = mid.wrapping_add(step2);
         }
@@ -345,8 +342,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
             for ((a, b), ((g, h), d)) in first.iter().zip(second.iter()).zip(stages) {
                 let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
-                let x = ((v << LANE_SHIFT) as i32).wrapping_sub(d.dc2());
-                let x = g.pair(h, x, max_len, (mid, step2));
+                let x = g.pair(h, d.centred(v), max_len, (mid, step2));
                 d.push_pair(x, table, mid);
             }
             mid = mid.wrapping_add(step2);
