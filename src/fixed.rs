@@ -297,8 +297,9 @@ pub fn atan2_turns(y: i32, x: i32) -> u32 {
 /// compare-and-swap atomics: no stable `cfg` names the architecture
 /// version) this builds the product from four 16 × 16-bit products
 /// instead, in one out-of-line copy; elsewhere (one `umull` on
-/// Cortex-M3/M4/M7) it is the plain product, inline. Both give the same bits (checked by a unit test on the host
-/// and by the golden vectors on both emulated cores).
+/// Cortex-M3/M4/M7) it is the plain product, inline. Both give the same
+/// bits (checked by a unit test on the host and by the golden vectors on
+/// both emulated cores).
 #[inline(always)]
 pub const fn mul_wide(a: u32, b: u32) -> u64 {
     #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
@@ -645,6 +646,12 @@ mod tests {
                 assert_eq!(isqrt_u32_from(v, g), isqrt_u32(v), "{v} from {g}");
             }
         }
+    }
+
+    #[test]
+    fn phase_step_long_division_matches_u64_division() {
+        // Reference: Rust's u64 `/` on the host (common practice), for the
+        // shift-subtract division `phase_step` uses.
         for (f, r) in [
             (50_000u32, 2_000u32),
             (44_000, 50_000),
@@ -816,8 +823,9 @@ mod tests {
         assert_eq!(f32_to_fixed(0.0, 8), 0);
         // Round half up: 2.8 · 256 = 716.8 (f32 2.79999995 · 256 = 716.79999).
         assert_eq!(f32_to_fixed(2.8, 8), 717);
-        assert_eq!(f32_to_fixed(0.001_953_125, 8), 1); // exactly half: up
-                                                       // Against the f64 reference for a spread of values.
+        // Exactly half: up.
+        assert_eq!(f32_to_fixed(0.001_953_125, 8), 1);
+        // Against the f64 reference for a spread of values.
         for k in 0..2000u32 {
             let v = k as f32 * 0.37 + 0.01;
             let want = (f64::from(v) * 16.0 + 0.5).floor() as u32;

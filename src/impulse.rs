@@ -198,10 +198,9 @@ impl BlockGate {
     /// scaled as the demodulator takes it: `x = xc << LANE_SHIFT`
     /// ([`crate::demod::LANE_SHIFT`]). Returns `x`, or twice the held mean
     /// in the same terms; the same decision as [`ImpulseState::gate`] with
-    /// `shift = 1`. Positions are
-    /// the pairs' reference phases (`pos_step` is the phase step of a
-    /// pair): they increase within a run, which never crosses a phase wrap
-    /// except after its last pair.
+    /// `shift = 1`. Positions are the pairs' reference phases (`pos_step`
+    /// is the phase step of a pair): they increase within a run, which
+    /// never crosses a phase wrap except after its last pair.
     #[inline(always)]
     pub fn pair(
         &mut self,
