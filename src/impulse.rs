@@ -98,6 +98,12 @@ impl ImpulseState {
     /// differences, so its decisions are the same.
     #[inline(always)]
     pub const fn block(&self, start: u32, dc: u16) -> (BlockGate, BlockHold) {
+        self.block_at::<LANE_SHIFT>(start, dc)
+    }
+
+    /// [`block`](Self::block) for pair values scaled by `2^LANE`.
+    #[inline(always)]
+    const fn block_at<const LANE: u32>(&self, start: u32, dc: u16) -> (BlockGate, BlockHold) {
         // The largest step so far is within the limit unless a step above
         // it was accepted; either way it is a valid watermark only up to
         // the limit, and the rest is kept as `max_over`.
@@ -106,9 +112,10 @@ impl ImpulseState {
         } else {
             (self.max_step as u32, 0)
         };
+        let lo = (self.last as u32).wrapping_sub(dc as u32).wrapping_sub(w);
         let gate = BlockGate {
-            lo: (self.last as u32).wrapping_sub(dc as u32).wrapping_sub(w),
-            w,
+            lo_s: lo << (1 + LANE),
+            w2: w << 1,
         };
         let hold = BlockHold {
             limit: self.limit as u32,
@@ -125,8 +132,18 @@ impl ImpulseState {
     /// survives only if the last pair was held.
     #[inline(always)]
     pub fn store_block(&mut self, gate: &BlockGate, hold: &BlockHold, end: u32, dc: u16) {
-        let w = gate.w;
-        self.last = gate.lo.wrapping_add(w).wrapping_add(u32::from(dc)) as u16;
+        self.store_at::<LANE_SHIFT>(gate, hold, end, dc);
+    }
+
+    /// [`store_block`](Self::store_block) for pair values scaled by
+    /// `2^LANE`.
+    #[inline(always)]
+    fn store_at<const LANE: u32>(&mut self, gate: &BlockGate, hold: &BlockHold, end: u32, dc: u16) {
+        let w = gate.w2 >> 1;
+        self.last = gate
+            .lo::<LANE>()
+            .wrapping_add(w)
+            .wrapping_add(u32::from(dc)) as u16;
         self.max_step = w.max(hold.max_over) as u16;
         self.run = if hold.held && hold.held_next == end {
             hold.run as u8
@@ -169,8 +186,13 @@ impl ImpulseState {
 /// `max(w, BlockHold::max_over)`, exactly the frame path's.
 #[derive(Clone, Copy, Debug, Default)]
 pub struct BlockGate {
-    lo: u32,
-    w: u32,
+    /// `lo · 2^s` (wrapping), with `s = 1 + LANE_SHIFT`: a pair value
+    /// `x = xc << LANE_SHIFT` is `2^s` times the gate's mean `m − dc` (`xc`
+    /// is a pair sum, twice a mean), so `lo` is kept in the pair value's own
+    /// scale and the common path needs no mean of its own.
+    lo_s: u32,
+    /// `2w`.
+    w2: u32,
 }
 
 /// The rarely touched part of the block path's gate (held pairs and
@@ -209,29 +231,60 @@ impl BlockGate {
         max_len: u32,
         (pos, pos_step): (u32, u32),
     ) -> i32 {
-        // m − dc, as a wrapping u32 (the compare below is modular).
-        let m = (x >> (1 + LANE_SHIFT)) as u32;
-        let w = self.w;
-        if m.wrapping_sub(self.lo) <= w << 1 {
-            self.lo = m.wrapping_sub(w);
+        self.pair_at::<LANE_SHIFT>(hold, x, max_len, (pos, pos_step))
+    }
+
+    /// [`pair`](Self::pair) for pair values scaled by `2^LANE`.
+    #[inline(always)]
+    fn pair_at<const LANE: u32>(
+        &mut self,
+        hold: &mut BlockHold,
+        x: i32,
+        max_len: u32,
+        (pos, pos_step): (u32, u32),
+    ) -> i32 {
+        let s = 1 + LANE;
+        // With `L = lo · 2^s` and `d = x − L`, exact for
+        // |x| < 2^23 and |lo| < 2^18: `m − lo = ⌊d / 2^s⌋` when d ≥ 0, and
+        // d < 0 (m < lo) reads as at least 2^(31 − s) > 2w: the modular
+        // compare `m − lo ≤ 2w` in one shift and one compare, with no
+        // register for `m`.
+        let d = (x as u32).wrapping_sub(self.lo_s);
+        if d >> s <= self.w2 {
+            // lo ← m − w, that is `L ← 2^s·m − 2^s·w`: `2^s·m` is `x`
+            // with its low s bits cleared.
+            let floor = (x as u32) & !((1 << s) - 1);
+            self.lo_s = floor.wrapping_sub(self.w2 << LANE);
             return x;
         }
-        let last = self.lo.wrapping_add(w);
-        let step = (m as i32).abs_diff(last as i32);
+        // The step from the last accepted mean: `m − last = ⌊d / 2^s⌋ − w`
+        // (d as a signed value, exact).
+        let w = self.w2 >> 1;
+        let step = ((d as i32) >> s).wrapping_sub(w as i32).unsigned_abs();
         if step <= hold.limit {
-            // A new largest step within the limit.
-            self.w = step;
-            self.lo = m.wrapping_sub(step);
+            // A new largest step within the limit: lo ← m − step.
+            let floor = (x as u32) & !((1 << s) - 1);
+            self.w2 = step << 1;
+            self.lo_s = floor.wrapping_sub(step << s);
             return x;
         }
+        // m − dc and the last mean, as wrapping u32 (modular compares).
+        let m = (x >> s) as u32;
+        let last = self.lo::<LANE>().wrapping_add(w);
         let (lo, held) = Self::beyond(hold, m, step, last, max_len, (pos, pos_step));
         match held {
-            Some(last) => (last as i32).wrapping_mul(2) << LANE_SHIFT,
+            Some(last) => (last as i32).wrapping_mul(2) << LANE,
             None => {
-                self.lo = lo.wrapping_sub(w);
+                self.lo_s = lo.wrapping_sub(w) << s;
                 x
             }
         }
+    }
+
+    /// `lo` (`m − dc − w` of the last accepted pair, wrapping).
+    #[inline(always)]
+    const fn lo<const LANE: u32>(&self) -> u32 {
+        ((self.lo_s as i32) >> (1 + LANE)) as u32
     }
 
     /// A step above the limit (rare: out of line): holds the pair, or
@@ -302,6 +355,76 @@ mod tests {
             &out[1..11],
             &[100, 100, 100, 100, 3000, 3000, 3000, 3000, 100, 100]
         );
+    }
+
+    /// Pair sums through the frame path's gate and through the block
+    /// path's, with the pair values at scale `2^LANE` (0 on the host, 6 on
+    /// ARMv7E-M): the same output for every pair and the same state after
+    /// every run, over runs split at random, cycle ends and DC changes.
+    fn block_gate_matches_frame_gate<const LANE: u32>() {
+        let mut seed = 0x9e37_79b9_u32;
+        let mut rand = move || {
+            seed ^= seed << 13;
+            seed ^= seed >> 17;
+            seed ^= seed << 5;
+            seed
+        };
+        for max_len in [0u8, 1, 2, 5] {
+            let (mut frame, mut block) = (ImpulseState::new(), ImpulseState::new());
+            let (mut pos, step) = (0u32, 0x0333_3333u32);
+            let mut dc = 2048u16;
+            let mut level = 4096u32;
+            for cycle in 0..300u32 {
+                // Pairs of a 12- or 16-bit input: hum, level steps,
+                // full-scale spikes of one to three pairs.
+                let big = cycle % 3 == 0;
+                let span = if big { 131_070 } else { 8190 };
+                let mut k = 0;
+                while k < 20 {
+                    let run = 1 + rand() % 7;
+                    let (mut g, mut h) = block.block_at::<LANE>(pos, dc);
+                    for _ in 0..run {
+                        if k == 20 {
+                            break;
+                        }
+                        let r = rand();
+                        if r % 97 == 0 {
+                            level = rand() % span;
+                        }
+                        let hum = (r >> 8) % 64;
+                        let mut v = (level + hum).min(span);
+                        if r % 13 == 0 {
+                            v = if r & 1 == 0 { 0 } else { span };
+                        }
+                        let want = frame.gate(v, (v >> 1) as u16, 1, max_len);
+                        let xc = v as i32 - 2 * i32::from(dc);
+                        let got =
+                            g.pair_at::<LANE>(&mut h, xc << LANE, u32::from(max_len), (pos, step));
+                        let got = (got >> LANE) + 2 * i32::from(dc);
+                        assert_eq!(
+                            got as u32, want,
+                            "LANE {LANE}, max_len {max_len}, cycle {cycle}, pair {k}"
+                        );
+                        pos = pos.wrapping_add(step);
+                        k += 1;
+                    }
+                    block.store_at::<LANE>(&g, &h, pos, dc);
+                    assert_eq!(
+                        block, frame,
+                        "LANE {LANE}, max_len {max_len}, cycle {cycle}"
+                    );
+                }
+                assert_eq!(frame.end_cycle(max_len, 4), block.end_cycle(max_len, 4));
+                // A new DC estimate for the next cycle (the demodulator's).
+                dc = (rand() % (span / 4 + 1)) as u16;
+            }
+        }
+    }
+
+    #[test]
+    fn block_gate_matches_frame_gate_at_both_scales() {
+        block_gate_matches_frame_gate::<0>();
+        block_gate_matches_frame_gate::<6>();
     }
 
     #[test]
