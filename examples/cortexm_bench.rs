@@ -59,38 +59,45 @@
 //!
 //! | stage | thumbv7em (M4F) | thumbv6m (M0) |
 //! |---|---|---|
-//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 12.7 | 24.1 |
+//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 12.5 | 25.2 |
 //! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 242 /cycle = 6.0 | 458 /cycle = 11.4 |
 //! | `Backend::process`: amplitude, noise, faults, baseline, decision | 249 /cycle = 6.2 | 558 /cycle = 14.0 |
-//! | **`Detector::push_block`** (`insn_per_sample`) | **26.6** (budget 25) | **51.4** (budget 60) |
+//! | **`Detector::push_block`** (`insn_per_sample`) | **26.3** (budget 25) | **52.6** (budget 60) |
 //!
-//! - The M4 loop (disassembly) is 20 instructions a pair, 10 a sample: two
-//!   loads and an add for the pair, the scaled DC subtracted, the gate's
-//!   subtract, shift, compare, branch and subtract, shift and one load for
-//!   the packed sine/cosine word, one `smlawt` and one `smlawb`, the sum,
-//!   the phase, the pointer, the loop test, and two reloads (the scaled DC
-//!   and the end pointer). The loop carries 11 values (pointer, end, DC,
-//!   the gate's two, table address, I, Q, sum, phase, phase step) and
-//!   needs two temporaries; Thumb-2 leaves 13 registers with r7 kept as the
-//!   frame pointer (the thumb targets' default), and the compiler keeps
-//!   the gate's mean in a third temporary for the raise path, hence the
-//!   reloads. Variants measured and dropped: the raise path written on
+//! - The M4 loop (disassembly) is 19 instructions a pair: two loads and an
+//!   add for the pair, the scaled DC subtracted, the gate's subtract,
+//!   shifted compare and branch, and on acceptance a bit clear and a
+//!   shifted subtract (the gate keeps `lo` in the pair value's scale, so
+//!   no mean is formed), shift and one load for the packed sine/cosine
+//!   word, one `smlawt` and one `smlawb`, the sum, the phase, the pointer,
+//!   the loop test, and one reload (the phase step). The loop carries 11
+//!   values (pointer, end, DC, the gate's two, table address, I, Q, sum,
+//!   phase, phase step) and three temporaries; Thumb-2 leaves 13
+//!   registers with r7 kept as the frame pointer (the thumb targets'
+//!   default). On the M0, which has no shifted operands, the same gate
+//!   costs 1.2 instructions a sample more than the mean-based one did
+//!   (51.4 then); its budget is 60. Variants measured and dropped: the raise path written on
 //!   `m − lo` alone (29.1), leaving the loop at a step above the limit
 //!   instead of carrying a hold state (30.8), earlier an unroll by two
-//!   (35.7, with the narrow multiply); a body taking four samples a table
-//!   read, compiled for its code only (its numerics were not kept), spills
-//!   the phase and the sum to the stack.
+//!   (35.7, with the narrow multiply; 31.8 again with the wide one: I, Q
+//!   and the sum spill); a body taking four samples a table read, compiled
+//!   for its code only (its numerics were not kept), spills the phase and
+//!   the sum to the stack; one loop over every cycle end of a block with
+//!   the lane stored and reloaded around each (26.96 then, against 26.55:
+//!   the per-segment bookkeeping and the one-frame edges cost more than
+//!   the run setup they save); the square root stopped by `x² ≤ v` instead
+//!   of a confirming Newton step (no change).
 //! - From an execution trace (`CORTEXM_TRACE=1`, see DEVELOPERS.md; per
-//!   cycle): the loop's common path 354, the gate's watermark raises 40
-//!   more (4 a cycle, 10 extra instructions each, while the watermark
+//!   cycle): the loop's common path 370, the gate's watermark raises 52
+//!   more (4 a cycle, 13 extra instructions each, while the watermark
 //!   climbs to the cycle's largest step), the setup and teardown of the
-//!   runs about 136 (1.2 runs a cycle with 200-frame blocks),
-//!   `Frontend::end_cycle` with the tracker 208 (the CORDIC, once every 8
-//!   cycles, about 28 of it) and `Backend::process` with the baseline and
-//!   fault updates 247: 1 058 a cycle, 26.5 a sample, which the SysTick
-//!   count (26.55) agrees with. Meeting 25 a sample (1 000 a cycle) needs
-//!   about 60 fewer a cycle: the M4 budget is not met yet (listed open in
-//!   `.ci/run`).
+//!   runs about 137 (114 a run, 1.2 runs a cycle with 200-frame blocks)
+//!   and 30 more for the block's edges, `Frontend::end_cycle` with the
+//!   tracker 208 (the CORDIC, once every 8 cycles, about 27 of it) and
+//!   `Backend::process` with the baseline and fault updates 247: about
+//!   1 050 a cycle, 26.3 a sample, as the SysTick count says. Meeting 25
+//!   a sample (1 000 a cycle) needs about 54 fewer a cycle: the M4 budget
+//!   is not met yet (listed open in `.ci/run`).
 //! - The per-cycle helpers with one caller (`MainsTracker::end_cycle` and
 //!   `learn`, `FaultState::update`, `BaselineState::update`) are always
 //!   inlined: with three channel counts in this binary the compiler had
@@ -105,7 +112,11 @@
 //!   at construction). No soft float, no library division, no 64-bit
 //!   shift and no `memcpy` is linked. Four and eight channels take 10 204
 //!   and 10 420 B (panel rules, per-channel loops, and `memcpy` for the
-//!   construction of the wider detector): over 8 KiB, listed open.
+//!   construction of the wider detector): over 8 KiB, listed open. A
+//!   one-channel firmware feeding 64-sample blocks (`CORTEXM_FLASH_PROBE=
+//!   101` against 100) takes 8 480 B: its loop with `push_block` inlined is
+//!   1 992 B (548 more than the frame firmware's) and the gate's rare path
+//!   78; over 8 KiB, listed open as `flash-block`.
 //!
 //! On the host this example only prints how to run it.
 #![cfg_attr(target_os = "none", no_std, no_main)]
@@ -125,7 +136,9 @@ fn main() {
 }
 
 /// `CORTEXM_FLASH_PROBE` at build time: 0 builds the flash probe without the
-/// detector, 1, 4 or 8 with a `Detector` of that many channels; unset (255)
+/// detector, 1, 4 or 8 with a `Detector` of that many channels fed frame by
+/// frame (`push_frame`); 100 the block-path probe without the detector and
+/// 101 with a one-channel `Detector` fed blocks (`push_block`); unset (255)
 /// builds the benchmark.
 #[cfg_attr(not(target_os = "none"), allow(dead_code))]
 const PROBE: u8 = match option_env!("CORTEXM_FLASH_PROBE") {
@@ -603,6 +616,41 @@ mod target {
         }
     }
 
+    /// Samples a block-path probe collects before each call (a DMA
+    /// half-buffer, say).
+    const PROBE_BLOCK: usize = 64;
+
+    /// A minimal firmware feeding blocks: fills a buffer, one
+    /// `Detector::<1>::push_block` a buffer, events out.
+    fn probe_block() -> ! {
+        let cfg = black_box(Config::touch());
+        let Ok(mut det) = Detector::<1>::new(cfg) else {
+            loop {
+                nop();
+            }
+        };
+        let mut buf = [0u16; PROBE_BLOCK];
+        loop {
+            for x in buf.iter_mut() {
+                *x = now() as u16;
+            }
+            det.push_block(black_box(&buf[..]), |e| {
+                black_box(e);
+            });
+        }
+    }
+
+    /// The same firmware without the detector.
+    fn probe_block_without() -> ! {
+        let mut buf = [0u16; PROBE_BLOCK];
+        loop {
+            for x in buf.iter_mut() {
+                *x = now() as u16;
+            }
+            black_box(&buf[..]);
+        }
+    }
+
     /// `CORTEXM_TRACE=1` at build time: only the touch profile, one
     /// channel, through `Detector::push_block` for `TRACE_FRAMES` frames
     /// (warm-up included), and no output: a steady workload for an
@@ -642,6 +690,8 @@ mod target {
             1 => probe::<1>(),
             4 => probe::<4>(),
             8 => probe::<8>(),
+            100 => probe_block_without(),
+            101 => probe_block(),
             _ => {}
         }
         let status = if option_env!("CORTEXM_TRACE").is_some() {
