@@ -172,7 +172,8 @@ impl ImpulseState {
 }
 
 /// The same gate for a run of pairs on the block path, arranged so the
-/// common pair costs a shift, a subtract, a compare and a subtract.
+/// common pair costs a subtract, a shifted compare, a bit clear and a
+/// shifted subtract.
 ///
 /// It keeps a watermark `w`, the largest step accepted so far this cycle
 /// within the limit (`w ≤ limit`), and `lo = last − w` (wrapping `u32`).
