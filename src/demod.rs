@@ -298,11 +298,6 @@ impl<const H: usize> DemodState<H> {
         self.dc
     }
 
-    /// The first sample of the pair in progress (0 when none is open).
-    pub const fn pending(&self) -> u16 {
-        self.pending
-    }
-
     /// Takes the first sample of the pair in progress, leaving 0.
     #[inline(always)]
     pub fn take_pending(&mut self) -> u16 {

@@ -713,14 +713,14 @@ impl<const N: usize, const H: usize> Backend<N, H> {
     }
 
     /// The ambient rule: rescale every settled baseline by the common
-    /// ratio when the panel rose or fell together. Returns whether it did.
-    /// The rises are divided out only when a division-free count says the
-    /// rule may fire ([`PanelTuning::may_be_ambient`]).
-    fn ambient_rule(&mut self) -> bool {
+    /// ratio when the panel rose or fell together. The rises are divided
+    /// out only when a division-free count says the rule may fire
+    /// ([`PanelTuning::may_be_ambient`]).
+    fn ambient_rule(&mut self) {
         let inputs = self.rise_inputs();
         let deciding = inputs.iter().copied().filter(|&(_, b)| b != 0);
         if !self.panel_t.may_be_ambient(deciding) {
-            return false;
+            return;
         }
         // The deciding channels' rises, packed at the front.
         let mut eligible = inputs
@@ -736,17 +736,16 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             None => 0,
         });
         let Some(eligible) = ratios.get_mut(..n) else {
-            return false;
+            return;
         };
         let Some(factor) = self.panel_t.common_ratio(eligible) else {
-            return false;
+            return;
         };
         for c in self.ch.iter_mut() {
             if c.baseline.settled(&self.baseline_t) {
                 c.baseline.rescale(factor);
             }
         }
-        true
     }
 
     /// A view of channel `ch`, or `None` past the last channel.
