@@ -72,7 +72,7 @@ const fn div_u64(num: u64, den: u64) -> u64 {
 /// [`div_rem_u32`] is a loop) and no 32 × 32 → 64-bit multiply (so
 /// [`mul_wide`] is four multiplies). Callers use it to pick a 32-bit short
 /// path where one exists; the result is the same either way.
-pub const ARMV6M: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+pub const ARMV6M: bool = cfg!(humsense_armv6m);
 
 /// Whether to take the 32-bit short paths that stand in for wide products
 /// on ARMv6-M: there, and in this crate's unit tests, so that the host
@@ -103,11 +103,11 @@ pub const fn div_rem_u32(n: u32, d: u32) -> (u32, u32) {
     if d == 0 {
         return (u32::MAX, n);
     }
-    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    #[cfg(humsense_armv6m)]
     {
         div_rem_shift(n, d)
     }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    #[cfg(not(humsense_armv6m))]
     {
         (n / d, n % d)
     }
@@ -116,11 +116,8 @@ pub const fn div_rem_u32(n: u32, d: u32) -> (u32, u32) {
 /// [`div_rem_u32`] by restoring division, `d > 0`. Compiled on every
 /// target so the host tests check it against `/` and `%`; out of line on
 /// ARMv6-M (one copy for every caller).
-#[cfg_attr(
-    not(all(target_arch = "arm", not(target_has_atomic = "32"))),
-    allow(dead_code)
-)]
-#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+#[cfg_attr(not(humsense_armv6m), allow(dead_code))]
+#[cfg_attr(humsense_armv6m, inline(never))]
 const fn div_rem_shift(n: u32, d: u32) -> (u32, u32) {
     let mut r = n;
     let mut q = 0u32;
@@ -155,7 +152,7 @@ pub fn step_to_hz(step: u32, rate_hz: u32) -> f32 {
 /// Floor of the square root of a `u32`, exact (bit-by-bit method, 16 steps).
 /// Out of line on Cortex-M0, where it serves both amplitude paths of the
 /// back end.
-#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
+#[cfg_attr(humsense_armv6m, inline(never))]
 pub const fn isqrt_u32(v: u32) -> u32 {
     let mut rem = v;
     let mut res: u32 = 0;
@@ -181,12 +178,12 @@ pub const fn isqrt_u32(v: u32) -> u32 {
 /// hardware divide (Cortex-M3/M4/M7) each step is a few instructions; on
 /// Cortex-M0, which has none, it falls back to the bit-by-bit method.
 pub fn isqrt_u32_from(v: u32, guess: u32) -> u32 {
-    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    #[cfg(humsense_armv6m)]
     {
         let _ = guess;
         isqrt_u32(v)
     }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    #[cfg(not(humsense_armv6m))]
     {
         if v == 0 {
             return 0;
@@ -293,20 +290,20 @@ pub fn atan2_turns(y: i32, x: i32) -> u32 {
 ///
 /// Cortex-M0/M0+ (thumbv6m) has no long multiply: a `u64` product there
 /// is a call to the 64 × 64-bit `__aeabi_lmul` (about 40 instructions).
-/// On those cores (recognised, among ARM targets, by their lack of 32-bit
-/// compare-and-swap atomics: no stable `cfg` names the architecture
-/// version) this builds the product from four 16 × 16-bit products
+/// On those cores (`cfg(humsense_armv6m)`, set by `build.rs` for ARM
+/// targets without 32-bit compare-and-swap atomics: no stable `cfg` names
+/// the architecture version) this builds the product from four 16 × 16-bit products
 /// instead, in one out-of-line copy; elsewhere (one `umull` on
 /// Cortex-M3/M4/M7) it is the plain product, inline. Both give the same
 /// bits (checked by a unit test on the host and by the golden vectors on
 /// both emulated cores).
 #[inline(always)]
 pub const fn mul_wide(a: u32, b: u32) -> u64 {
-    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    #[cfg(humsense_armv6m)]
     {
         mul_wide_v6m(a, b)
     }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    #[cfg(not(humsense_armv6m))]
     {
         a as u64 * b as u64
     }
@@ -315,7 +312,7 @@ pub const fn mul_wide(a: u32, b: u32) -> u64 {
 /// [`mul_wide`] on ARMv6-M: four 16 × 16-bit products, out of line (one
 /// copy of its 15 instructions serves every caller; it runs a few times a
 /// cycle, never per sample).
-#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+#[cfg(humsense_armv6m)]
 #[inline(never)]
 const fn mul_wide_v6m(a: u32, b: u32) -> u64 {
     {
@@ -331,11 +328,11 @@ const fn mul_wide_v6m(a: u32, b: u32) -> u64 {
 /// `a · b` for a signed `a`, exact (see [`mul_wide`]).
 #[inline(always)]
 pub const fn mul_wide_signed(a: i32, b: u32) -> i64 {
-    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    #[cfg(humsense_armv6m)]
     {
         mul_wide_signed_v6m(a, b)
     }
-    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    #[cfg(not(humsense_armv6m))]
     {
         a as i64 * b as i64
     }
@@ -343,7 +340,7 @@ pub const fn mul_wide_signed(a: i32, b: u32) -> i64 {
 
 /// [`mul_wide_signed`] on ARMv6-M: the magnitude's product, negated for
 /// a negative `a`; out of line like [`mul_wide`] there.
-#[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+#[cfg(humsense_armv6m)]
 #[inline(never)]
 const fn mul_wide_signed_v6m(a: i32, b: u32) -> i64 {
     let m = mul_wide(a.unsigned_abs(), b) as i64;
@@ -372,8 +369,8 @@ pub const fn mul_q4(a: u32, b: u32) -> u32 {
 /// [`mul_q4`], with a short path for the common case of two factors below
 /// 2^16 (one 32-bit multiply instead of four); elsewhere it is inline (one
 /// long multiply).
-#[cfg_attr(all(target_arch = "arm", not(target_has_atomic = "32")), inline(never))]
-#[cfg_attr(not(all(target_arch = "arm", not(target_has_atomic = "32"))), inline)]
+#[cfg_attr(humsense_armv6m, inline(never))]
+#[cfg_attr(not(humsense_armv6m), inline)]
 const fn mul_shr(a: u32, b: u32, s: u32) -> u32 {
     if SHORT_PATHS && (a | b) >> 16 == 0 {
         // The product fits 32 bits: nothing to saturate.
