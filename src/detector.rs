@@ -85,7 +85,7 @@ pub struct Cycle<const N: usize, const H: usize> {
     pub health: MainsHealth,
     /// Lowest and highest code of the ADC (the rails) in offset binary, for
     /// saturation.
-    pub rails: (i32, i32),
+    pub rails: (u16, u16),
 }
 
 impl<const N: usize, const H: usize> Cycle<N, H> {
@@ -366,11 +366,12 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         self.signed = signed;
         let index = self.cycle_start.wrapping_add(u64::from(n) - 1);
         self.cycle_start = self.cycle_start.wrapping_add(u64::from(n));
-        let span = 1i32 << self.adc_bits;
+        // adc_bits ≤ 16 (validated): both rails fit u16.
+        let span = 1u32 << (self.adc_bits & 31);
         let low = if signed { 32_768 - span / 2 } else { 0 };
         cycle.end_sample = index;
         cycle.samples = n;
-        cycle.rails = (low, low + span - 1);
+        cycle.rails = (low as u16, (low + span - 1) as u16);
         let step = self.tracker.step();
         if n != self.scale.samples() || step != self.scale_step {
             let recip = if n == self.scale.samples() {
@@ -616,7 +617,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             let was_faulted = c.faults.present().intersects(SIGNAL_FAULTS);
             let input = FaultInput {
                 amp_q8: amp,
-                dc: i32::from(*dc),
+                dc: *dc,
                 flat: *flat,
                 active: c.decision.active(),
                 rails: cycle.rails,

@@ -63,14 +63,14 @@ impl FaultTuning {
 pub struct FaultInput {
     /// Amplitude, Q8 codes.
     pub amp_q8: u32,
-    /// Mean level, codes.
-    pub dc: i32,
+    /// Mean level, offset-binary code.
+    pub dc: u16,
     /// Every sample of the cycle had one code.
     pub flat: bool,
     /// The channel is active (a touch may saturate).
     pub active: bool,
-    /// ADC rails.
-    pub rails: (i32, i32),
+    /// ADC rails (lowest and highest code), offset binary.
+    pub rails: (u16, u16),
     /// The mains reference's health.
     pub health: MainsHealth,
 }
@@ -108,22 +108,16 @@ impl FaultState {
     /// caller, the back end.
     #[inline(always)]
     pub fn update(&mut self, x: &FaultInput, t: &FaultTuning) -> Faults {
-        let (lo, hi) = x.rails;
+        let (lo, hi) = (u32::from(x.rails.0), u32::from(x.rails.1));
         let span = hi.saturating_sub(lo).max(1);
-        let full = span.unsigned_abs();
         // span/2 of amplitude is span·128 in Q8: 0.52 of it is span·66.6.
-        // Exact: the products fit 32 bits for any span below 2^25 (every
-        // 16-bit converter); above, a product that overflows saturates,
-        // which compares the same (it is above every amplitude).
-        let (on, off) = if full >> 25 == 0 {
-            (full * 67, full * 61)
-        } else {
-            (full.saturating_mul(67), full.saturating_mul(61))
-        };
-        let swing_on = x.amp_q8 > on;
-        let swing_off = x.amp_q8 < off;
-        let top_on = x.dc >= hi - span / 32;
-        let top_off = x.dc < hi - span / 16;
+        // Exact: span < 2^16, so the products fit 32 bits.
+        let swing_on = x.amp_q8 > span * 67;
+        let swing_off = x.amp_q8 < span * 61;
+        // hi ≥ span, so neither subtraction wraps (hi < lo gives span 1).
+        let dc = u32::from(x.dc);
+        let top_on = dc >= hi - (span >> 5);
+        let top_off = dc < hi - (span >> 4);
         if x.active || (swing_off && top_off) {
             self.saturated = 0;
         } else if swing_on || top_on {
@@ -180,7 +174,7 @@ impl FaultState {
 mod tests {
     use super::*;
 
-    fn input(amp_codes: u32, dc: i32, flat: bool) -> FaultInput {
+    fn input(amp_codes: u32, dc: u16, flat: bool) -> FaultInput {
         FaultInput {
             amp_q8: amp_codes * 256,
             dc,
@@ -218,19 +212,23 @@ mod tests {
     }
 
     #[test]
-    fn swing_limits_are_exact_on_both_paths() {
-        // Reference: the limits of the module docs as exact products,
-        // amp > 67·span counts, amp < 61·span resets (common practice);
-        // a 16-bit span takes the short path, 4·10^7 (above 2^25) the
-        // saturating one without overflow, 2^31 − 1 with it.
+    fn swing_and_top_limits_are_exact() {
+        // Reference: the limits of the module docs as exact integer
+        // products (common practice for a clipped sine: a full-scale sine
+        // has amplitude span/2, 0.52 of it is span·128·0.52 ≈ span·67 in
+        // Q8): amp > 67·span counts, amp < 61·span resets; a mean at or
+        // above hi − ⌊span/32⌋ counts, one below hi − ⌊span/16⌋ (with a
+        // small swing) resets. Spans of a 12-bit and a 16-bit converter,
+        // offset binary and two's complement (rails around 32 768).
         let t = FaultTuning::new(&Config::touch());
-        for span in [4_095u32, 65_535, 40_000_000, i32::MAX as u32] {
-            let rails = (0, span as i32);
-            let mid = (span / 2) as i32;
-            let at = |amp: u32, f: &mut FaultState| {
+        for rails in [(0u16, 4_095u16), (0, 65_535), (30_720, 34_815)] {
+            let (lo, hi) = (u32::from(rails.0), u32::from(rails.1));
+            let span = hi - lo;
+            let mid = (lo + span / 2) as u16;
+            let at = |amp: u32, dc: u16, f: &mut FaultState| {
                 let x = FaultInput {
                     amp_q8: amp,
-                    dc: mid,
+                    dc,
                     flat: false,
                     active: false,
                     rails,
@@ -239,18 +237,18 @@ mod tests {
                 f.update(&x, &t);
                 f.saturated
             };
-            let on = u64::from(span) * 67;
-            let off = u64::from(span) * 61;
-            let clamp = |v: u64| v.min(u64::from(u32::MAX)) as u32;
+            let (on, off) = (span * 67, span * 61);
             let mut f = FaultState::new();
-            assert_eq!(
-                at(clamp(on + 1), &mut f),
-                u16::from(on < u64::from(u32::MAX))
-            );
-            let before = f.saturated;
-            assert_eq!(at(clamp(on), &mut f), before, "{span}");
-            assert_eq!(at(clamp(off), &mut f), before, "{span}");
-            assert_eq!(at(clamp(off - 1), &mut f), 0, "{span}");
+            assert_eq!(at(on + 1, mid, &mut f), 1, "{rails:?}");
+            assert_eq!(at(on, mid, &mut f), 1, "{rails:?}");
+            assert_eq!(at(off, mid, &mut f), 1, "{rails:?}");
+            assert_eq!(at(off - 1, mid, &mut f), 0, "{rails:?}");
+            let (top_on, top_off) = ((hi - span / 32) as u16, (hi - span / 16) as u16);
+            assert_eq!(at(0, top_on, &mut f), 1, "{rails:?}");
+            assert_eq!(at(0, top_on - 1, &mut f), 1, "{rails:?}");
+            assert_eq!(at(0, top_off, &mut f), 1, "{rails:?}");
+            assert_eq!(at(0, top_off - 1, &mut f), 0, "{rails:?}");
+            assert_eq!(at(0, top_on - 1, &mut f), 0, "{rails:?}");
         }
     }
 
