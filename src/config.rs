@@ -146,8 +146,8 @@ pub struct Config {
     /// Cycles of saturation, while not active, before a
     /// [`Fault::Saturated`](crate::Fault::Saturated) (1 to 65 535).
     pub fault_saturation_cycles: u16,
-    /// Cycles with every sample at one code before a
-    /// [`Fault::Stuck`](crate::Fault::Stuck) (1 to 65 535).
+    /// Cycles of an input that does not move (every sample at one code)
+    /// before a [`Fault::Stuck`](crate::Fault::Stuck) (1 to 65 535).
     pub fault_stuck_cycles: u16,
     /// Amplitude, in ADC codes, below which a cycle counts as without hum
     /// (0 to 10 000); the fault clears above twice this.

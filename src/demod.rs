@@ -357,6 +357,18 @@ impl<const H: usize> DemodState<H> {
         self.sum = self.sum.wrapping_add(v);
     }
 
+    /// Whether the present cycle demodulated to exactly nothing: every
+    /// accumulator is zero, as when every group equals the DC estimate (an
+    /// input that does not move, from the cycle after it stopped). Read
+    /// before [`end_cycle_with`](Self::end_cycle_with), which clears them.
+    pub fn quiet(&self) -> bool {
+        let mut bits = self.acc[0] | self.acc[1];
+        for [i, q] in self.harm {
+            bits |= i | q;
+        }
+        bits == 0
+    }
+
     /// Ends a cycle of `n` samples taken at phase step `step`: returns the
     /// fundamental and the harmonic pairs in Q8 codes, updates the DC
     /// estimate and clears the accumulators. `n = 0` returns zeros.
@@ -446,6 +458,33 @@ mod tests {
             out = d.end_cycle(n, step);
         }
         out
+    }
+
+    #[test]
+    fn a_steady_code_is_quiet_once_the_dc_estimate_reaches_it() {
+        // A stuck input (common practice: a converter input that does not
+        // move reads one code) gives exactly zero accumulators once the DC
+        // estimate equals its code; a cycle of odd length (the lone last
+        // sample) too. Anything that moves is not quiet: the step onto the
+        // code, and a one-code square wave at the reference frequency.
+        for n in [40, 41] {
+            let step = phase_step(50_000, 50 * n);
+            let mut d = DemodState::<2>::new(2048);
+            let mut phase = 0;
+            let mut quiet = [false; 3];
+            for q in &mut quiet {
+                phase = feed(&mut d, |_| 1234, n, step, phase);
+                *q = d.quiet();
+                let _ = d.end_cycle(n, step);
+            }
+            assert_eq!(quiet, [false, true, true], "n {n}");
+            let square = |th: u32| 1234 + u16::from(th >> 31 == 1);
+            phase = feed(&mut d, square, n, step, phase);
+            assert!(!d.quiet(), "n {n}");
+            let _ = d.end_cycle(n, step);
+            let _ = feed(&mut d, square, n, step, phase);
+            assert!(!d.quiet(), "n {n}");
+        }
     }
 
     #[test]

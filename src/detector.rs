@@ -79,7 +79,8 @@ pub struct Cycle<const N: usize, const H: usize> {
     /// Mean input level per channel over the cycle, offset-binary codes
     /// (`i16` input plus 32 768).
     pub dc: [u16; N],
-    /// Per channel: every sample of the cycle had the same code.
+    /// Per channel: the cycle demodulated to exactly nothing (every group
+    /// equal to the DC estimate: an input that does not move).
     pub flat: [bool; N],
     /// Health of the mains reference after this cycle.
     pub health: MainsHealth,
@@ -387,9 +388,10 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let outs = cycle.fund.iter_mut().zip(cycle.harm.iter_mut());
         let extras = cycle.dc.iter_mut().zip(cycle.flat.iter_mut());
         for ((dem, gate), ((f, h), (dc, flat))) in stages.zip(outs.zip(extras)) {
+            *flat = dem.quiet();
             (*f, *h) = dem.end_cycle_with(scale);
             *dc = dem.dc();
-            *flat = gate.end_cycle(self.spike_groups, self.spike_floor);
+            gate.end_cycle(self.spike_groups, self.spike_floor);
         }
         self.tracker.end_cycle(&cycle.fund);
         cycle.health = self.tracker.health();

@@ -37,7 +37,7 @@ pub enum Fault {
     /// `fault_saturation_cycles` while the channel is not active. A strong
     /// touch that saturates only while the finger is there is a touch.
     Saturated,
-    /// Every sample of a cycle has the same code, for
+    /// The input does not move (every sample at one code), for
     /// `fault_stuck_cycles` cycles in a row.
     Stuck,
     /// The hum amplitude stayed below `nohum_codes` for `nohum_cycles`

@@ -10,8 +10,10 @@
 //!   `m < hi − s/16`, or when the channel is active. Sitting at the bottom
 //!   rail is what a single-supply front end biased at 0 V does at rest, so
 //!   it is not saturation (a bottom rail with no movement at all is stuck).
-//! - **stuck**: every sample of the cycle had one code, for
-//!   `fault_stuck_cycles` cycles; cleared by the first cycle that moves.
+//! - **stuck**: the cycle demodulated to exactly nothing (every group of
+//!   samples equal to the DC estimate, which a steady code reaches one or
+//!   two cycles after it starts), for `fault_stuck_cycles` cycles; cleared
+//!   by the first cycle that moves.
 //! - **no hum**: `a < nohum_codes` for `nohum_cycles` cycles (not while
 //!   stuck); cleared once `a > 2 · nohum_codes`.
 //! - **mains** faults mirror [`MainsHealth`].
@@ -65,7 +67,8 @@ pub struct FaultInput {
     pub amp_q8: u32,
     /// Mean level, offset-binary code.
     pub dc: u16,
-    /// Every sample of the cycle had one code.
+    /// The cycle demodulated to exactly nothing (an input that does not
+    /// move; see the module docs).
     pub flat: bool,
     /// The channel is active (a touch may saturate).
     pub active: bool,

@@ -10,17 +10,26 @@
 //! a real change of level is delayed by at most that many groups. An
 //! accepted group passes its exact sum.
 //!
-//! The limit is set once per mains cycle from the largest accepted step of
-//! the cycle before:
+//! The limit is set once per mains cycle from the step peak `M`, the
+//! largest accepted step so far with a decay of a quarter per cycle: at
+//! each cycle end
 //!
-//! `limit = min((max_len + 1) · max_step + floor, 65 535)`
+//! `limit = min((max_len + 1) · M + floor, 65 535)`, then `M ← ⌊3M/4⌋`
+//!
+//! and during the next cycle `M` rises to any larger accepted step. A
+//! steady hum keeps `M` at its largest step; when the hum falls (a pad
+//! released), the limit follows it down within a few cycles (tenfold in
+//! eight cycles) rather than at once, so spike rejection is a little
+//! weaker for those cycles. The decay is what makes the block path cheap:
+//! its watermark starts each cycle at `M`, and the steps of a steady hum
+//! seldom rise above it.
 //!
 //! The factor `max_len + 1` lets the true signal move for that many held
 //! groups and still be accepted when the hold ends. A sinusoid of
 //! amplitude A with n samples per cycle steps at most 2πA/n per sample (so
 //! about twice that per pair), so a full-scale spike on ambient hum is
 //! held, while a touch that raises the hum tenfold opens the gate within
-//! one cycle (the accepted steps of that cycle set the next limit). A spike
+//! one cycle (the accepted steps of that cycle raise the next limit). A spike
 //! of `L` samples touches at most `⌊L/2⌋ + 1` pairs: the detector holds up
 //! to that many groups for `spike_max_len = L`. Means are offset-binary
 //! codes (`u16`), so every step fits `u16`. The first cycle accepts
@@ -29,7 +38,7 @@
 //! Two forms give the same output: [`ImpulseState::gate`], one group at a
 //! time from memory (the frame path), and [`BlockGate`] with [`BlockHold`]
 //! for a run of pairs in registers (the block path), which tests a step
-//! against a watermark (the largest in-limit step so far this cycle) in one
+//! against a watermark (the step peak, within the limit) in one
 //! compare and leaves the limit and the hold counter to the rare groups
 //! above the watermark.
 
@@ -43,7 +52,9 @@ pub struct ImpulseState {
     last: u16,
     /// Present gate limit in codes; `u16::MAX` accepts everything.
     limit: u16,
-    /// Largest accepted step in the present cycle, codes.
+    /// Step peak `M` (see the module docs): the largest accepted step
+    /// this cycle, or the decayed peak of the cycles before if larger,
+    /// codes.
     max_step: u16,
     /// Samples held in a row.
     run: u8,
@@ -104,9 +115,9 @@ impl ImpulseState {
     /// [`block`](Self::block) for pair values scaled by `2^LANE`.
     #[inline(always)]
     const fn block_at<const LANE: u32>(&self, start: u32, dc: u16) -> (BlockGate, BlockHold) {
-        // The largest step so far is within the limit unless a step above
-        // it was accepted; either way it is a valid watermark only up to
-        // the limit, and the rest is kept as `max_over`.
+        // The step peak is within the limit unless a step above it was
+        // accepted this cycle; either way it is a valid watermark only up
+        // to the limit, and the rest is kept as `max_over`.
         let (w, over) = if self.max_step > self.limit {
             (self.limit as u32, self.max_step as u32)
         } else {
@@ -152,17 +163,15 @@ impl ImpulseState {
         };
     }
 
-    /// Ends a mains cycle: sets the limit for the next cycle from this one's
-    /// largest accepted step. Returns whether the cycle was flat (no
-    /// accepted group mean differed from the one before it: a stuck input).
-    /// Per cycle.
-    pub fn end_cycle(&mut self, max_len: u8, floor: u16) -> bool {
+    /// Ends a mains cycle: sets the limit for the next cycle from the step
+    /// peak and decays the peak by a quarter (see the module docs). Per
+    /// cycle.
+    pub fn end_cycle(&mut self, max_len: u8, floor: u16) {
         let factor = u32::from(max_len) + 1;
-        let flat = self.max_step == 0;
-        let limit = u32::from(self.max_step) * factor + u32::from(floor);
+        let peak = u32::from(self.max_step);
+        let limit = peak * factor + u32::from(floor);
         self.limit = if limit > 0xffff { 0xffff } else { limit as u16 };
-        self.max_step = 0;
-        flat
+        self.max_step = ((peak * 3) >> 2) as u16;
     }
 
     /// The present gate limit in codes (`u16::MAX` before the first cycle).
@@ -175,15 +184,14 @@ impl ImpulseState {
 /// common pair costs a subtract, a shifted compare, a bit clear and a
 /// shifted subtract.
 ///
-/// It keeps a watermark `w`, the largest step accepted so far this cycle
-/// within the limit (`w ≤ limit`), and `lo = last − w` (wrapping `u32`).
-/// Then for a pair mean `m`, `|m − last| ≤ w` is one unsigned compare,
-/// `m − lo ≤ 2w`, and accepting such a pair changes neither the watermark
-/// nor the cycle's largest step: `lo ← m − w`. Only a step above the
-/// watermark takes the slower path: within the limit it raises the
-/// watermark; above the limit it is held, or accepted when `max_len`
-/// groups are held in a row (that step is kept in [`BlockHold`], apart
-/// from the watermark). The cycle's largest accepted step is
+/// It keeps a watermark `w`, the step peak within the limit (`w ≤ limit`;
+/// see the module docs), and `lo = last − w` (wrapping `u32`). Then for a
+/// pair mean `m`, `|m − last| ≤ w` is one unsigned compare, `m − lo ≤ 2w`,
+/// and accepting such a pair changes neither the watermark nor the peak:
+/// `lo ← m − w`. Only a step above the watermark takes the slower path:
+/// within the limit it raises the watermark; above the limit it is held,
+/// or accepted when `max_len` groups are held in a row (that step is kept
+/// in [`BlockHold`], apart from the watermark). The peak is
 /// `max(w, BlockHold::max_over)`, exactly the frame path's.
 #[derive(Clone, Copy, Debug, Default)]
 pub struct BlockGate {
@@ -327,7 +335,7 @@ mod tests {
         for (x, o) in xs.iter().zip(out.iter_mut()) {
             *o = g.filter(*x, 3);
         }
-        let _ = g.end_cycle(3, 4);
+        g.end_cycle(3, 4);
     }
 
     #[test]
@@ -335,10 +343,11 @@ mod tests {
         let mut g = ImpulseState::new();
         let flat = [100u16; 20];
         let mut out = [0u16; 20];
-        // The first cycle's first step (from 0) sets a wide limit; the
-        // second flat cycle brings it down to the floor.
-        run_cycle(&mut g, &flat, &mut out);
-        run_cycle(&mut g, &flat, &mut out);
+        // The first cycle's first step (from 0) sets a wide limit; flat
+        // cycles after it bring it down to the floor as the peak decays.
+        for _ in 0..40 {
+            run_cycle(&mut g, &flat, &mut out);
+        }
         assert_eq!(g.limit(), 4);
         // A three-sample full-scale spike is held at 100.
         let mut spike = [100u16; 20];
@@ -415,7 +424,12 @@ mod tests {
                         "LANE {LANE}, max_len {max_len}, cycle {cycle}"
                     );
                 }
-                assert_eq!(frame.end_cycle(max_len, 4), block.end_cycle(max_len, 4));
+                frame.end_cycle(max_len, 4);
+                block.end_cycle(max_len, 4);
+                assert_eq!(
+                    block, frame,
+                    "LANE {LANE}, max_len {max_len}, cycle {cycle}"
+                );
                 // A new DC estimate for the next cycle (the demodulator's).
                 dc = (rand() % (span / 4 + 1)) as u16;
             }
@@ -434,12 +448,39 @@ mod tests {
         for x in [0, u16::MAX, 0, u16::MAX] {
             let _ = g.filter(x, 8);
         }
-        assert!(!g.end_cycle(8, u16::MAX));
+        g.end_cycle(8, u16::MAX);
         assert_eq!(g.limit(), u16::MAX);
-        // A cycle of one repeated code is flat.
-        for _ in 0..10 {
-            let _ = g.filter(u16::MAX, 8);
+        g.end_cycle(8, 0);
+        assert_eq!(g.limit(), u16::MAX);
+    }
+
+    #[test]
+    fn the_step_peak_decays_by_a_quarter_per_cycle() {
+        // The module docs' rule, checked cycle by cycle against the
+        // recurrence written out here: after one cycle with a largest step
+        // of 2000 codes (from the initial mean 0, then a step of 1000),
+        // quiet cycles give limits (max_len + 1)·M + floor with
+        // M = 2000, 1500, 1125, …
+        // down to the floor alone, and a step above the decayed peak
+        // raises it again at once.
+        let mut g = ImpulseState::new();
+        let _ = g.filter(2000, 2);
+        let _ = g.filter(3000, 2);
+        let mut m = 2000u32;
+        for _ in 0..40 {
+            g.end_cycle(2, 5);
+            assert_eq!(u32::from(g.limit()), 3 * m + 5);
+            m = m * 3 / 4;
+            for _ in 0..10 {
+                let _ = g.filter(3000, 2);
+            }
         }
-        assert!(g.end_cycle(8, 1));
+        assert_eq!((m, g.limit()), (0, 5));
+        // Steps of 2 (within the floor of 5) raise the peak to 2.
+        for x in [3002, 3000, 3002] {
+            assert_eq!(g.filter(x, 2), x);
+        }
+        g.end_cycle(2, 5);
+        assert_eq!(g.limit(), 3 * 2 + 5);
     }
 }
