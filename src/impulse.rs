@@ -117,11 +117,12 @@ impl ImpulseState {
     const fn block_at<const LANE: u32>(&self, start: u32, dc: u16) -> (BlockGate, BlockHold) {
         // The step peak is within the limit unless a step above it was
         // accepted this cycle; either way it is a valid watermark only up
-        // to the limit, and the rest is kept as `max_over`.
-        let (w, over) = if self.max_step > self.limit {
-            (self.limit as u32, self.max_step as u32)
+        // to the limit, and `max_over` keeps the whole of it (at most the
+        // watermark when within the limit).
+        let w = if self.max_step > self.limit {
+            self.limit as u32
         } else {
-            (self.max_step as u32, 0)
+            self.max_step as u32
         };
         let lo = (self.last as u32).wrapping_sub(dc as u32).wrapping_sub(w);
         let gate = BlockGate {
@@ -131,9 +132,8 @@ impl ImpulseState {
         let hold = BlockHold {
             limit: self.limit as u32,
             run: self.run as u32,
-            held: self.run > 0,
             held_next: start,
-            max_over: over,
+            max_over: self.max_step as u32,
         };
         (gate, hold)
     }
@@ -156,7 +156,7 @@ impl ImpulseState {
             .wrapping_add(w)
             .wrapping_add(u32::from(dc)) as u16;
         self.max_step = w.max(hold.max_over) as u16;
-        self.run = if hold.held && hold.held_next == end {
+        self.run = if hold.held_next == end {
             hold.run as u8
         } else {
             0
@@ -211,15 +211,18 @@ pub struct BlockGate {
 /// Instead of clearing the hold counter on every accepted pair, a held
 /// pair records the position of the pair after it, and the next step
 /// over the limit continues the run only if it comes at that position.
+/// (Before the first held pair of a run, `held_next` is the run's start,
+/// where a count carried over from the last run continues; a count of 0
+/// needs no marker.)
 #[derive(Clone, Copy, Debug, Default)]
 pub struct BlockHold {
     limit: u32,
+    /// Groups held in a row, up to `held_next`.
     run: u32,
-    /// Whether `held_next` marks a held pair.
-    held: bool,
     /// Position just after the latest held pair.
     held_next: u32,
-    /// Largest step accepted above the limit this cycle (0 if none).
+    /// The step peak at the run's start, raised by any step accepted
+    /// above the limit.
     max_over: u32,
 }
 
@@ -311,13 +314,12 @@ impl BlockGate {
         max_len: u32,
         (pos, pos_step): (u32, u32),
     ) -> (u32, Option<u32>) {
-        if !hold.held || hold.held_next != pos {
+        if hold.held_next != pos {
             // The group before was accepted: a new run.
             hold.run = 0;
         }
         if hold.run < max_len {
             hold.run += 1;
-            hold.held = true;
             hold.held_next = pos.wrapping_add(pos_step);
             return (m, Some(last));
         }
