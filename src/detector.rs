@@ -126,7 +126,9 @@ pub struct Frontend<const N: usize, const H: usize> {
     /// cover a spike of `spike_max_len` samples (0 when it is 0).
     spike_groups: u8,
     spike_floor: u16,
-    adc_bits: u8,
+    /// The rails of the last input type (offset binary; unsigned until a
+    /// signed sample arrives): recomputed only when `signed` changes.
+    rails: (u16, u16),
     signed: bool,
 }
 
@@ -157,7 +159,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             scale_step: 0,
             spike_groups,
             spike_floor: cfg.spike_floor_codes,
-            adc_bits: cfg.adc_bits,
+            // adc_bits ≤ 16 (validated): 2^bits − 1 fits u16.
+            rails: (0, ((1u32 << cfg.adc_bits.clamp(1, 16)) - 1) as u16),
             signed: false,
         }
     }
@@ -364,15 +367,18 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     /// copy serves the frame and the block paths.
     #[inline(never)]
     fn end_cycle(&mut self, n: u32, signed: bool, cycle: &mut Cycle<N, H>) {
-        self.signed = signed;
+        if signed != self.signed {
+            // Same span, centred on 32 768 for two's complement codes.
+            self.signed = signed;
+            let span = u32::from(self.rails.1.wrapping_sub(self.rails.0)) + 1;
+            let low = if signed { 32_768 - span / 2 } else { 0 };
+            self.rails = (low as u16, (low + span - 1) as u16);
+        }
         let index = self.cycle_start.wrapping_add(u64::from(n) - 1);
         self.cycle_start = self.cycle_start.wrapping_add(u64::from(n));
-        // adc_bits ≤ 16 (validated): both rails fit u16.
-        let span = 1u32 << (self.adc_bits & 31);
-        let low = if signed { 32_768 - span / 2 } else { 0 };
         cycle.end_sample = index;
         cycle.samples = n;
-        cycle.rails = (low as u16, (low + span - 1) as u16);
+        cycle.rails = self.rails;
         let step = self.tracker.step();
         if n != self.scale.samples() || step != self.scale_step {
             let recip = if n == self.scale.samples() {

@@ -226,3 +226,34 @@ fn diagnostics_snapshot_reports_state_and_faults() {
     assert_eq!(snap.state, humsense::detector::ChannelState::Faulted);
     assert!(det.snapshot(1).is_none());
 }
+
+#[test]
+fn each_cycle_carries_the_rails_of_its_input_type() {
+    // Offset binary (u16) codes of a 12-bit converter run 0 to 4095; two's
+    // complement (i16) ones -2048 to 2047, which the pipeline sees plus
+    // 32 768: 30 720 to 34 815 (common practice for converter codes). A
+    // detector fed one type and then the other switches with it.
+    let cfg = Config::touch();
+    let mut fe = humsense::Frontend::<1, 0>::new(&cfg).unwrap();
+    let mut rails = Vec::new();
+    for k in 0..400u32 {
+        let x = (k % 7) as u16;
+        let cycle = if k < 200 {
+            fe.push_frame(&[x as i16])
+        } else {
+            fe.push_frame(&[x])
+        };
+        if let Some(c) = cycle {
+            rails.push((k, c.rails));
+        }
+    }
+    assert!(rails.len() >= 8, "{rails:?}");
+    for (k, r) in rails {
+        let want = if k < 200 {
+            (30_720, 34_815)
+        } else {
+            (0, 4_095)
+        };
+        assert_eq!(r, want, "sample {k}");
+    }
+}
