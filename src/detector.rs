@@ -115,8 +115,9 @@ pub struct Frontend<const N: usize, const H: usize> {
     tracker: MainsTracker,
     impulse: [ImpulseState; N],
     demod: [DemodState<H>; N],
-    /// Index of the first sample of the present cycle.
-    cycle_start: u64,
+    /// Index of the last sample of the last cycle (`u64::MAX`, that is
+    /// −1, before the first).
+    last_end: u64,
     /// The last cycle's scaling (sample count, reciprocal, pair
     /// correction) and the phase step it was made for, kept while both
     /// repeat (one division per change of the count, not per cycle).
@@ -154,7 +155,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             tracker,
             impulse: [ImpulseState::new(); N],
             demod: [DemodState::new(mid); N],
-            cycle_start: 0,
+            last_end: u64::MAX,
             scale: CycleScale::empty(),
             scale_step: 0,
             spike_groups,
@@ -374,8 +375,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             let low = if signed { 32_768 - span / 2 } else { 0 };
             self.rails = (low as u16, (low + span - 1) as u16);
         }
-        let index = self.cycle_start.wrapping_add(u64::from(n) - 1);
-        self.cycle_start = self.cycle_start.wrapping_add(u64::from(n));
+        let index = self.last_end.wrapping_add(u64::from(n));
+        self.last_end = index;
         cycle.end_sample = index;
         cycle.samples = n;
         cycle.rails = self.rails;
@@ -410,8 +411,8 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
 
     /// Samples taken per channel so far.
     pub const fn samples_seen(&self) -> u64 {
-        self.cycle_start
-            .wrapping_add(self.tracker.samples_in_cycle() as u64)
+        self.last_end
+            .wrapping_add(1 + self.tracker.samples_in_cycle() as u64)
     }
 
     /// Mean input level of channel `ch` over its last cycle, in the input's

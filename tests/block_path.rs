@@ -118,3 +118,28 @@ fn longest_and_no_spike_rejection_match_frames() {
     same::<1>(long, 9);
     same::<1>(off, 9);
 }
+
+#[test]
+fn samples_seen_counts_every_frame_on_both_paths() {
+    // The count of frames taken, before the first cycle ends, across cycle
+    // ends and with a block ending inside a pair (a count kept by hand is
+    // the reference).
+    let xs = signal::<1>(1_000, 5);
+    let mut det = Detector::<1>::new(Config::touch()).unwrap();
+    assert_eq!(det.samples_seen(), 0);
+    let mut taken = 0u64;
+    for (k, x) in xs[..333].iter().enumerate() {
+        det.push_frame(&[*x], |_| {});
+        taken += 1;
+        if k % 37 == 0 {
+            assert_eq!(det.samples_seen(), taken);
+        }
+    }
+    for block in xs[333..].chunks(61) {
+        let left = det.push_block(block, |_| {});
+        assert_eq!(left, 0);
+        taken += block.len() as u64;
+        assert_eq!(det.samples_seen(), taken);
+    }
+    assert_eq!(taken, 1_000);
+}
