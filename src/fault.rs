@@ -47,7 +47,9 @@ impl FaultTuning {
         Self {
             saturated_cycles: cfg.fault_saturation_cycles,
             stuck_cycles: cfg.fault_stuck_cycles,
-            nohum_q8: f32_to_fixed(cfg.nohum_codes, 8),
+            // Below 2^31 (a validated config has at most 10 000 codes,
+            // 2.56·10^6 in Q8), so twice it fits u32.
+            nohum_q8: f32_to_fixed(cfg.nohum_codes, 8).min(i32::MAX as u32),
             nohum_cycles: cfg.nohum_cycles,
         }
     }
@@ -133,7 +135,7 @@ impl FaultState {
         };
         if x.amp_q8 < t.nohum_q8 {
             self.nohum = self.nohum.saturating_add(1);
-        } else if x.amp_q8 > t.nohum_q8.saturating_add(t.nohum_q8) {
+        } else if x.amp_q8 > t.nohum_q8 * 2 {
             self.nohum = 0;
         }
         let stuck = self.stuck >= t.stuck_cycles;
