@@ -28,7 +28,7 @@
 //! closed all but (3/4)^startup_cycles of its initial error (0.08 % for the
 //! touch default of 25 cycles, 0.5 s at 50 Hz).
 
-use crate::fixed::SHORT_PATHS;
+use crate::fixed::{mul_wide, SHORT_PATHS};
 
 /// One code of amplitude in Q12.
 const ONE_CODE_Q12: u32 = 1 << 12;
@@ -122,10 +122,10 @@ impl BaselineState {
             let a = a << 8;
             (a >= b * HOLD_END_Q8, a < b * HOLD_BELOW_Q8)
         } else {
-            let (a, b) = (u64::from(a) << 8, u64::from(b));
+            let a = u64::from(a) << 8;
             (
-                a >= b * u64::from(HOLD_END_Q8),
-                a < b * u64::from(HOLD_BELOW_Q8),
+                a >= mul_wide(b, HOLD_END_Q8),
+                a < mul_wide(b, HOLD_BELOW_Q8),
             )
         };
         if self.held == EXPIRED {

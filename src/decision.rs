@@ -17,7 +17,9 @@
 
 use crate::config::{Config, Profile};
 use crate::event::EventKind;
-use crate::fixed::{db_to_ratio_q16, div_rem_u32, f32_to_fixed, mul_q4, mul_q8, ARMV6M};
+use crate::fixed::{
+    db_to_ratio_q16, div_rem_u32, f32_to_fixed, mul_q4, mul_q8, mul_u64_u32, ARMV6M,
+};
 
 /// Most levels a field profile can have.
 pub const MAX_LEVELS: usize = 16;
@@ -52,7 +54,7 @@ impl DecisionTuning {
         // Every slot written once, in order (an array filled first and
         // then overwritten would be a `memset` call on small cores);
         // `u32::MAX` past the configured levels.
-        let step_q16 = u64::from(db_to_ratio_q16(cfg.level_step_db));
+        let step_q16 = db_to_ratio_q16(cfg.level_step_db);
         let mut r_q16 = u64::from(f32_to_fixed(cfg.on_ratio, 16));
         let levels = usize::from(cfg.levels);
         let level_q8 = core::array::from_fn(|k| {
@@ -60,7 +62,9 @@ impl DecisionTuning {
                 return u32::MAX;
             }
             let q8 = (r_q16 + 128) >> 8;
-            r_q16 = ((r_q16 * step_q16) >> 16).min(u64::from(u32::MAX) << 8);
+            // r < 2^40 and the step below 2^20 (20 dB at most): the
+            // product fits 64 bits.
+            r_q16 = (mul_u64_u32(r_q16, step_q16) >> 16).min(u64::from(u32::MAX) << 8);
             if q8 > u64::from(u32::MAX) {
                 u32::MAX
             } else {

@@ -32,7 +32,7 @@ pub const fn phase_step(freq_mhz: u32, rate_hz: u32) -> u32 {
     if rate_hz == 0 {
         return 0;
     }
-    let den = rate_hz as u64 * 1000;
+    let den = mul_wide(rate_hz, 1000);
     let num = ((freq_mhz as u64) << 32) + den / 2;
     let step = div_u64(num, den);
     if step > u32::MAX as u64 {
@@ -412,6 +412,15 @@ const fn mul_wide_v6m(a: u32, b: u32) -> u64 {
     }
 }
 
+/// `a · b` for a `u64` and a `u32`, wrapping, from two 32-bit products
+/// (see [`mul_wide`]): exact while the product fits 64 bits. For
+/// construction-time arithmetic, so that no 64-bit multiply routine is
+/// linked on Cortex-M0.
+pub const fn mul_u64_u32(a: u64, b: u32) -> u64 {
+    let high = ((a >> 32) as u32).wrapping_mul(b) as u64;
+    mul_wide(a as u32, b).wrapping_add(high << 32)
+}
+
 /// `a · b` for a signed `a`, exact (see [`mul_wide`]).
 #[inline(always)]
 pub const fn mul_wide_signed(a: i32, b: u32) -> i64 {
@@ -588,7 +597,7 @@ const EXP2_FRAC_Q30: [u32; 16] = [
 ];
 
 /// log2(10)/20 in Q32 (computed: round(0.166 096 404 744 · 2^32)).
-const LOG2_10_OVER_20_Q32: u64 = 713_378_626;
+const LOG2_10_OVER_20_Q32: u32 = 713_378_626;
 
 /// The amplitude ratio of a level in decibels, `10^(db/20)`, in Q16
 /// (65 536 = 1), for `db` from 0 to 60 (saturating above). Integer only:
@@ -596,19 +605,19 @@ const LOG2_10_OVER_20_Q32: u64 = 713_378_626;
 /// from its bits with a 16-entry table of 2^(2^-k). Accurate to about
 /// 2·10^-5 relative. Construction-time use only.
 pub fn db_to_ratio_q16(db: f32) -> u32 {
-    let db_q16 = u64::from(f32_to_fixed(db, 16).min(60 << 16));
+    let db_q16 = f32_to_fixed(db, 16).min(60 << 16);
     // log2 of the ratio, Q16 (below 10 · 2^16).
-    let y = ((db_q16 * LOG2_10_OVER_20_Q32) >> 32) as u32;
+    let y = (mul_wide(db_q16, LOG2_10_OVER_20_Q32) >> 32) as u32;
     let int = y >> 16;
     let frac = y & 0xffff;
     // 2^frac in Q30 (below 2^31).
-    let mut r: u64 = 1 << 30;
+    let mut r: u32 = 1 << 30;
     for (k, c) in EXP2_FRAC_Q30.iter().enumerate() {
         if frac & (1 << (15 - k)) != 0 {
-            r = (r * u64::from(*c)) >> 30;
+            // r, c < 2^31: the product fits, and so does the result.
+            r = (mul_wide(r, *c) >> 30) as u32;
         }
     }
-    let r = r as u32;
     // Times 2^int, Q30 → Q16, rounding down: ⌊r · 2^int / 2^14⌋. The
     // clamp at 60 dB keeps int ≤ 9, so this is one right shift.
     r >> (14 - int.min(14))
@@ -841,6 +850,15 @@ mod tests {
             mul_wide_signed(i32::MIN, u32::MAX),
             i64::from(i32::MIN) * i64::from(u32::MAX)
         );
+        // Reference: the u128 product on the host.
+        for a in [0u64, 1, 0xffff_ffff, 1 << 32, 0xff_1234_5678, (1 << 40) - 1] {
+            for b in [0u32, 1, 7, 0xf_ffff, 0xffff_ffff] {
+                let want = u128::from(a) * u128::from(b);
+                if want <= u128::from(u64::MAX) {
+                    assert_eq!(u128::from(mul_u64_u32(a, b)), want, "{a} {b}");
+                }
+            }
+        }
     }
 
     #[test]
