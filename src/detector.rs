@@ -157,7 +157,12 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             demod: [DemodState::new(mid); N],
             last_end: u64::MAX,
             scale: CycleScale::empty(),
-            scale_step: 0,
+            // No step is u32::MAX (the empty scale is remade at the first
+            // cycle end anyway). Nonzero also on purpose: Detector::new
+            // then leaves no run of zeroed fields long enough for LLVM to
+            // zero it by a call, which on Cortex-M0 links a 158-byte
+            // `__aeabi_memclr8` (the flash budget in .ci/cortexm).
+            scale_step: u32::MAX,
             spike_groups,
             spike_floor: cfg.spike_floor_codes,
             // adc_bits ≤ 16 (validated): 2^bits − 1 fits u16.
