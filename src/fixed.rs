@@ -296,9 +296,9 @@ const ATAN_NIBBLES: [[u32; 16]; 4] = {
 /// `±atan(2^-i)` as it is taken (the textbook form; the smaller code);
 /// elsewhere the steps record their directions as the bits of a mask and
 /// the angle is summed from it afterwards, four directions per lookup in
-/// [`ATAN_NIBBLES`] (the same wrapping sum: addition modulo 2^32 does not
-/// depend on the order), a bit set per step instead of a constant chosen
-/// and added.
+/// a 4 × 16 table of nibble sums (the same wrapping sum: addition modulo
+/// 2^32 does not depend on the order), a bit set per step instead of a
+/// constant chosen and added.
 pub fn atan2_turns(y: i32, x: i32) -> u32 {
     #[cfg(humsense_armv6m)]
     {
