@@ -59,10 +59,10 @@
 //!
 //! | stage | thumbv7em (M4F) | thumbv6m (M0) |
 //! |---|---|---|
-//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 12.5 | 25.2 |
-//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 242 /cycle = 6.0 | 458 /cycle = 11.4 |
-//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 249 /cycle = 6.2 | 558 /cycle = 14.0 |
-//! | **`Detector::push_block`** (`insn_per_sample`) | **26.3** (budget 25) | **52.6** (budget 60) |
+//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 11.4 | 24.1 |
+//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 226 /cycle = 5.6 | 462 /cycle = 11.5 |
+//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 237 /cycle = 5.9 | 516 /cycle = 12.9 |
+//! | **`Detector::push_block`** (`insn_per_sample`) | **24.6** (budget 25) | **50.4** (budget 60) |
 //!
 //! - The M4 loop (disassembly) is 19 instructions a pair: two loads and an
 //!   add for the pair, the scaled DC subtracted, the gate's subtract,
@@ -87,36 +87,38 @@
 //!   the per-segment bookkeeping and the one-frame edges cost more than
 //!   the run setup they save); the square root stopped by `x² ≤ v` instead
 //!   of a confirming Newton step (no change).
-//! - From an execution trace (`CORTEXM_TRACE=1`, see DEVELOPERS.md; per
-//!   cycle): the loop's common path 370, the gate's watermark raises 52
-//!   more (4 a cycle, 13 extra instructions each, while the watermark
-//!   climbs to the cycle's largest step), the setup and teardown of the
-//!   runs about 137 (114 a run, 1.2 runs a cycle with 200-frame blocks)
-//!   and 30 more for the block's edges, `Frontend::end_cycle` with the
-//!   tracker 208 (the CORDIC, once every 8 cycles, about 27 of it) and
-//!   `Backend::process` with the baseline and fault updates 247: about
-//!   1 050 a cycle, 26.3 a sample, as the SysTick count says. Meeting 25
-//!   a sample (1 000 a cycle) needs about 54 fewer a cycle: the M4 budget
-//!   is not met yet (listed open in `.ci/run`).
+//! - From an execution trace (`.ci/profile`, see DEVELOPERS.md; per
+//!   cycle): the block path 543, of which the loop's common path about
+//!   380 (19 a pair), the gate's watermark raises about 18 (1.4 a cycle,
+//!   13 extra instructions each: the step peak decays by a quarter a
+//!   cycle, so the watermark starts each cycle near the hum's largest
+//!   step; it climbed from 0 four times a cycle when the peak restarted
+//!   every cycle), and the setup and teardown of the runs about 115 a run
+//!   (1.2 runs a cycle with 200-frame blocks) with the block's edges;
+//!   `Frontend::end_cycle` with the tracker 189 (the CORDIC, once every 8
+//!   cycles, about 14 of it: its directions are a bit mask summed by
+//!   nibble lookups on the M4F) and `Backend::process` with the baseline
+//!   and fault updates 241: about 985 a cycle, 24.6 a sample, as the
+//!   SysTick count says.
 //! - The per-cycle helpers with one caller (`MainsTracker::end_cycle` and
 //!   `learn`, `FaultState::update`, `BaselineState::update`) are always
 //!   inlined: with three channel counts in this binary the compiler had
 //!   kept them out of line and shared, so this benchmark counted 1.6
 //!   instructions a sample more than a one-detector build does.
-//! - Flash (thumbv6m, opt-level "s", 1 channel, 7 896 B against 8 192):
-//!   `Backend::process` with the baseline and fault updates 1 564; the
-//!   firmware loop with `push_frame` and construction inlined 1 444; the
-//!   sine table 1 280; `Frontend::end_cycle` 1 112 (the tracker and the
+//! - Flash (thumbv6m, opt-level "s", 1 channel, 7 616 B against 8 192):
+//!   `Backend::process` with the baseline and fault updates 1 472; the
+//!   firmware loop with `push_frame` and construction inlined 1 472; the
+//!   sine table 1 280; `Frontend::end_cycle` 1 152 (the tracker and the
 //!   CORDIC inlined); the validation table 400 and field accessor 150;
-//!   `MainsTracker::correct` 168; `phase_step` 160; `memclr8` 158 (zeroing
-//!   at construction). No soft float, no library division, no 64-bit
-//!   shift and no `memcpy` is linked. Four and eight channels take 10 204
-//!   and 10 420 B (panel rules, per-channel loops, and `memcpy` for the
-//!   construction of the wider detector): over 8 KiB, listed open. A
-//!   one-channel firmware feeding 64-sample blocks (`CORTEXM_FLASH_PROBE=
-//!   101` against 100) takes 8 480 B: its loop with `push_block` inlined is
-//!   1 992 B (548 more than the frame firmware's) and the gate's rare path
-//!   78; over 8 KiB, listed open as `flash-block`.
+//!   `MainsTracker::correct` 168; `phase_step` 150. No soft float, no
+//!   library division or 64-bit multiply, no 64-bit shift and no `memcpy`
+//!   or `memclr` is linked. Four and eight channels take 10 080 and
+//!   10 304 B (panel rules, per-channel loops, and `memcpy`/`memclr` for
+//!   the construction of the wider detector and its wider `Cycle`): over
+//!   8 KiB, a target of our own beyond the one-channel budget, listed open
+//!   as `flash-multi`. A one-channel firmware feeding 64-sample blocks
+//!   (`CORTEXM_FLASH_PROBE=101` against 100) takes 8 156 B: its loop with
+//!   `push_block` inlined is 1 992 B and the gate's rare path 60.
 //!
 //! On the host this example only prints how to run it.
 #![cfg_attr(target_os = "none", no_std, no_main)]
