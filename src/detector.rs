@@ -103,6 +103,14 @@ impl<const N: usize, const H: usize> Cycle<N, H> {
     };
 }
 
+/// The rails of a converter of `span` codes (2^bits, bits ≤ 16 in a
+/// validated config) in offset binary: from 0, or centred on 32 768 for
+/// two's complement codes. Both fit u16.
+const fn rails(span: u32, signed: bool) -> (u16, u16) {
+    let low = if signed { 32_768 - span / 2 } else { 0 };
+    (low as u16, (low + span - 1) as u16)
+}
+
 /// Per-sample half of the pipeline: impulse gate, demodulator and the shared
 /// mains tracker, for `N` channels with `H` extra harmonic bins.
 ///
@@ -165,8 +173,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             scale_step: u32::MAX,
             spike_groups,
             spike_floor: cfg.spike_floor_codes,
-            // adc_bits ≤ 16 (validated): 2^bits − 1 fits u16.
-            rails: (0, ((1u32 << cfg.adc_bits.clamp(1, 16)) - 1) as u16),
+            rails: rails(1 << cfg.adc_bits.clamp(1, 16), false),
             signed: false,
         }
     }
@@ -374,11 +381,9 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     #[inline(never)]
     fn end_cycle(&mut self, n: u32, signed: bool, cycle: &mut Cycle<N, H>) {
         if signed != self.signed {
-            // Same span, centred on 32 768 for two's complement codes.
             self.signed = signed;
             let span = u32::from(self.rails.1.wrapping_sub(self.rails.0)) + 1;
-            let low = if signed { 32_768 - span / 2 } else { 0 };
-            self.rails = (low as u16, (low + span - 1) as u16);
+            self.rails = rails(span, signed);
         }
         let index = self.last_end.wrapping_add(u64::from(n));
         self.last_end = index;
