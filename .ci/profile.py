@@ -84,9 +84,21 @@ def symbols(elf, counts, per, nm):
     print(f"{sum(totals.values()) / per:10.1f}  total")
 
 
-def disassembly(elf, objdump):
+def listing(elf, objdump, symbol):
+    """The disassembly of the symbols whose name contains `symbol`, a line
+    at a time, with the address of each instruction line (else None)."""
     out = subprocess.run([objdump, "-d", "-l", "--no-show-raw-insn", elf], capture_output=True, text=True, check=True)
-    return out.stdout.splitlines()
+    inside = False
+    for line in out.stdout.splitlines():
+        m = FUNC.match(line)
+        if m:
+            inside = symbol in m.group(1)
+            if inside:
+                yield line, None
+            continue
+        if inside:
+            m = ADDR.match(line)
+            yield line, int(m.group(1), 16) if m else None
 
 
 def short(path):
@@ -100,22 +112,14 @@ def short(path):
 
 def lines(elf, counts, per, objdump, symbol):
     c = read_counts(counts)
-    inside, src = False, "?"
+    src = "?"
     totals = collections.Counter()
-    for line in disassembly(elf, objdump):
-        m = FUNC.match(line)
-        if m:
-            inside = symbol in m.group(1)
-            continue
-        if not inside:
-            continue
+    for line, addr in listing(elf, objdump, symbol):
         m = LINE.match(line)
         if m:
             src = short(m.group(1))
-            continue
-        m = ADDR.match(line)
-        if m:
-            totals[src] += c.get(int(m.group(1), 16), 0)
+        elif addr is not None:
+            totals[src] += c.get(addr, 0)
     for src, n in totals.most_common():
         if n / per >= 0.5:
             print(f"{n / per:8.1f} {src}")
@@ -124,21 +128,11 @@ def lines(elf, counts, per, objdump, symbol):
 
 def asm(elf, counts, per, objdump, symbol):
     c = read_counts(counts)
-    inside = False
-    for line in disassembly(elf, objdump):
-        m = FUNC.match(line)
-        if m:
-            inside = symbol in m.group(1)
-            if inside:
-                print(line)
-            continue
-        if not inside:
-            continue
-        m = ADDR.match(line)
-        if m:
-            print(f"{c.get(int(m.group(1), 16), 0) / per:8.2f} {line}")
-        else:
+    for line, addr in listing(elf, objdump, symbol):
+        if addr is None:
             print(line)
+        else:
+            print(f"{c.get(addr, 0) / per:8.2f} {line}")
 
 
 def main(argv):
