@@ -262,10 +262,12 @@ impl BlockGate {
         // compare `m − lo ≤ 2w` in one shift and one compare, with no
         // register for `m`.
         let d = (x as u32).wrapping_sub(self.lo_s);
-        // `2^s·m`: `x` with its low s bits cleared.
-        let floor = (x as u32) & !((1 << s) - 1);
         if d >> s <= self.w2 {
-            // lo ← m − w, that is `L ← 2^s·m − 2^s·w`.
+            // lo ← m − w, that is `L ← 2^s·m − 2^s·w`: `2^s·m` is `x`
+            // with its low s bits cleared. (Formed in each branch: formed
+            // once above the compare, it cost the 4-channel block loop 0.4
+            // instructions a sample on the M4F.)
+            let floor = (x as u32) & !((1 << s) - 1);
             self.lo_s = floor.wrapping_sub(self.w2 << LANE);
             return x;
         }
@@ -275,6 +277,7 @@ impl BlockGate {
         let step = ((d as i32) >> s).wrapping_sub(w as i32).unsigned_abs();
         if step <= hold.limit {
             // A new largest step within the limit: lo ← m − step.
+            let floor = (x as u32) & !((1 << s) - 1);
             self.w2 = step << 1;
             self.lo_s = floor.wrapping_sub(step << s);
             return x;
