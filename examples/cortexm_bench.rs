@@ -112,7 +112,7 @@
 //!   CORDIC inlined); the validation table 400 and field accessor 150;
 //!   `MainsTracker::correct` 168; `phase_step` 150. No soft float, no
 //!   library division or 64-bit multiply, no 64-bit shift and no `memcpy`
-//!   or `memclr` is linked. Four and eight channels take 10 080 and
+//!   or `memclr` is linked. Four and eight channels take 10 076 and
 //!   10 304 B (panel rules, per-channel loops, and `memcpy`/`memclr` for
 //!   the construction of the wider detector and its wider `Cycle`): over
 //!   8 KiB, a target of our own beyond the one-channel budget, listed open
