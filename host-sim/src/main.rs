@@ -2,8 +2,9 @@
 //! dispatches; the work lives in the library.
 
 use clap::{Parser, Subcommand};
+use humsim::console::{self, CliError};
+use humsim::outfile::{check_distinct, Kind, OutputFile};
 use humsim::scenario::{RenderOptions, Scenario};
-use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -216,29 +217,24 @@ fn main() -> ExitCode {
             plot,
         }),
     };
-    match result {
-        Ok(()) => ExitCode::SUCCESS,
-        Err(msg) => {
-            eprintln!("humsim: error: {msg}");
-            ExitCode::FAILURE
-        }
-    }
+    humsim::console::finish(result)
 }
 
-fn demo(plot: Option<PathBuf>) -> Result<(), String> {
+fn demo(plot: Option<PathBuf>) -> Result<(), CliError> {
     let path = plot.unwrap_or_else(humsim::demo::default_plot_path);
-    let report = humsim::demo::run(&path)?;
-    print!("{}", report.text);
-    Ok(())
+    let mut file = OutputFile::create("--plot", &path, Kind::Png)?;
+    let report = humsim::demo::run(file.write_path(), &path)?;
+    file.commit()?;
+    console::out(&report.text)
 }
 
-fn scenarios() -> Result<(), String> {
-    let mut out = std::io::stdout().lock();
+fn scenarios() -> Result<(), CliError> {
+    let mut text = String::new();
     for name in humsim::builtin::names() {
         let s = Scenario::builtin(name).map_err(|e| e.to_string())?;
-        writeln!(out, "{name:<16} {}", s.description()).map_err(|e| e.to_string())?;
+        text.push_str(&format!("{name:<16} {}\n", s.description()));
     }
-    Ok(())
+    console::out(&text)
 }
 
 fn simulate(
@@ -247,7 +243,12 @@ fn simulate(
     seconds: Option<f64>,
     seed: Option<u64>,
     time_column: bool,
-) -> Result<(), String> {
+) -> Result<(), CliError> {
+    let labels_path = humsim::output::labels_path(output);
+    check_distinct(
+        &[("scenario", Path::new(scenario))],
+        &[("-o", output), ("labels", &labels_path)],
+    )?;
     let s = Scenario::load(scenario).map_err(|e| e.to_string())?;
     let mut render = s
         .render(&RenderOptions { seconds, seed })
@@ -255,6 +256,13 @@ fn simulate(
     let wav = output
         .extension()
         .is_some_and(|e| e.eq_ignore_ascii_case("wav"));
+    let mut out = OutputFile::create("-o", output, Kind::Data)?;
+    let out_name = out.shown().to_string();
+    if wav {
+        // Refused before any sample is rendered or written.
+        humsim::output::check_wav(&render, &out_name)?;
+    }
+    let mut labels_file = OutputFile::create("labels", &labels_path, Kind::Data)?;
     let bar = indicatif::ProgressBar::new(render.frames_total());
     bar.set_style(
         indicatif::ProgressStyle::with_template(
@@ -262,32 +270,26 @@ fn simulate(
         )
         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
     );
-    let out_name = output.display().to_string();
-    let io = |e: std::io::Error| format!("{out_name}: cannot write: {e}");
     if wav {
-        humsim::output::write_wav(&mut render, output, |n| bar.set_position(n))?;
+        humsim::output::write_wav(&mut render, out.writer()?, &out_name, |n| {
+            bar.set_position(n)
+        })?;
     } else {
-        let file = std::fs::File::create(output).map_err(io)?;
-        let mut w = BufWriter::with_capacity(1 << 16, file);
-        humsim::output::write_csv(&mut render, &mut w, time_column, |n| bar.set_position(n))
-            .map_err(io)?;
-        w.flush().map_err(io)?;
+        let w = out.writer()?;
+        humsim::output::write_csv(&mut render, w, time_column, |n| bar.set_position(n))
+            .map_err(|e| format!("{out_name}: cannot write: {e}"))?;
     }
     bar.finish_and_clear();
-    let labels_path = humsim::output::labels_path(output);
     let seconds = render.frames_total() as f64 / render.rate_hz();
-    let file = std::fs::File::create(&labels_path)
-        .map_err(|e| format!("{}: cannot write: {e}", labels_path.display()))?;
-    let mut w = BufWriter::new(file);
-    humsim::output::write_labels(&s.labels(seconds), &mut w)
-        .and_then(|()| w.flush())
-        .map_err(|e| format!("{}: cannot write: {e}", labels_path.display()))?;
-    eprintln!(
-        "humsim: wrote {} frames x {} channels to {} and labels to {}",
+    let labels_name = labels_file.shown().to_string();
+    humsim::output::write_labels(&s.labels(seconds), labels_file.writer()?)
+        .map_err(|e| format!("{labels_name}: cannot write: {e}"))?;
+    humsim::outfile::commit_all([out, labels_file])?;
+    console::err(&format!(
+        "humsim: wrote {} frames x {} channels to {} and labels to {}\n",
         render.frames_done(),
         render.channels(),
-        out_name,
+        output.display(),
         labels_path.display()
-    );
-    Ok(())
+    ))
 }

@@ -13,7 +13,7 @@
 
 use crate::render::Render;
 use crate::scenario::Label;
-use std::io::{self, Write};
+use std::io::{self, Seek, Write};
 use std::path::{Path, PathBuf};
 
 /// Frames per block when streaming.
@@ -87,9 +87,17 @@ pub fn write_csv<W: Write>(
     Ok(())
 }
 
-/// Streams the whole render to a WAV file at `path`.
-pub fn write_wav(r: &mut Render, path: &Path, mut progress: impl FnMut(u64)) -> Result<(), String> {
-    let name = path.display().to_string();
+/// Most bytes of samples a WAV file can hold: its RIFF and data chunk
+/// sizes are 32-bit, and the header before the data (at most 80 bytes
+/// with the extensible format chunk) counts in the RIFF size.
+pub const WAV_MAX_DATA_BYTES: u64 = u32::MAX as u64 - 80;
+
+/// Checks that a render fits a 16-bit WAV file before anything is written:
+/// codes of at most 15 bits, at most 65 535 channels, and at most
+/// [`WAV_MAX_DATA_BYTES`] of samples (a longer WAV's size fields would
+/// wrap, and a reader would see a fraction of it). `name` is how messages
+/// call the file.
+pub fn check_wav(r: &Render, name: &str) -> Result<hound::WavSpec, String> {
     if r.scenario().adc.bits > 15 {
         return Err(format!(
             "{name}: a {}-bit ADC's codes exceed 32767 and cannot be stored unchanged in \
@@ -99,14 +107,37 @@ pub fn write_wav(r: &mut Render, path: &Path, mut progress: impl FnMut(u64)) -> 
     }
     let nch = r.channels();
     let channels = u16::try_from(nch).map_err(|_| format!("{name}: too many channels for WAV"))?;
-    let spec = hound::WavSpec {
+    let bytes = u128::from(r.frames_total()) * nch as u128 * 2;
+    if bytes > u128::from(WAV_MAX_DATA_BYTES) {
+        let frame_bytes = 2 * nch as u64;
+        let max_s = (WAV_MAX_DATA_BYTES / frame_bytes) as f64 / r.rate_hz();
+        return Err(format!(
+            "{name}: {bytes} bytes of samples exceed what a WAV file can hold ({} bytes: its \
+             size fields are 32-bit); write CSV instead, or at most --seconds {:.0} per file",
+            WAV_MAX_DATA_BYTES,
+            max_s.floor()
+        ));
+    }
+    Ok(hound::WavSpec {
         channels,
         sample_rate: r.rate_hz().round() as u32,
         bits_per_sample: 16,
         sample_format: hound::SampleFormat::Int,
-    };
+    })
+}
+
+/// Streams the whole render as WAV to `w` (checked by [`check_wav`]
+/// first). `name` is how messages call the file.
+pub fn write_wav<W: Write + Seek>(
+    r: &mut Render,
+    w: W,
+    name: &str,
+    mut progress: impl FnMut(u64),
+) -> Result<(), String> {
+    let spec = check_wav(r, name)?;
+    let nch = r.channels();
     let err = |e: hound::Error| format!("{name}: cannot write WAV: {e}");
-    let mut w = hound::WavWriter::create(path, spec).map_err(err)?;
+    let mut w = hound::WavWriter::new(w, spec).map_err(err)?;
     let mut block = vec![0u16; BLOCK_FRAMES * nch];
     loop {
         let n = r.fill(&mut block);

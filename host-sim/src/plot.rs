@@ -152,10 +152,16 @@ impl PlotRecorder {
         }
     }
 
-    /// Writes the picture to `path` (PNG). `title` heads it; `labels`, if
-    /// any, are shaded on the amplitude panels.
-    pub fn write_png(&self, path: &Path, title: &str, labels: &[Label]) -> Result<(), String> {
-        let name = path.display().to_string();
+    /// Writes the picture to `path` (PNG; `name` is how messages call it).
+    /// `title` heads it; `labels`, if any, are shaded on the amplitude
+    /// panels.
+    pub fn write_png(
+        &self,
+        path: &Path,
+        name: &str,
+        title: &str,
+        labels: &[Label],
+    ) -> Result<(), String> {
         register_font()?;
         let n = self.names.len().max(1);
         let (w, h) = (1400u32, 80 + 450 * n as u32);
@@ -402,11 +408,11 @@ fn register_font() -> Result<(), String> {
 /// latency, the chosen point ringed.
 pub fn write_tradeoff_png(
     path: &Path,
+    name: &str,
     points: &[(f64, f64)],
     chosen: Option<(f64, f64)>,
     budget_per_hour: f64,
 ) -> Result<(), String> {
-    let name = path.display().to_string();
     register_font()?;
     let err = |e: String| format!("{name}: cannot draw the plot: {e}");
     let e = |x: DrawingAreaErrorKind<_>| x.to_string();

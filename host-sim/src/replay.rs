@@ -1130,10 +1130,21 @@ pub fn label_kind(cfg: &Config) -> crate::scenario::LabelKind {
     }
 }
 
-/// Runs `humsim replay`. Events go to `--out` (removed again if the run
-/// fails) or stdout; the score (with `--labels`) to stderr.
-pub fn command(cmd: &ReplayCommand) -> Result<(), String> {
+/// Runs `humsim replay`. Events go to `--out` or stdout; the score (with
+/// `--labels`) to stderr. Outputs are checked before the run and put in
+/// place only when it succeeds ([`crate::outfile`]): a failed run leaves
+/// every file as it was.
+pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
+    use crate::console::{self, CliError};
+    use crate::outfile::{check_distinct, Kind, OutputFile};
     use std::io::Write;
+    let mut inputs = vec![("input", cmd.input.path.as_path())];
+    inputs.extend(cmd.labels.as_deref().map(|p| ("--labels", p)));
+    inputs.extend(cmd.config.as_deref().map(|p| ("--config", p)));
+    let mut outputs = Vec::new();
+    outputs.extend(cmd.out.as_deref().map(|p| ("--out", p)));
+    outputs.extend(cmd.plot.as_deref().map(|p| ("--plot", p)));
+    check_distinct(&inputs, &outputs)?;
     let mut src = open_input(&cmd.input)?;
     let cfg = config_for(src.as_ref(), cmd.profile, cmd.mains, cmd.config.as_deref())?;
     let names = src.channel_names().to_vec();
@@ -1146,67 +1157,89 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), String> {
         }
         None => None,
     };
-    let (mut out, out_name): (Box<dyn Write>, String) = match &cmd.out {
-        Some(p) => {
-            let f = File::create(p).map_err(|e| format!("{}: cannot write: {e}", p.display()))?;
-            (
-                Box::new(std::io::BufWriter::with_capacity(1 << 16, f)),
-                p.display().to_string(),
-            )
-        }
-        None => (
-            Box::new(std::io::BufWriter::new(std::io::stdout().lock())),
-            "stdout".to_string(),
-        ),
+    let mut out_file = match &cmd.out {
+        Some(p) => Some(OutputFile::create("--out", p, Kind::Data)?),
+        None => None,
     };
-    let result = (|| {
-        writeln!(out, "{HEADER}").map_err(|e| format!("{out_name}: cannot write: {e}"))?;
-        let mut plot = cmd
-            .plot
-            .as_ref()
-            .map(|_| crate::plot::PlotRecorder::new(&names, rate));
-        let mut sink = |e: &Event| {
-            writeln!(out, "{}", event_row(e, &names, rate))
-                .map_err(|e| format!("{out_name}: cannot write: {e}"))
+    let mut plot_file = match &cmd.plot {
+        Some(p) => Some(OutputFile::create("--plot", p, Kind::Png)?),
+        None => None,
+    };
+    // Where a write error on stdout is kept, so that a closed pipe ends
+    // the run quietly rather than as an error message.
+    let mut stdout_failure: Option<CliError> = None;
+    {
+        let mut stdout_lock;
+        let (out, out_name): (&mut dyn Write, String) = match out_file.as_mut() {
+            Some(f) => {
+                let name = f.shown().to_string();
+                (f.writer()?, name)
+            }
+            None => {
+                stdout_lock = std::io::BufWriter::with_capacity(1 << 16, std::io::stdout().lock());
+                (&mut stdout_lock, "stdout".to_string())
+            }
         };
-        let outcome = replay(
-            src.as_mut(),
-            &cfg,
-            &mut sink,
-            plot.as_mut(),
-            labels.is_some(),
-        )?;
-        out.flush()
-            .map_err(|e| format!("{out_name}: cannot write: {e}"))?;
+        let to_stdout = cmd.out.is_none();
+        let mut fail = |e: std::io::Error| {
+            if to_stdout {
+                stdout_failure = Some(console::stdout_error(&e));
+            }
+            format!("{out_name}: cannot write: {e}")
+        };
+        let result = (|| {
+            writeln!(out, "{HEADER}").map_err(&mut fail)?;
+            let mut plot = cmd
+                .plot
+                .as_ref()
+                .map(|_| crate::plot::PlotRecorder::new(&names, rate));
+            let mut sink =
+                |e: &Event| writeln!(out, "{}", event_row(e, &names, rate)).map_err(&mut fail);
+            let outcome = replay(
+                src.as_mut(),
+                &cfg,
+                &mut sink,
+                plot.as_mut(),
+                labels.is_some(),
+            )?;
+            out.flush().map_err(&mut fail)?;
+            Ok::<_, String>((outcome, plot))
+        })();
+        let (outcome, plot) = match result {
+            Ok(v) => v,
+            Err(m) => return Err(stdout_failure.take().unwrap_or(CliError::Message(m))),
+        };
         let seconds = outcome.frames as f64 / rate;
         if let (Some(l), Some(p)) = (&labels, &cmd.labels) {
             let pname = p.display().to_string();
             crate::score::check_labels(l, &names, seconds, 1.0 / rate, &pname)?;
             let opts = crate::score::ScoreOptions::for_kind(label_kind(&cfg));
             let s = crate::score::score_events(&outcome.events, rate, &names, l, &opts)?;
-            eprintln!(
-                "score of {} against {pname} ({} labels, {seconds:.1} s):",
+            console::err(&format!(
+                "score of {} against {pname} ({} labels, {seconds:.1} s):\n{}",
                 src.name(),
-                opts.kind.as_str()
-            );
-            eprint!("{}", s.table());
+                opts.kind.as_str(),
+                s.table()
+            ))?;
         }
-        if let (Some(p), Some(rec)) = (&cmd.plot, &plot) {
+        if let (Some(f), Some(rec)) = (plot_file.as_mut(), &plot) {
             let title = format!(
                 "humsim replay: {} ({:.1} s at {rate} Hz)",
                 src.name(),
                 seconds
             );
-            rec.write_png(p, &title, labels.as_deref().unwrap_or(&[]))?;
-            eprintln!("plot: {}", p.display());
-        }
-        Ok(())
-    })();
-    if result.is_err() {
-        drop(out);
-        if let Some(p) = &cmd.out {
-            let _ = std::fs::remove_file(p);
+            let name = f.shown().to_string();
+            rec.write_png(
+                f.write_path(),
+                &name,
+                &title,
+                labels.as_deref().unwrap_or(&[]),
+            )?;
         }
     }
-    result
+    crate::outfile::commit_all(out_file.into_iter().chain(plot_file))?;
+    if let Some(p) = &cmd.plot {
+        console::err(&format!("plot: {}\n", p.display()))?;
+    }
+    Ok(())
 }

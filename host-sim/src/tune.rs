@@ -454,10 +454,33 @@ pub fn table(outcome: &TuneOutcome, budget: f64, n: usize) -> String {
 }
 
 /// Runs `humsim tune`: the table and the Rust snippet to stdout, the TOML
-/// to `--out` (or stdout), the trade-off plot to `--plot`.
-pub fn command(cmd: &TuneCommand) -> Result<(), String> {
+/// to `--out` (or stdout), the trade-off plot to `--plot`. Both outputs are
+/// checked before the sweep; if writing one fails at the end, the result
+/// is still printed to stdout (the TOML too) before the error.
+pub fn command(cmd: &TuneCommand) -> Result<(), crate::console::CliError> {
+    use crate::console;
+    use crate::outfile::{check_distinct, Kind, OutputFile};
+    use std::io::Write as _;
+    let mut inputs = vec![
+        ("input", cmd.input.path.as_path()),
+        ("--labels", cmd.labels.as_path()),
+    ];
+    inputs.extend(cmd.config.as_deref().map(|p| ("--config", p)));
+    let mut outputs = Vec::new();
+    outputs.extend(cmd.out.as_deref().map(|p| ("--out", p)));
+    outputs.extend(cmd.plot.as_deref().map(|p| ("--plot", p)));
+    check_distinct(&inputs, &outputs)?;
+    let out_file = match &cmd.out {
+        Some(p) => Some(OutputFile::create("--out", p, Kind::Data)?),
+        None => None,
+    };
+    let plot_file = match &cmd.plot {
+        Some(p) => Some(OutputFile::create("--plot", p, Kind::Png)?),
+        None => None,
+    };
     let outcome = tune(cmd)?;
     let budget = cmd.budget_per_hour;
+    let mut failures: Vec<String> = Vec::new();
     let mut out = String::new();
     let _ = writeln!(
         out,
@@ -469,7 +492,7 @@ pub fn command(cmd: &TuneCommand) -> Result<(), String> {
         outcome.sweep_s
     );
     out.push_str(&table(&outcome, budget, 8));
-    if let Some(p) = &cmd.plot {
+    if let (Some(mut f), Some(path)) = (plot_file, &cmd.plot) {
         let pts: Vec<(f64, f64)> = outcome
             .trials
             .iter()
@@ -480,16 +503,27 @@ pub fn command(cmd: &TuneCommand) -> Result<(), String> {
             .chosen
             .and_then(|i| outcome.trials.get(i))
             .map(|t| (t.on_median_ms, t.false_per_hour));
-        crate::plot::write_tradeoff_png(p, &pts, chosen, budget)?;
-        let _ = writeln!(out, "trade-off plot: {}", p.display());
+        let name = f.shown().to_string();
+        match crate::plot::write_tradeoff_png(f.write_path(), &name, &pts, chosen, budget)
+            .and_then(|()| f.commit())
+        {
+            Ok(()) => {
+                let _ = writeln!(out, "trade-off plot: {}", path.display());
+            }
+            Err(m) => failures.push(m),
+        }
     }
     let Some(best) = outcome.chosen.and_then(|i| outcome.trials.get(i)) else {
-        print!("{out}");
-        return Err(format!(
-            "no configuration tried detects every label with at most {budget} false events \
-             per hour; the closest are listed above (try --points, a larger --budget, or \
-             another --profile)"
-        ));
+        console::out(&out)?;
+        failures.insert(
+            0,
+            format!(
+                "no configuration tried detects every label with at most {budget} false events \
+                 per hour; the closest are listed above (try --points, a larger --budget, or \
+                 another --profile)"
+            ),
+        );
+        return Err(failures.join("\n").into());
     };
     let toml = crate::configfile::to_toml(&best.config);
     let _ = writeln!(
@@ -501,20 +535,40 @@ pub fn command(cmd: &TuneCommand) -> Result<(), String> {
         best.on_median_ms,
         outcome.events.len()
     );
-    match &cmd.out {
-        Some(p) => {
-            std::fs::write(p, &toml).map_err(|e| format!("{}: cannot write: {e}", p.display()))?;
-            let _ = writeln!(out, "config: {} (humsim replay --config {0})", p.display());
+    let mut toml_to_stdout = true;
+    if let (Some(mut f), Some(path)) = (out_file, &cmd.out) {
+        let name = f.shown().to_string();
+        let written = f
+            .writer()
+            .and_then(|w| {
+                w.write_all(toml.as_bytes())
+                    .map_err(|e| format!("{name}: cannot write: {e}"))
+            })
+            .and_then(|()| f.commit());
+        match written {
+            Ok(()) => {
+                let _ = writeln!(
+                    out,
+                    "config: {} (humsim replay --config {0})",
+                    path.display()
+                );
+                toml_to_stdout = false;
+            }
+            Err(m) => failures.push(format!("{m} (the configuration is printed above instead)")),
         }
-        None => {
-            let _ = writeln!(out, "\n{toml}");
-        }
+    }
+    if toml_to_stdout {
+        let _ = writeln!(out, "\n{toml}");
     }
     let _ = writeln!(
         out,
         "\n// For firmware:\n{}",
         crate::configfile::to_rust(&best.config)
     );
-    print!("{out}");
-    Ok(())
+    console::out(&out)?;
+    if failures.is_empty() {
+        Ok(())
+    } else {
+        Err(failures.join("\n").into())
+    }
 }
