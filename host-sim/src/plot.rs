@@ -97,6 +97,7 @@ impl<const K: usize> Series<K> {
 pub struct PlotRecorder {
     names: Vec<String>,
     rate_hz: f64,
+    start_s: f64,
     raw: Vec<Series<1>>,
     cycles: Vec<Series<4>>,
     events: Vec<(u64, u8, EventKind)>,
@@ -110,12 +111,20 @@ impl PlotRecorder {
         PlotRecorder {
             names: names.to_vec(),
             rate_hz,
+            start_s: 0.0,
             raw: vec![Series::new(); names.len()],
             cycles: vec![Series::new(); names.len()],
             events: Vec::new(),
             dropped: 0,
             frames: 0,
         }
+    }
+
+    /// The same recorder with its time axis on a log's own clock: frame 0
+    /// at `start_s` seconds (labels are drawn on that clock too).
+    pub fn starting_at(mut self, start_s: f64) -> PlotRecorder {
+        self.start_s = start_s;
+        self
     }
 
     /// Records one frame of codes.
@@ -187,7 +196,7 @@ impl PlotRecorder {
     }
 
     fn seconds(&self, x: u64) -> f64 {
-        x as f64 / self.rate_hz
+        self.start_s + x as f64 / self.rate_hz
     }
 
     fn draw_channel(
@@ -198,7 +207,8 @@ impl PlotRecorder {
     ) -> Result<(), String> {
         let e = |x: DrawingAreaErrorKind<_>| x.to_string();
         let name = self.names.get(ch).map_or("?", String::as_str);
-        let t_end = self.seconds(self.frames).max(1e-3);
+        let t0 = self.start_s;
+        let t_end = self.seconds(self.frames).max(t0 + 1e-3);
         let (top, bottom) = area.split_vertically(185);
         // Raw signal.
         let raw = self.raw.get(ch).map_or(&[][..], |s| &s.items[..]);
@@ -221,7 +231,7 @@ impl PlotRecorder {
             .x_label_area_size(30)
             .y_label_area_size(70)
             .caption(format!("{name}: ADC signal"), ("sans-serif", 18))
-            .build_cartesian_2d(0.0..t_end, f64::from(lo)..f64::from(hi))
+            .build_cartesian_2d(t0..t_end, f64::from(lo)..f64::from(hi))
             .map_err(e)?;
         c.configure_mesh()
             .x_desc("time (s)")
@@ -277,7 +287,7 @@ impl PlotRecorder {
                 format!("{name}: hum amplitude per mains cycle"),
                 ("sans-serif", 18),
             )
-            .build_cartesian_2d(0.0..t_end, (y0..y1).log_scale())
+            .build_cartesian_2d(t0..t_end, (y0..y1).log_scale())
             .map_err(e)?;
         c.configure_mesh()
             .x_desc("time (s)")

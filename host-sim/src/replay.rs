@@ -4,10 +4,15 @@
 //! - **CSV** (any name not ending in `.wav`, unless `--raw`): a header row
 //!   naming the channels, then one row per frame of integer ADC codes. A
 //!   column named `time_s` (anywhere) is optional: with it the rate is
-//!   inferred from the mean interval of the first 1000 rows, and every
-//!   interval must lie within 1 % of that period (plus one unit in the last
-//!   printed decimal, the rounding of the printed times); without it
-//!   `--rate` is required. With both, they must agree within 1 %. Codes are
+//!   inferred from the first 1000 rows (the mean of the intervals within
+//!   ±50 % of their median), and every
+//!   interval must be that period within one unit in the row's last printed
+//!   decimal (the rounding of printed times), but never less than 1 % nor
+//!   more than half of the period: a gap or a repeated row is refused with
+//!   its line numbers however coarsely the times are printed. The first
+//!   `time_s` is the log's start: events and labels are on the log's own
+//!   clock. Without `time_s`, `--rate` is required and the clock starts at
+//!   0. With both, they must agree within 1 %. Codes are
 //!   unsigned, `0 ..= 2^bits − 1`. Cells may have spaces around them; empty
 //!   lines are skipped; CRLF endings and a UTF-8 byte-order mark are fine.
 //! - **WAV** (`.wav`): integer PCM, any channel count, rate from the header
@@ -30,8 +35,9 @@
 //!
 //! ## Output ([`event_row`])
 //! CSV `time_s,channel,event,value`, one row per event in time order
-//! (within one mains cycle, in channel order): `time_s` is the emitting
-//! sample's index divided by the rate, with 6 decimals; `channel` the
+//! (within one mains cycle, in channel order): `time_s` is the log's start
+//! ([`FrameSource::start_s`]) plus the emitting sample's index divided by
+//! the rate, with 6 decimals; `channel` the
 //! input column's name (`ch0`, `ch1`, … for WAV and raw); `event` one of
 //! `touch-on`, `touch-off`, `field-on`, `field-off`, `level`, `fault`,
 //! `fault-clear`; `value` the strength in dB above the baseline (touch and
@@ -109,6 +115,12 @@ pub trait FrameSource {
     fn bits(&self) -> u8;
     /// Whether codes are two's complement (fed to the detector as `i16`).
     fn signed(&self) -> bool;
+    /// The time of the first frame on the log's own clock, seconds: the
+    /// first `time_s` of a CSV log, 0 for inputs without a time column.
+    /// Events and labels are reported on this clock.
+    fn start_s(&self) -> f64 {
+        0.0
+    }
     /// Fills `buf` (a multiple of the channel count long) with whole frames
     /// and returns how many; 0 at the end. Errors name the place in the file.
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String>;
@@ -193,10 +205,34 @@ pub struct CsvSource {
     max_code: i64,
     rate_hz: f64,
     period: f64,
-    last_time: Option<f64>,
+    start_s: f64,
+    last_time: Option<(f64, usize)>,
     pending: VecDeque<i32>,
     row: Vec<i32>,
     done: bool,
+}
+
+/// The sample period from the first rows' times: the mean of the intervals
+/// within ±50 % of their median, so that one gap among them does not bend
+/// the rate, while the rounding of printed times (intervals that alternate
+/// between two printed values) averages out.
+fn mean_interval(ts: &[(f64, usize, usize, usize)]) -> f64 {
+    let mut dts: Vec<f64> = ts
+        .windows(2)
+        .map(|w| match w {
+            [a, b] => b.0 - a.0,
+            _ => 0.0,
+        })
+        .collect();
+    dts.sort_by(f64::total_cmp);
+    let Some(&median) = dts.get(dts.len() / 2) else {
+        return 0.0;
+    };
+    let near: Vec<f64> = dts
+        .into_iter()
+        .filter(|d| (d - median).abs() <= 0.5 * median.abs())
+        .collect();
+    near.iter().sum::<f64>() / near.len().max(1) as f64
 }
 
 /// Parses an optionally signed decimal integer; `None` if not one.
@@ -257,6 +293,7 @@ impl CsvSource {
             max_code: (1i64 << bits) - 1,
             rate_hz: 0.0,
             period: 0.0,
+            start_s: 0.0,
             last_time: None,
             pending: VecDeque::new(),
             row: Vec::new(),
@@ -318,7 +355,7 @@ impl CsvSource {
                     "{name}: one data row: time_s needs at least two rows to give the rate; pass --rate"
                 ));
             }
-            let period = (last.0 - first.0) / (ts.len() - 1) as f64;
+            let period = mean_interval(&ts);
             if !(period.is_finite() && period > 0.0) {
                 return Err(format!(
                     "{name}:{}:{}: time_s does not increase (from {} s to {} s over the first {} rows)",
@@ -330,6 +367,7 @@ impl CsvSource {
                 ));
             }
             src.period = period;
+            src.start_s = first.0;
             let inferred = 1.0 / period;
             if let Some(r) = rate {
                 if (r - inferred).abs() > 0.01 * inferred {
@@ -371,6 +409,12 @@ impl CsvSource {
         }
     }
 
+    /// Checks one row's time against the row before, from the values:
+    /// the interval must be the period within a tolerance of one unit in the
+    /// last printed decimal (the rounding of printed times), at least 1 %
+    /// and at most half of the period, so that a missing or repeated
+    /// sample is found whatever the printed precision. A gap is reported
+    /// with both line numbers and the samples missing.
     fn check_time(
         &mut self,
         t: f64,
@@ -378,20 +422,45 @@ impl CsvSource {
         col: usize,
         decimals: usize,
     ) -> Result<(), String> {
-        if let Some(prev) = self.last_time {
+        let period = self.period;
+        if let Some((prev, prev_line)) = self.last_time {
             let dt = t - prev;
-            let tol = 0.01 * self.period + 10f64.powi(-(decimals.min(15) as i32));
-            if !(dt - self.period).abs().le(&tol) {
-                return Err(format!(
-                    "{}:{line}:{col}: column `time_s`: interval {dt:.9} s from the row before \
-                     differs from the period {:.9} s ({:.3} Hz) by more than 1 %: the rate must be uniform",
-                    self.name,
-                    self.period,
-                    1.0 / self.period
-                ));
+            let unit = 10f64.powi(-(decimals.min(15) as i32));
+            let tol = unit.clamp(0.01 * period, 0.5 * period);
+            if !(dt - period).abs().le(&tol) {
+                let name = &self.name;
+                let rate = 1.0 / period;
+                let resolve = if unit > 0.5 * period {
+                    format!(
+                        " (`{t}` has {decimals} decimals, too few to resolve a period of \
+                         {period:.9} s: print more, or drop time_s and pass --rate)"
+                    )
+                } else {
+                    String::new()
+                };
+                return Err(if dt > 1.5 * period {
+                    let missing = (dt / period).round() - 1.0;
+                    format!(
+                        "{name}:{line}:{col}: column `time_s`: a gap of {dt:.9} s from line \
+                         {prev_line} ({prev} s) to line {line} ({t} s): about {missing:.0} \
+                         missing sample(s) at {rate:.3} Hz; replay needs uniform \
+                         samples{resolve}"
+                    )
+                } else if dt <= 0.0 {
+                    format!(
+                        "{name}:{line}:{col}: column `time_s`: {t} s does not come after {prev} s \
+                         on line {prev_line}{resolve}"
+                    )
+                } else {
+                    format!(
+                        "{name}:{line}:{col}: column `time_s`: interval {dt:.9} s from line \
+                         {prev_line} differs from the period {period:.9} s ({rate:.3} Hz) by more \
+                         than {tol:.9} s: the rate must be uniform{resolve}"
+                    )
+                });
             }
         }
-        self.last_time = Some(t);
+        self.last_time = Some((t, line));
         Ok(())
     }
 
@@ -497,6 +566,9 @@ impl FrameSource for CsvSource {
     }
     fn signed(&self) -> bool {
         false
+    }
+    fn start_s(&self) -> f64 {
+        self.start_s
     }
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String> {
         let n = self.names.len();
@@ -1046,9 +1118,10 @@ impl ChannelTask for ReplayTask<'_, '_> {
     }
 }
 
-/// One output row (without the line end) for event `e`; see the module docs.
-pub fn event_row(e: &Event, names: &[String], rate_hz: f64) -> String {
-    let t = e.sample as f64 / rate_hz;
+/// One output row (without the line end) for event `e`; see the module
+/// docs. `start_s` is the input's first time on its own clock.
+pub fn event_row(e: &Event, names: &[String], rate_hz: f64, start_s: f64) -> String {
+    let t = start_s + e.sample as f64 / rate_hz;
     let ch = names
         .get(usize::from(e.channel))
         .map_or("all", String::as_str);
@@ -1149,10 +1222,12 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
     let cfg = config_for(src.as_ref(), cmd.profile, cmd.mains, cmd.config.as_deref())?;
     let names = src.channel_names().to_vec();
     let rate = src.rate_hz();
+    let start = src.start_s();
     let labels = match &cmd.labels {
         Some(p) => {
             let l = crate::score::read_labels(p)?;
-            crate::score::check_labels(&l, &names, f64::INFINITY, 0.0, &p.display().to_string())?;
+            let span = crate::score::Span::open(start);
+            crate::score::check_labels(&l, &names, &span, &p.display().to_string())?;
             Some(l)
         }
         None => None,
@@ -1192,9 +1267,10 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
             let mut plot = cmd
                 .plot
                 .as_ref()
-                .map(|_| crate::plot::PlotRecorder::new(&names, rate));
-            let mut sink =
-                |e: &Event| writeln!(out, "{}", event_row(e, &names, rate)).map_err(&mut fail);
+                .map(|_| crate::plot::PlotRecorder::new(&names, rate).starting_at(start));
+            let mut sink = |e: &Event| {
+                writeln!(out, "{}", event_row(e, &names, rate, start)).map_err(&mut fail)
+            };
             let outcome = replay(
                 src.as_mut(),
                 &cfg,
@@ -1212,9 +1288,11 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
         let seconds = outcome.frames as f64 / rate;
         if let (Some(l), Some(p)) = (&labels, &cmd.labels) {
             let pname = p.display().to_string();
-            crate::score::check_labels(l, &names, seconds, 1.0 / rate, &pname)?;
+            let span = crate::score::Span::of_input(start, seconds, rate);
+            crate::score::check_labels(l, &names, &span, &pname)?;
             let opts = crate::score::ScoreOptions::for_kind(label_kind(&cfg));
-            let s = crate::score::score_events(&outcome.events, rate, &names, l, &opts)?;
+            let on_samples = crate::score::shifted(l, -start);
+            let s = crate::score::score_events(&outcome.events, rate, &names, &on_samples, &opts)?;
             console::err(&format!(
                 "score of {} against {pname} ({} labels, {seconds:.1} s):\n{}",
                 src.name(),

@@ -488,17 +488,61 @@ pub fn parse_labels(text: &str, name: &str) -> Result<Vec<Label>, String> {
     Ok(out)
 }
 
-/// Checks that `labels` fit an input with these `channels` and length:
-/// every label's channel exists and no label ends after `duration_s` (plus
-/// one sample period of rounding, `slack_s`). The message names the label.
+/// The time an input covers on its own clock, for [`check_labels`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Span {
+    /// The first frame's time, seconds.
+    pub start_s: f64,
+    /// The input's length, seconds (infinite before it has been read).
+    pub duration_s: f64,
+    /// Rounding allowed at either end (one sample period), seconds.
+    pub slack_s: f64,
+}
+
+impl Span {
+    /// An input starting at `start_s` whose length is not known yet.
+    pub fn open(start_s: f64) -> Span {
+        Span {
+            start_s,
+            duration_s: f64::INFINITY,
+            slack_s: 0.0,
+        }
+    }
+
+    /// An input of `duration_s` from `start_s`, sampled at `rate_hz`.
+    pub fn of_input(start_s: f64, duration_s: f64, rate_hz: f64) -> Span {
+        Span {
+            start_s,
+            duration_s,
+            slack_s: 1.0 / rate_hz,
+        }
+    }
+}
+
+/// Checks that `labels` fit an input with these `channels` over `span`:
+/// every label's channel exists and no label starts before the input or
+/// ends after it (within one sample period of rounding). The message names
+/// the label.
 pub fn check_labels(
     labels: &[Label],
     channels: &[String],
-    duration_s: f64,
-    slack_s: f64,
+    span: &Span,
     labels_name: &str,
 ) -> Result<(), String> {
+    let end = span.start_s + span.duration_s;
+    let clock = if span.start_s == 0.0 {
+        String::new()
+    } else {
+        format!(" (from {} s to {end:.4} s on its own clock)", span.start_s)
+    };
     for l in labels {
+        let row = format!(
+            "`{},{},{},{}`",
+            l.channel,
+            l.kind.as_str(),
+            l.start_s,
+            l.end_s
+        );
         if !channels.contains(&l.channel) {
             return Err(format!(
                 "{labels_name}: label for channel `{}` ({} s to {} s) but the input has no such \
@@ -509,15 +553,32 @@ pub fn check_labels(
                 channels.join(", ")
             ));
         }
-        if l.end_s > duration_s + slack_s {
+        if l.start_s < span.start_s - span.slack_s {
             return Err(format!(
-                "{labels_name}: label `{},{},{},{}` ends after the input, which lasts {duration_s:.4} s",
-                l.channel,
-                l.kind.as_str(),
-                l.start_s,
-                l.end_s
+                "{labels_name}: label {row} starts before the input, which starts at {} s; \
+                 labels are on the log's own clock",
+                span.start_s
+            ));
+        }
+        if l.end_s > end + span.slack_s {
+            return Err(format!(
+                "{labels_name}: label {row} ends after the input, which lasts {:.4} s{clock}",
+                span.duration_s
             ));
         }
     }
     Ok(())
+}
+
+/// `labels` with `offset_s` added to every time (from the log's own clock
+/// to sample time: `offset_s = −start`).
+pub fn shifted(labels: &[Label], offset_s: f64) -> Vec<Label> {
+    labels
+        .iter()
+        .map(|l| Label {
+            start_s: l.start_s + offset_s,
+            end_s: l.end_s + offset_s,
+            ..l.clone()
+        })
+        .collect()
 }

@@ -28,7 +28,7 @@
 //! panel and fault constants) as the starting configuration has them.
 
 use crate::replay::{drive, with_channels, ChannelTask, FrameSource, InputSpec};
-use crate::score::{check_labels, read_labels, score_events, Score, ScoreOptions};
+use crate::score::{check_labels, read_labels, score_events, shifted, Score, ScoreOptions, Span};
 use humsense::{Backend, Config, Cycle, Detector, Event};
 use rayon::prelude::*;
 use std::fmt::Write as _;
@@ -294,7 +294,7 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
     let labels_name = cmd.labels.display().to_string();
     let labels = read_labels(&cmd.labels)?;
     let names = src.channel_names().to_vec();
-    check_labels(&labels, &names, f64::INFINITY, 0.0, &labels_name)?;
+    check_labels(&labels, &names, &Span::open(src.start_s()), &labels_name)?;
     let kind = crate::replay::label_kind(&start);
     if !labels.iter().any(|l| l.kind == kind) {
         return Err(format!(
@@ -339,7 +339,11 @@ impl ChannelTask for TuneTask<'_> {
         )?;
         let seconds = frames as f64 / rate;
         let labels_name = self.cmd.labels.display().to_string();
-        check_labels(&self.labels, &self.names, seconds, 1.0 / rate, &labels_name)?;
+        let start = self.src.start_s();
+        let span = Span::of_input(start, seconds, rate);
+        check_labels(&self.labels, &self.names, &span, &labels_name)?;
+        // Scored on sample time; the labels are on the log's own clock.
+        let on_samples = shifted(&self.labels, -start);
         let opts = ScoreOptions::for_kind(crate::replay::label_kind(&self.start));
         let cands = candidates(
             &self.start,
@@ -360,7 +364,7 @@ impl ChannelTask for TuneTask<'_> {
         );
         let hours = seconds / 3600.0;
         let names = &self.names;
-        let labels = &self.labels;
+        let labels = &on_samples;
         let t0 = std::time::Instant::now();
         let mut trials: Vec<Trial> = cands
             .par_iter()

@@ -299,7 +299,10 @@ fn bad_csv_inputs_are_located() {
         "jitter.csv",
         b"time_s,a\n0.0000,1\n0.0005,1\n0.0010,1\n0.0015,1\n0.0025,1\n0.0030,1\n",
         &[],
-        &["{F}:6:1: column `time_s`: interval", "by more than 1 %"],
+        &[
+            "{F}:6:1: column `time_s`: a gap of 0.001000000 s from line 5 (0.0015 s) to line 6 \
+             (0.0025 s): about 1 missing sample(s) at 2000.000 Hz",
+        ],
     );
     bad(
         "badtime.csv",
@@ -509,6 +512,143 @@ fn config_files_and_labels_are_checked() {
     );
     // A failed run leaves no partial output file behind.
     assert!(!out.exists());
+}
+
+/// `time_s` rows at 2 kHz from `t0`, four decimals, then `tail` rows as
+/// written.
+fn timed(t0: f64, rows: u32, tail: &str) -> Vec<u8> {
+    let mut s = String::from("time_s,a\n");
+    for n in 0..rows {
+        s.push_str(&format!("{:.4},2048\n", t0 + f64::from(n) / 2000.0));
+    }
+    s.push_str(tail);
+    s.into_bytes()
+}
+
+#[test]
+fn time_gaps_are_judged_from_the_values_not_their_printed_decimals() {
+    // 0.9995 s then `1.1`: one decimal used to widen the tolerance to 0.1 s
+    // and hide a 0.1 s gap. Line 2001 holds 0.9995 (header on line 1).
+    bad(
+        "one-decimal.csv",
+        &timed(0.0, 2000, "1.1,2048\n1.1005,2048\n"),
+        &[],
+        &[
+            "{F}:2002:1: column `time_s`: a gap of 0.100500000 s from line 2001 (0.9995 s) to \
+           line 2002 (1.1 s): about 200 missing sample(s)",
+        ],
+    );
+    // A whole `2`: a gap of about a second.
+    bad(
+        "whole.csv",
+        &timed(0.0, 2000, "2,2048\n"),
+        &[],
+        &[
+            "{F}:2002:1: column `time_s`: a gap of 1.000500000 s from line 2001",
+            "about 2000 missing",
+        ],
+    );
+    // A repeated row.
+    bad(
+        "repeat.csv",
+        &timed(0.0, 10, "0.0045,2048\n"),
+        &[],
+        &["{F}:12:1: column `time_s`: 0.0045 s does not come after 0.0045 s on line 11"],
+    );
+    // Times printed too coarsely to resolve the period: refused, saying so.
+    bad(
+        "coarse.csv",
+        b"time_s,a\n0.000,1\n0.001,1\n0.001,1\n0.002,1\n0.002,1\n0.003,1\n0.003,1\n",
+        &[],
+        &[
+            "{F}:4:1: column `time_s`: 0.001 s does not come after 0.001 s on line 3",
+            "too few to resolve a period",
+        ],
+    );
+    // One gap among the first rows does not bend the inferred rate: it is
+    // reported as a gap at 2 kHz.
+    let mut rows = String::from("time_s,a\n");
+    for n in (0..50u32).chain(60..120) {
+        rows.push_str(&format!("{:.4},2048\n", f64::from(n) / 2000.0));
+    }
+    bad(
+        "early-gap.csv",
+        rows.as_bytes(),
+        &[],
+        &[
+            "{F}:52:1: column `time_s`: a gap of 0.005500000 s from line 51",
+            "about 10 missing sample(s) at 2000.000 Hz",
+        ],
+    );
+    // Rounding of printed times at a rate they cannot hold exactly (3 kHz
+    // at 4 decimals: intervals of 0.0003 and 0.0004 s) is fine.
+    let mut rows = String::from("time_s,a\n");
+    for n in 0..6000u32 {
+        let t = f64::from(n) / 3000.0;
+        let x = 2048.0 + 20.0 * (std::f64::consts::TAU * 50.0 * t).sin();
+        rows.push_str(&format!("{t:.4},{}\n", x.round()));
+    }
+    let path = tmp("rounded.csv");
+    std::fs::write(&path, rows).unwrap();
+    let (code, _, err) = run(&["replay", p(&path)]);
+    assert_eq!(code, 0, "{err}");
+}
+
+#[test]
+fn a_log_that_starts_at_100_s_is_reported_on_its_own_clock() {
+    let touches = [(101.0, 101.5), (102.0, 102.3), (103.0, 103.6)];
+    let mut s = String::from("time_s,pad\n");
+    for n in 0..8000u32 {
+        let t = 100.0 + f64::from(n) / 2000.0;
+        let a = if touches.iter().any(|&(a, b)| t >= a && t < b) {
+            400.0
+        } else {
+            20.0
+        };
+        let x = 2048.0 + a * (std::f64::consts::TAU * 50.0 * t).sin();
+        s.push_str(&format!("{t:.4},{}\n", x.round() as i64));
+    }
+    let input = tmp("late-start.csv");
+    std::fs::write(&input, s).unwrap();
+    let labels = tmp("late-start.labels.csv");
+    std::fs::write(
+        &labels,
+        "channel,kind,start_s,end_s\npad,touch,101,101.5\npad,touch,102,102.3\npad,touch,103,103.6\n",
+    )
+    .unwrap();
+    let (code, out, err) = run(&["replay", p(&input), "--labels", p(&labels)]);
+    assert_eq!(code, 0, "{err}");
+    let ons: Vec<f64> = out
+        .lines()
+        .filter(|l| l.contains("touch-on"))
+        .map(|l| l.split(',').next().unwrap().parse().unwrap())
+        .collect();
+    assert_eq!(ons.len(), 3, "{out}");
+    // Each on event within 100 ms after its label's start, on the log's
+    // clock (DESIGN.md's p95 bar; the detector needs one to three cycles).
+    for (t, (a, _)) in ons.iter().zip(touches) {
+        assert!(*t > a && *t < a + 0.1, "{t} against {a}: {out}");
+    }
+    assert!(err.contains("missed") || err.contains("detected"), "{err}");
+    assert!(
+        !err.contains("missed 1") && !err.contains("false 1"),
+        "{err}"
+    );
+    // Labels on a clock from 0 are refused, naming the log's start.
+    std::fs::write(&labels, "channel,kind,start_s,end_s\npad,touch,1,1.5\n").unwrap();
+    let (code, _, err) = run(&["replay", p(&input), "--labels", p(&labels)]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("starts before the input, which starts at 100 s"),
+        "{err}"
+    );
+    std::fs::write(&labels, "channel,kind,start_s,end_s\npad,touch,103,105\n").unwrap();
+    let (code, _, err) = run(&["replay", p(&input), "--labels", p(&labels)]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("ends after the input, which lasts 4.0000 s (from 100 s to 104.0000 s"),
+        "{err}"
+    );
 }
 
 #[test]
