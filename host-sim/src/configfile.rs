@@ -111,8 +111,7 @@ impl ConfigFile {
     /// Reads and parses a configuration file.
     pub fn read(path: &Path) -> Result<ConfigFile, String> {
         let name = path.display().to_string();
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| format!("{name}: cannot read config file: {e}"))?;
+        let text = crate::text::read_small(path, "a config file")?;
         Self::parse(&text, &name)
     }
 

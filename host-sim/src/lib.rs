@@ -42,4 +42,5 @@ pub mod replay;
 pub mod rng;
 pub mod scenario;
 pub mod score;
+pub mod text;
 pub mod tune;

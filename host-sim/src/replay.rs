@@ -56,7 +56,7 @@
 use humsense::{AdcSample, Backend, Config, Cycle, Event, EventKind, Frontend};
 use std::collections::VecDeque;
 use std::fs::File;
-use std::io::{BufRead, BufReader, Read};
+use std::io::{BufReader, Read};
 use std::path::{Path, PathBuf};
 
 /// Most channels an input may have.
@@ -304,6 +304,9 @@ impl CsvSource {
                 "{name}: empty file; expected a header row naming the channels"
             ));
         }
+        if crate::text::has_inner_cr(&src.line) {
+            return Err(crate::text::cr_only(&name));
+        }
         let text = std::str::from_utf8(&src.line)
             .map_err(|_| format!("{name}:1:1: the header is not UTF-8 text"))?;
         let text = text.strip_prefix('\u{feff}').unwrap_or(text);
@@ -311,17 +314,24 @@ impl CsvSource {
         for cell in text.split(',') {
             let t = cell.trim().trim_matches('"');
             let here = col + cell.len() - cell.trim_start().len();
+            if src.names.len() == MAX_CHANNELS && t != "time_s" {
+                return Err(format!(
+                    "{name}:1:{here}: more than {MAX_CHANNELS} channel columns in the header; \
+                     replay handles 1 to {MAX_CHANNELS} (split the file)"
+                ));
+            }
+            let shown = crate::text::show(t);
             if t.is_empty() {
                 return Err(format!("{name}:1:{here}: empty column name in the header"));
             }
             if t.parse::<f64>().is_ok() {
                 return Err(format!(
-                    "{name}:1:{here}: header cell `{t}` is a number; the first row must name the channels"
+                    "{name}:1:{here}: header cell `{shown}` is a number; the first row must name the channels"
                 ));
             }
             if src.header.iter().any(|h| h == t) {
                 return Err(format!(
-                    "{name}:1:{here}: column `{t}` appears twice in the header"
+                    "{name}:1:{here}: column `{shown}` appears twice in the header"
                 ));
             }
             if t == "time_s" {
@@ -388,14 +398,17 @@ impl CsvSource {
         Ok(src)
     }
 
-    /// Reads the next non-empty line into `self.line` (without its end).
+    /// Reads the next non-empty line into `self.line` (without its end),
+    /// at most [`crate::text::MAX_LINE_BYTES`] long.
     fn next_line(&mut self) -> Result<bool, String> {
         loop {
             self.line.clear();
-            let n = self
-                .reader
-                .read_until(b'\n', &mut self.line)
-                .map_err(|e| format!("{}:{}: cannot read: {e}", self.name, self.line_no + 1))?;
+            let n = crate::text::read_line(
+                &mut self.reader,
+                &mut self.line,
+                &self.name,
+                self.line_no + 1,
+            )?;
             if n == 0 {
                 return Ok(false);
             }
@@ -505,7 +518,7 @@ impl CsvSource {
                         format!(
                             "{}:{ln}:{col}: column `time_s`: `{}` is not a time in seconds",
                             self.name,
-                            String::from_utf8_lossy(t)
+                            crate::text::show_bytes(t)
                         )
                     })?;
                 let decimals = s.find('.').map_or(0, |p| s.len() - p - 1);
@@ -515,8 +528,8 @@ impl CsvSource {
                     return Err(format!(
                         "{}:{ln}:{col}: column `{}`: `{}` is not an integer ADC code",
                         self.name,
-                        self.names.get(ch).map_or("?", String::as_str),
-                        String::from_utf8_lossy(t)
+                        crate::text::show(self.names.get(ch).map_or("?", String::as_str)),
+                        crate::text::show_bytes(t)
                     ));
                 };
                 if v < 0 || v > self.max_code {
@@ -524,7 +537,7 @@ impl CsvSource {
                         "{}:{ln}:{col}: column `{}`: {v} is out of range for {}-bit codes \
                          (0 to {}); see --bits",
                         self.name,
-                        self.names.get(ch).map_or("?", String::as_str),
+                        crate::text::show(self.names.get(ch).map_or("?", String::as_str)),
                         self.bits,
                         self.max_code
                     ));

@@ -990,12 +990,15 @@ impl Scenario {
     /// Reads and validates a scenario file.
     pub fn from_file(path: &std::path::Path) -> Result<Scenario, ScenarioError> {
         let name = path.display().to_string();
-        let src = std::fs::read_to_string(path).map_err(|e| ScenarioError {
+        let src = crate::text::read_small(path, "a scenario file").map_err(|m| ScenarioError {
             file: name.clone(),
             line: None,
             column: None,
             key: None,
-            message: format!("cannot read scenario file: {e}"),
+            message: m
+                .strip_prefix(&format!("{name}:"))
+                .map_or(m.as_str(), str::trim_start)
+                .to_string(),
         })?;
         Self::from_toml_str(&src, &name)
     }

@@ -402,8 +402,7 @@ pub fn score_events(
 /// Errors name the file, line and column. Never panics.
 pub fn read_labels(path: &Path) -> Result<Vec<Label>, String> {
     let name = path.display().to_string();
-    let text =
-        std::fs::read_to_string(path).map_err(|e| format!("{name}: cannot read labels: {e}"))?;
+    let text = crate::text::read_small(path, "labels")?;
     parse_labels(&text, &name)
 }
 
@@ -424,10 +423,13 @@ pub fn parse_labels(text: &str, name: &str) -> Result<Vec<Label>, String> {
     };
     let cells: Vec<&str> = header.1.split(',').map(str::trim).collect();
     if cells != ["channel", "kind", "start_s", "end_s"] {
+        if header.0 == 0 && crate::text::has_inner_cr(header.1.as_bytes()) {
+            return Err(crate::text::cr_only(name));
+        }
         return Err(format!(
             "{name}:{}:1: expected the header `channel,kind,start_s,end_s`, found `{}`",
             header.0 + 1,
-            header.1.trim()
+            crate::text::show(header.1.trim())
         ));
     }
     let mut out = Vec::new();
@@ -458,7 +460,8 @@ pub fn parse_labels(text: &str, name: &str) -> Result<Vec<Label>, String> {
             "field" => LabelKind::Field,
             other => {
                 return Err(format!(
-                    "{name}:{ln}:{c1}: kind `{other}`, expected `touch` or `field`"
+                    "{name}:{ln}:{c1}: kind `{}`, expected `touch` or `field`",
+                    crate::text::show(other)
                 ))
             }
         };
@@ -467,7 +470,10 @@ pub fn parse_labels(text: &str, name: &str) -> Result<Vec<Label>, String> {
                 .ok()
                 .filter(|v| v.is_finite() && *v >= 0.0)
                 .ok_or_else(|| {
-                    format!("{name}:{ln}:{c}: {what} `{s}` is not a time in seconds (>= 0)")
+                    format!(
+                        "{name}:{ln}:{c}: {what} `{}` is not a time in seconds (>= 0)",
+                        crate::text::show(s)
+                    )
                 })
         };
         let start_s = num(cells[2], "start_s")?;

@@ -337,7 +337,7 @@ fn bad_csv_inputs_are_located() {
         "wide.csv",
         format!("{wide}\n{row}\n").as_bytes(),
         &["--rate", "2000"],
-        &["{F}: 17 channels; replay handles 1 to 16"],
+        &["{F}:1:55: more than 16 channel columns in the header; replay handles 1 to 16"],
     );
     bad(
         "missing.csv",
@@ -648,6 +648,81 @@ fn a_log_that_starts_at_100_s_is_reported_on_its_own_clock() {
     assert!(
         err.contains("ends after the input, which lasts 4.0000 s (from 100 s to 104.0000 s"),
         "{err}"
+    );
+}
+
+#[test]
+fn hostile_csv_is_refused_early_and_quoted_short() {
+    // 5 000 channel names (a 29 kB header): refused at the 17th, not after
+    // a quadratic check of all of them. (200 000 names exceed the line
+    // limit, checked below.)
+    let names: Vec<String> = (0..5_000).map(|i| format!("c{i}")).collect();
+    let mut header = names.join(",");
+    header.push_str("\n1\n");
+    bad(
+        "wide.csv",
+        header.as_bytes(),
+        &["--rate", "2000"],
+        // c0..c15 take 2+2*... columns: c16 starts after "c0,".."c9," (3 bytes
+        // each) and "c10,".."c15," (4 each): 30 + 24 + 1 = column 55.
+        &["{F}:1:55: more than 16 channel columns in the header; replay handles 1 to 16"],
+    );
+    // A header line of 1 MB with no line end: refused at the line limit.
+    let mut long = vec![b'a'; 1 << 20];
+    long.extend_from_slice(b"\n1\n");
+    bad(
+        "long-line.csv",
+        &long,
+        &["--rate", "2000"],
+        &["{F}:1: line longer than 65536 bytes, the limit for one line"],
+    );
+    // A 60 000-byte cell is quoted cut, with its length.
+    let mut row = b"a\n".to_vec();
+    row.extend(std::iter::repeat_n(b'x', 60_000));
+    row.push(b'\n');
+    let path = tmp("huge-cell.csv");
+    std::fs::write(&path, &row).unwrap();
+    let (code, _, err) = run(&["replay", p(&path), "--rate", "2000"]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains(&format!(
+            "{}:2:1: column `a`: `{}… (60000 bytes in all)` is not an integer ADC code",
+            p(&path),
+            "x".repeat(40)
+        )),
+        "{err}"
+    );
+    assert!(err.len() < 400, "{} bytes of message", err.len());
+    // CR-only line ends are named as such.
+    bad(
+        "cr-only.csv",
+        b"a,b\r1,2\r3,4\r",
+        &["--rate", "2000"],
+        &[
+            "{F}:1: the first line holds carriage returns (CR)",
+            "CR-only line ends",
+        ],
+    );
+    let labels = tmp("cr-only.labels.csv");
+    std::fs::write(&labels, b"channel,kind,start_s,end_s\rpad,touch,1,2\r").unwrap();
+    let input = tmp("for-cr-labels.csv");
+    std::fs::write(&input, b"pad\n2048\n2048\n").unwrap();
+    let (code, _, err) = run(&[
+        "replay",
+        p(&input),
+        "--rate",
+        "2000",
+        "--labels",
+        p(&labels),
+    ]);
+    assert_eq!(code, 1);
+    assert!(err.contains("CR-only line ends"), "{err}");
+    // A NUL inside a cell is shown, not dropped.
+    bad(
+        "nul.csv",
+        b"a\n20\x0048\n",
+        &["--rate", "2000"],
+        &["{F}:2:1: column `a`: `20\\048` is not an integer ADC code"],
     );
 }
 
