@@ -15,7 +15,8 @@ use std::io::BufWriter;
 use std::time::Instant;
 
 use humsense::{Config, Detector};
-use humsim::replay::{config_for, open_input, replay, InputSpec, RenderSource};
+use humsim::input::{open_input, InputSpec, RenderSource};
+use humsim::replay::{config_for, replay};
 use humsim::scenario::{LabelKind, RenderOptions, Scenario};
 use humsim::score::{score_events, ScoreOptions};
 

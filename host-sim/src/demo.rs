@@ -2,7 +2,8 @@
 //! touch configuration, an event table, a score against the scenario's own
 //! labels, and a plot.
 
-use crate::replay::{config_for, replay, RenderSource};
+use crate::input::RenderSource;
+use crate::replay::{config_for, replay};
 use crate::scenario::{RenderOptions, Scenario};
 use crate::score::{score_events, ScoreOptions};
 use std::fmt::Write as _;

@@ -32,6 +32,7 @@ pub mod console;
 pub mod coupling;
 pub mod demo;
 pub mod frontend;
+pub mod input;
 pub mod interference;
 pub mod mains;
 pub mod outfile;

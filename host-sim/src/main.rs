@@ -138,15 +138,15 @@ struct DetectorArgs {
 }
 
 impl InputArgs {
-    fn spec(&self) -> humsim::replay::InputSpec {
-        humsim::replay::InputSpec {
+    fn spec(&self) -> humsim::input::InputSpec {
+        humsim::input::InputSpec {
             path: self.input.clone(),
             rate_hz: self.rate,
             bits: self.bits,
             raw: self
                 .raw
                 .as_deref()
-                .and_then(humsim::replay::RawFormat::parse),
+                .and_then(humsim::input::RawFormat::parse),
             channels: self.channels,
         }
     }

@@ -27,7 +27,8 @@
 //! rest of the back end (start-up, noise time constant, floors, levels,
 //! panel and fault constants) as the starting configuration has them.
 
-use crate::replay::{drive, with_channels, ChannelTask, FrameSource, InputSpec};
+use crate::input::{open_input, FrameSource, InputSpec};
+use crate::replay::{drive, with_channels, ChannelTask};
 use crate::score::{check_labels, read_labels, score_events, shifted, Score, ScoreOptions, Span};
 use humsense::{Backend, Config, Cycle, Detector, Event};
 use rayon::prelude::*;
@@ -288,7 +289,7 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
             cmd.budget_per_hour
         ));
     }
-    let mut src = crate::replay::open_input(&cmd.input)?;
+    let mut src = open_input(&cmd.input)?;
     let start =
         crate::replay::config_for(src.as_ref(), cmd.profile, cmd.mains, cmd.config.as_deref())?;
     let labels_name = cmd.labels.display().to_string();
@@ -395,7 +396,7 @@ impl ChannelTask for TuneTask<'_> {
         if let Some(t) = chosen.and_then(|i| trials.get(i)) {
             events = fast_events::<N>(&cycles, &t.config).unwrap_or_default();
             drop(cycles);
-            let mut again = crate::replay::open_input(&self.cmd.input)?;
+            let mut again = open_input(&self.cmd.input)?;
             let full = full_events::<N>(again.as_mut(), &t.config)?;
             if full != events {
                 return Err(format!(

@@ -14,7 +14,8 @@
 )]
 
 use humsense::{Event, EventKind, Profile};
-use humsim::replay::{config_for, replay, RenderSource};
+use humsim::input::RenderSource;
+use humsim::replay::{config_for, replay};
 use humsim::scenario::{Label, LabelKind, RenderOptions, Scenario};
 use humsim::score::{score_events, ScoreOptions};
 

@@ -3,7 +3,8 @@
 #![allow(clippy::unwrap_used)]
 
 use humsense::{Config, Detector, Event};
-use humsim::replay::{replay, RenderSource};
+use humsim::input::RenderSource;
+use humsim::replay::replay;
 use humsim::scenario::{RenderOptions, Scenario};
 use std::path::{Path, PathBuf};
 use std::process::Command;

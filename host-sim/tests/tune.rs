@@ -2,7 +2,8 @@
 //! replay, and labels that do not fit the input are refused.
 #![allow(clippy::unwrap_used)]
 
-use humsim::replay::{config_for, replay, InputSpec};
+use humsim::input::InputSpec;
+use humsim::replay::{config_for, replay};
 use humsim::tune::{tune, TuneCommand};
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -65,7 +66,7 @@ fn tune_repairs_a_bad_start_and_the_fast_path_equals_a_full_replay() {
     };
     let out = tune(&cmd).unwrap();
     // The start (always candidate 0 of the sweep) really is bad.
-    let src = humsim::replay::open_input(&cmd.input).unwrap();
+    let src = humsim::input::open_input(&cmd.input).unwrap();
     let start_cfg = config_for(src.as_ref(), None, None, Some(&start)).unwrap();
     let start_trial = out.trials.iter().find(|t| t.config == start_cfg).unwrap();
     assert!(
@@ -79,7 +80,7 @@ fn tune_repairs_a_bad_start_and_the_fast_path_equals_a_full_replay() {
     assert!(out.verified);
     // Independently: a full replay with the chosen config gives the events
     // the fast path gave.
-    let mut src = humsim::replay::open_input(&cmd.input).unwrap();
+    let mut src = humsim::input::open_input(&cmd.input).unwrap();
     let full = replay(src.as_mut(), &best.config, &mut |_| Ok(()), None, true).unwrap();
     assert_eq!(full.events, out.events);
     assert_eq!(full.events.len(), 16);

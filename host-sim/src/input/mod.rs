@@ -1,0 +1,229 @@
+//! Inputs: logged ADC codes as a stream of frames ([`FrameSource`]).
+//!
+//! ## Formats ([`open_input`])
+//! - **CSV** (any name not ending in `.wav`, unless `--raw`): a header row
+//!   naming the channels, then one row per frame of integer ADC codes. A
+//!   column named `time_s` (anywhere) is optional: with it the rate is
+//!   inferred from the first 1000 rows (the mean of the intervals within
+//!   ±50 % of their median), and every
+//!   interval must be that period within one unit in the row's last printed
+//!   decimal (the rounding of printed times), but never less than 1 % nor
+//!   more than half of the period: a gap or a repeated row is refused with
+//!   its line numbers however coarsely the times are printed. The first
+//!   `time_s` is the log's start: events and labels are on the log's own
+//!   clock. Without `time_s`, `--rate` is required and the clock starts at
+//!   0. With both, they must agree within 1 %. Codes are
+//!   unsigned, `0 ..= 2^bits − 1`. Cells may have spaces around them; empty
+//!   lines are skipped; CRLF endings and a UTF-8 byte-order mark are fine.
+//! - **WAV** (`.wav`): integer PCM, any channel count, rate from the header
+//!   (rounded to whole hertz by the format). At the PCM width (the default
+//!   `--bits`) samples are two's-complement codes; with `--bits N` below the
+//!   width, samples must be unsigned ADC codes `0 ..= 2^N − 1` stored
+//!   unchanged, as `humsim simulate` writes them. Widths above 16 bits need
+//!   `--bits` of 16 or less.
+//! - **Raw** (`--raw u16le|i16le --channels N --rate HZ`): interleaved
+//!   little-endian 16-bit codes, unsigned or two's complement.
+//!
+//! `--bits` defaults to 12 for CSV and raw and to the PCM width for WAV;
+//! every code is checked against it. Channels: 1 to [`MAX_CHANNELS`]; the
+//! detector's channel count is a const generic, and the inputs dispatch to
+//! `Frontend<1, 0>` … `Frontend<16, 0>` ([`crate::replay::with_channels`]); more channels
+//! are refused with a message.
+//!
+//! Reading streams: a fixed block of frames at a time, so memory does not
+//! depend on the file's length.
+
+mod csv;
+mod raw;
+mod wav;
+
+pub use csv::CsvSource;
+pub use raw::RawSource;
+pub use wav::WavSource;
+
+use std::path::PathBuf;
+
+/// Most channels an input may have.
+pub const MAX_CHANNELS: usize = 16;
+
+/// Rows read ahead to infer the rate from `time_s`.
+const RATE_ROWS: usize = 1000;
+
+/// Layout of a raw binary input.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RawFormat {
+    /// Unsigned 16-bit little-endian codes.
+    U16Le,
+    /// Two's-complement 16-bit little-endian codes.
+    I16Le,
+}
+
+impl RawFormat {
+    /// Parses `u16le` / `i16le`.
+    pub fn parse(s: &str) -> Option<RawFormat> {
+        match s {
+            "u16le" => Some(RawFormat::U16Le),
+            "i16le" => Some(RawFormat::I16Le),
+            _ => None,
+        }
+    }
+}
+
+/// What the command line says about an input.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct InputSpec {
+    /// The file.
+    pub path: PathBuf,
+    /// `--rate`.
+    pub rate_hz: Option<f64>,
+    /// `--bits`.
+    pub bits: Option<u8>,
+    /// `--raw`.
+    pub raw: Option<RawFormat>,
+    /// `--channels` (raw only).
+    pub channels: Option<usize>,
+}
+
+/// A stream of interleaved frames of ADC codes.
+pub trait FrameSource {
+    /// The input's name for messages (the file name).
+    fn name(&self) -> &str;
+    /// Channel names in column order.
+    fn channel_names(&self) -> &[String];
+    /// Sample rate per channel, hertz.
+    fn rate_hz(&self) -> f64;
+    /// ADC resolution the codes were checked against.
+    fn bits(&self) -> u8;
+    /// Whether codes are two's complement (fed to the detector as `i16`).
+    fn signed(&self) -> bool;
+    /// The time of the first frame on the log's own clock, seconds: the
+    /// first `time_s` of a CSV log, 0 for inputs without a time column.
+    /// Events and labels are reported on this clock.
+    fn start_s(&self) -> f64 {
+        0.0
+    }
+    /// Fills `buf` (a multiple of the channel count long) with whole frames
+    /// and returns how many; 0 at the end. Errors name the place in the file.
+    fn read(&mut self, buf: &mut [i32]) -> Result<usize, String>;
+}
+
+/// Opens `spec.path` as CSV, WAV or raw (see the module docs).
+pub fn open_input(spec: &InputSpec) -> Result<Box<dyn FrameSource>, String> {
+    let name = spec.path.display().to_string();
+    if let Some(b) = spec.bits {
+        check_bits(b)?;
+    }
+    if let Some(r) = spec.rate_hz {
+        if !(r.is_finite() && r > 0.0) {
+            return Err(format!("--rate {r}: expected a positive number of hertz"));
+        }
+    }
+    if let Some(fmt) = spec.raw {
+        let Some(ch) = spec.channels else {
+            return Err(format!("{name}: --raw needs --channels N"));
+        };
+        let Some(rate) = spec.rate_hz else {
+            return Err(format!("{name}: --raw needs --rate HZ"));
+        };
+        return Ok(Box::new(RawSource::open(
+            &spec.path,
+            fmt,
+            ch,
+            rate,
+            spec.bits.unwrap_or(12),
+        )?));
+    }
+    if spec.channels.is_some() {
+        return Err(format!(
+            "{name}: --channels applies to --raw input only (CSV names its channels in the header, WAV in its header)"
+        ));
+    }
+    let wav = spec
+        .path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("wav"));
+    if wav {
+        if spec.rate_hz.is_some() {
+            return Err(format!(
+                "{name}: --rate does not apply to WAV input, whose header gives the rate"
+            ));
+        }
+        return Ok(Box::new(WavSource::open(&spec.path, spec.bits)?));
+    }
+    Ok(Box::new(CsvSource::open(
+        &spec.path,
+        spec.rate_hz,
+        spec.bits.unwrap_or(12),
+    )?))
+}
+
+/// `--bits` must be 8 to 16.
+fn check_bits(b: u8) -> Result<(), String> {
+    if (8..=16).contains(&b) {
+        Ok(())
+    } else {
+        Err(format!("--bits {b}: expected 8 to 16"))
+    }
+}
+
+fn check_channels(name: &str, n: usize) -> Result<(), String> {
+    if n == 0 {
+        return Err(format!("{name}: no channels"));
+    }
+    if n > MAX_CHANNELS {
+        return Err(format!(
+            "{name}: {n} channels; replay handles 1 to {MAX_CHANNELS} (split the file)"
+        ));
+    }
+    Ok(())
+}
+
+// ------------------------------------------------------------------ simulator
+
+/// A scenario render as an input (for the demo and tests).
+pub struct RenderSource {
+    render: crate::render::Render,
+    names: Vec<String>,
+    bits: u8,
+    codes: Vec<u16>,
+}
+
+impl RenderSource {
+    /// Wraps a render.
+    pub fn new(render: crate::render::Render) -> RenderSource {
+        let names = render.scenario().channel_names();
+        let bits = render.scenario().adc.bits.clamp(8, 16) as u8;
+        RenderSource {
+            render,
+            names,
+            bits,
+            codes: Vec::new(),
+        }
+    }
+}
+
+impl FrameSource for RenderSource {
+    fn name(&self) -> &str {
+        &self.render.scenario().origin
+    }
+    fn channel_names(&self) -> &[String] {
+        &self.names
+    }
+    fn rate_hz(&self) -> f64 {
+        self.render.rate_hz()
+    }
+    fn bits(&self) -> u8 {
+        self.bits
+    }
+    fn signed(&self) -> bool {
+        false
+    }
+    fn read(&mut self, buf: &mut [i32]) -> Result<usize, String> {
+        self.codes.resize(buf.len(), 0);
+        let n = self.render.fill(&mut self.codes);
+        for (slot, c) in buf.iter_mut().zip(&self.codes).take(n * self.names.len()) {
+            *slot = i32::from(*c);
+        }
+        Ok(n)
+    }
+}
