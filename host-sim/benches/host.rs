@@ -16,8 +16,9 @@ use std::time::Instant;
 
 use humsense::{Config, Detector};
 use humsim::input::{open_input, InputSpec, RenderSource};
+use humsim::labels::LabelKind;
 use humsim::replay::{config_for, replay};
-use humsim::scenario::{LabelKind, RenderOptions, Scenario};
+use humsim::scenario::{RenderOptions, Scenario};
 use humsim::score::{score_events, ScoreOptions};
 
 fn main() {

@@ -6,12 +6,16 @@
 //! node's high-pass divider) → [`frontend`] (amplifier, follower chain,
 //! comparator) → [`adc`] (quantised codes), plus [`interference`] (ESD,
 //! lamps, drift). [`scenario`] reads TOML scenarios, validates them and
-//! yields ground-truth labels; [`render`] streams codes in blocks;
-//! [`builtin`] holds the named scenarios; [`output`] writes CSV, WAV and
-//! label files. [`score`] matches detector events to labels; [`replay`]
-//! reads logs (CSV, WAV, raw) and runs the detector; [`configfile`] reads and
-//! writes detector configurations; [`plot`] draws runs; [`demo`] is
-//! `humsim demo`; [`tune`] sweeps detector constants on a labelled log.
+//! yields ground-truth labels ([`labels`]: the type, its CSV reader and
+//! writer); [`render`] streams codes in blocks; [`builtin`] holds the named
+//! scenarios; [`output`] writes CSV and WAV. [`input`] reads logs (CSV, WAV,
+//! raw) as frames; [`replay`] runs the detector on them; [`score`] matches
+//! events to labels; [`configfile`] reads and writes detector
+//! configurations; [`plot`] draws runs; [`demo`] is `humsim demo`; [`tune`]
+//! sweeps detector constants on a labelled log. Around them: [`outfile`]
+//! (outputs written beside and renamed into place, never over an input),
+//! [`console`] (stdout and stderr without panics) and [`text`] (bounds on
+//! lines and files, cells quoted short in messages).
 //!
 //! ```
 //! use humsim::scenario::{Scenario, RenderOptions};
@@ -34,6 +38,7 @@ pub mod demo;
 pub mod frontend;
 pub mod input;
 pub mod interference;
+pub mod labels;
 pub mod mains;
 pub mod outfile;
 pub mod output;

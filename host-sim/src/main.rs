@@ -282,7 +282,7 @@ fn simulate(
     bar.finish_and_clear();
     let seconds = render.frames_total() as f64 / render.rate_hz();
     let labels_name = labels_file.shown().to_string();
-    humsim::output::write_labels(&s.labels(seconds), labels_file.writer()?)
+    humsim::labels::write(&s.labels(seconds), labels_file.writer()?)
         .map_err(|e| format!("{labels_name}: cannot write: {e}"))?;
     humsim::outfile::commit_all([out, labels_file])?;
     console::err(&format!(

@@ -12,7 +12,6 @@
 //! All writers stream block by block; memory does not grow with the run.
 
 use crate::render::Render;
-use crate::scenario::Label;
 use std::io::{self, Seek, Write};
 use std::path::{Path, PathBuf};
 
@@ -151,20 +150,4 @@ pub fn write_wav<W: Write + Seek>(
         progress(r.frames_done());
     }
     w.finalize().map_err(err)
-}
-
-/// Writes labels as CSV (`channel,kind,start_s,end_s`, 6 decimals).
-pub fn write_labels<W: Write>(labels: &[Label], w: &mut W) -> io::Result<()> {
-    writeln!(w, "channel,kind,start_s,end_s")?;
-    for l in labels {
-        writeln!(
-            w,
-            "{},{},{:.6},{:.6}",
-            l.channel,
-            l.kind.as_str(),
-            l.start_s,
-            l.end_s
-        )?;
-    }
-    Ok(())
 }

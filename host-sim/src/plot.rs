@@ -14,7 +14,7 @@
 //!   logarithmic axis, ground-truth intervals shaded, and the events
 //!   marked as vertical lines (on, off, fault).
 
-use crate::scenario::Label;
+use crate::labels::Label;
 use humsense::{ChannelSnapshot, Event, EventKind};
 use plotters::coord::Shift;
 use plotters::prelude::*;

@@ -291,10 +291,10 @@ pub fn config_for(
 }
 
 /// The kind of labels a profile is scored against.
-pub fn label_kind(cfg: &Config) -> crate::scenario::LabelKind {
+pub fn label_kind(cfg: &Config) -> crate::labels::LabelKind {
     match cfg.profile {
-        humsense::Profile::Field => crate::scenario::LabelKind::Field,
-        _ => crate::scenario::LabelKind::Touch,
+        humsense::Profile::Field => crate::labels::LabelKind::Field,
+        _ => crate::labels::LabelKind::Touch,
     }
 }
 
@@ -320,9 +320,11 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
     let start = src.start_s();
     let labels = match &cmd.labels {
         Some(p) => {
-            let l = crate::score::read_labels(p)?;
-            let span = crate::score::Span::open(start);
-            crate::score::check_labels(&l, &names, &span, &p.display().to_string())?;
+            let l = crate::labels::LabelFile::read(p)?;
+            l.check(&names, &crate::labels::Span::open(start))?;
+            if let (_, Some(w)) = l.of_kind(label_kind(&cfg)) {
+                console::err(&format!("humsim: warning: {w}\n"))?;
+            }
             Some(l)
         }
         None => None,
@@ -381,12 +383,11 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
             Err(m) => return Err(stdout_failure.take().unwrap_or(CliError::Message(m))),
         };
         let seconds = outcome.frames as f64 / rate;
-        if let (Some(l), Some(p)) = (&labels, &cmd.labels) {
-            let pname = p.display().to_string();
-            let span = crate::score::Span::of_input(start, seconds, rate);
-            crate::score::check_labels(l, &names, &span, &pname)?;
+        if let Some(l) = &labels {
+            let pname = &l.name;
+            l.check(&names, &crate::labels::Span::of_input(start, seconds, rate))?;
             let opts = crate::score::ScoreOptions::for_kind(label_kind(&cfg));
-            let on_samples = crate::score::shifted(l, -start);
+            let on_samples = crate::labels::shifted(&l.labels, -start);
             let s = crate::score::score_events(&outcome.events, rate, &names, &on_samples, &opts)?;
             console::err(&format!(
                 "score of {} against {pname} ({} labels, {seconds:.1} s):\n{}",
@@ -406,7 +407,7 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
                 f.write_path(),
                 &name,
                 &title,
-                labels.as_deref().unwrap_or(&[]),
+                labels.as_ref().map_or(&[][..], |l| &l.labels[..]),
             )?;
         }
     }

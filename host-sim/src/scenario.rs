@@ -41,6 +41,7 @@ use crate::body::{Body, Contact, Touch};
 use crate::coupling::{DistanceSchedule, Geometry, SenseNode};
 use crate::frontend::{Amplifier, Comparator, FollowerChain, FrontEnd};
 use crate::interference::{burst, Discharge, Drift, Lamp};
+use crate::labels::{Label, LabelKind};
 use crate::mains::{Harmonic, MainsConfig, MainsEvent, MainsSchedule};
 use serde::{Deserialize, Serialize};
 use std::fmt;
@@ -855,38 +856,6 @@ pub struct Scenario {
     pub actions: Vec<Action>,
     /// Ambient drift.
     pub drift: Drift,
-}
-
-/// What kind of interval a label marks.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum LabelKind {
-    /// A finger on the pad.
-    Touch,
-    /// A live conductor within detection range.
-    Field,
-}
-
-impl LabelKind {
-    /// `touch` or `field`, as in the labels CSV.
-    pub fn as_str(&self) -> &'static str {
-        match self {
-            LabelKind::Touch => "touch",
-            LabelKind::Field => "field",
-        }
-    }
-}
-
-/// One ground-truth interval.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Label {
-    /// Channel name.
-    pub channel: String,
-    /// Kind.
-    pub kind: LabelKind,
-    /// Start, seconds.
-    pub start_s: f64,
-    /// End, seconds.
-    pub end_s: f64,
 }
 
 /// Options for [`Scenario::render`].

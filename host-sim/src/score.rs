@@ -31,10 +31,9 @@
 //! nearest-rank method, the value at rank `⌈0.95·n⌉` of the sorted list
 //! (the textbook definition, from memory); max is the largest value.
 
-use crate::scenario::{Label, LabelKind};
+use crate::labels::{Label, LabelKind};
 use humsense::{Event, EventKind};
 use std::fmt::Write as _;
-use std::path::Path;
 
 /// How events are matched to labels (see the module docs).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -275,7 +274,7 @@ fn on_off(kind: LabelKind) -> (EventKind, EventKind) {
 ///
 /// ```
 /// use humsense::{Event, EventKind};
-/// use humsim::scenario::{Label, LabelKind};
+/// use humsim::labels::{Label, LabelKind};
 /// use humsim::score::{score_events, ScoreOptions};
 /// let labels = vec![Label { channel: "pad".into(), kind: LabelKind::Touch, start_s: 1.0, end_s: 1.5 }];
 /// // touch-on at sample 2080 (1.04 s at 2 kHz), touch-off at 3100 (1.55 s).
@@ -396,195 +395,4 @@ pub fn score_events(
         ));
     }
     Ok(score)
-}
-
-/// Reads a labels CSV (`channel,kind,start_s,end_s` with that header).
-/// Errors name the file, line and column. Never panics.
-pub fn read_labels(path: &Path) -> Result<Vec<Label>, String> {
-    let name = path.display().to_string();
-    let text = crate::text::read_small(path, "labels")?;
-    parse_labels(&text, &name)
-}
-
-/// Parses labels CSV text; `name` labels the source in errors.
-pub fn parse_labels(text: &str, name: &str) -> Result<Vec<Label>, String> {
-    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let mut lines = text.lines().enumerate();
-    let header = loop {
-        match lines.next() {
-            Some((_, l)) if l.trim().is_empty() => continue,
-            Some((i, l)) => break (i, l),
-            None => {
-                return Err(format!(
-                    "{name}: empty labels file, expected the header `channel,kind,start_s,end_s`"
-                ))
-            }
-        }
-    };
-    let cells: Vec<&str> = header.1.split(',').map(str::trim).collect();
-    if cells != ["channel", "kind", "start_s", "end_s"] {
-        if header.0 == 0 && crate::text::has_inner_cr(header.1.as_bytes()) {
-            return Err(crate::text::cr_only(name));
-        }
-        return Err(format!(
-            "{name}:{}:1: expected the header `channel,kind,start_s,end_s`, found `{}`",
-            header.0 + 1,
-            crate::text::show(header.1.trim())
-        ));
-    }
-    let mut out = Vec::new();
-    for (i, line) in lines {
-        let ln = i + 1;
-        if line.trim().is_empty() {
-            continue;
-        }
-        let mut col = 1usize;
-        let mut cells = Vec::with_capacity(4);
-        for cell in line.split(',') {
-            cells.push((col, cell.trim()));
-            col += cell.chars().count() + 1;
-        }
-        if cells.len() != 4 {
-            return Err(format!(
-                "{name}:{ln}:1: expected 4 cells (channel,kind,start_s,end_s), found {}",
-                cells.len()
-            ));
-        }
-        let (c0, channel) = cells[0];
-        if channel.is_empty() {
-            return Err(format!("{name}:{ln}:{c0}: empty channel name"));
-        }
-        let (c1, kind) = cells[1];
-        let kind = match kind {
-            "touch" => LabelKind::Touch,
-            "field" => LabelKind::Field,
-            other => {
-                return Err(format!(
-                    "{name}:{ln}:{c1}: kind `{}`, expected `touch` or `field`",
-                    crate::text::show(other)
-                ))
-            }
-        };
-        let num = |(c, s): (usize, &str), what: &str| -> Result<f64, String> {
-            s.parse::<f64>()
-                .ok()
-                .filter(|v| v.is_finite() && *v >= 0.0)
-                .ok_or_else(|| {
-                    format!(
-                        "{name}:{ln}:{c}: {what} `{}` is not a time in seconds (>= 0)",
-                        crate::text::show(s)
-                    )
-                })
-        };
-        let start_s = num(cells[2], "start_s")?;
-        let end_s = num(cells[3], "end_s")?;
-        if end_s < start_s {
-            return Err(format!(
-                "{name}:{ln}:{}: end_s {end_s} is before start_s {start_s}",
-                cells[3].0
-            ));
-        }
-        out.push(Label {
-            channel: channel.to_string(),
-            kind,
-            start_s,
-            end_s,
-        });
-    }
-    Ok(out)
-}
-
-/// The time an input covers on its own clock, for [`check_labels`].
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Span {
-    /// The first frame's time, seconds.
-    pub start_s: f64,
-    /// The input's length, seconds (infinite before it has been read).
-    pub duration_s: f64,
-    /// Rounding allowed at either end (one sample period), seconds.
-    pub slack_s: f64,
-}
-
-impl Span {
-    /// An input starting at `start_s` whose length is not known yet.
-    pub fn open(start_s: f64) -> Span {
-        Span {
-            start_s,
-            duration_s: f64::INFINITY,
-            slack_s: 0.0,
-        }
-    }
-
-    /// An input of `duration_s` from `start_s`, sampled at `rate_hz`.
-    pub fn of_input(start_s: f64, duration_s: f64, rate_hz: f64) -> Span {
-        Span {
-            start_s,
-            duration_s,
-            slack_s: 1.0 / rate_hz,
-        }
-    }
-}
-
-/// Checks that `labels` fit an input with these `channels` over `span`:
-/// every label's channel exists and no label starts before the input or
-/// ends after it (within one sample period of rounding). The message names
-/// the label.
-pub fn check_labels(
-    labels: &[Label],
-    channels: &[String],
-    span: &Span,
-    labels_name: &str,
-) -> Result<(), String> {
-    let end = span.start_s + span.duration_s;
-    let clock = if span.start_s == 0.0 {
-        String::new()
-    } else {
-        format!(" (from {} s to {end:.4} s on its own clock)", span.start_s)
-    };
-    for l in labels {
-        let row = format!(
-            "`{},{},{},{}`",
-            l.channel,
-            l.kind.as_str(),
-            l.start_s,
-            l.end_s
-        );
-        if !channels.contains(&l.channel) {
-            return Err(format!(
-                "{labels_name}: label for channel `{}` ({} s to {} s) but the input has no such \
-                 channel; its channels are: {}",
-                l.channel,
-                l.start_s,
-                l.end_s,
-                channels.join(", ")
-            ));
-        }
-        if l.start_s < span.start_s - span.slack_s {
-            return Err(format!(
-                "{labels_name}: label {row} starts before the input, which starts at {} s; \
-                 labels are on the log's own clock",
-                span.start_s
-            ));
-        }
-        if l.end_s > end + span.slack_s {
-            return Err(format!(
-                "{labels_name}: label {row} ends after the input, which lasts {:.4} s{clock}",
-                span.duration_s
-            ));
-        }
-    }
-    Ok(())
-}
-
-/// `labels` with `offset_s` added to every time (from the log's own clock
-/// to sample time: `offset_s = −start`).
-pub fn shifted(labels: &[Label], offset_s: f64) -> Vec<Label> {
-    labels
-        .iter()
-        .map(|l| Label {
-            start_s: l.start_s + offset_s,
-            end_s: l.end_s + offset_s,
-            ..l.clone()
-        })
-        .collect()
 }

@@ -28,8 +28,9 @@
 //! panel and fault constants) as the starting configuration has them.
 
 use crate::input::{open_input, FrameSource, InputSpec};
+use crate::labels::{shifted, LabelFile, Span};
 use crate::replay::{drive, with_channels, ChannelTask};
-use crate::score::{check_labels, read_labels, score_events, shifted, Score, ScoreOptions, Span};
+use crate::score::{score_events, Score, ScoreOptions};
 use humsense::{Backend, Config, Cycle, Detector, Event};
 use rayon::prelude::*;
 use std::fmt::Write as _;
@@ -279,6 +280,8 @@ pub struct TuneOutcome {
     pub verified: bool,
     /// Time spent sweeping, seconds.
     pub sweep_s: f64,
+    /// Warnings for the user (labels the profile does not score).
+    pub warnings: Vec<String>,
 }
 
 /// Runs the tuning (no output files; see [`command`]).
@@ -292,14 +295,15 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
     let mut src = open_input(&cmd.input)?;
     let start =
         crate::replay::config_for(src.as_ref(), cmd.profile, cmd.mains, cmd.config.as_deref())?;
-    let labels_name = cmd.labels.display().to_string();
-    let labels = read_labels(&cmd.labels)?;
+    let labels = LabelFile::read(&cmd.labels)?;
     let names = src.channel_names().to_vec();
-    check_labels(&labels, &names, &Span::open(src.start_s()), &labels_name)?;
+    labels.check(&names, &Span::open(src.start_s()))?;
     let kind = crate::replay::label_kind(&start);
-    if !labels.iter().any(|l| l.kind == kind) {
+    let (mine, warning) = labels.of_kind(kind);
+    if mine.is_empty() {
         return Err(format!(
-            "{labels_name}: no `{}` labels to tune the {} profile on",
+            "{}: no `{}` labels to tune the {} profile on",
+            labels.name,
             kind.as_str(),
             kind.as_str()
         ));
@@ -312,6 +316,7 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
             start,
             labels,
             names: names.clone(),
+            warnings: warning.into_iter().collect(),
         },
     )
 }
@@ -320,7 +325,8 @@ struct TuneTask<'a> {
     cmd: &'a TuneCommand,
     src: &'a mut dyn FrameSource,
     start: Config,
-    labels: Vec<crate::scenario::Label>,
+    labels: LabelFile,
+    warnings: Vec<String>,
     names: Vec<String>,
 }
 
@@ -339,12 +345,11 @@ impl ChannelTask for TuneTask<'_> {
             },
         )?;
         let seconds = frames as f64 / rate;
-        let labels_name = self.cmd.labels.display().to_string();
         let start = self.src.start_s();
-        let span = Span::of_input(start, seconds, rate);
-        check_labels(&self.labels, &self.names, &span, &labels_name)?;
+        self.labels
+            .check(&self.names, &Span::of_input(start, seconds, rate))?;
         // Scored on sample time; the labels are on the log's own clock.
-        let on_samples = shifted(&self.labels, -start);
+        let on_samples = shifted(&self.labels.labels, -start);
         let opts = ScoreOptions::for_kind(crate::replay::label_kind(&self.start));
         let cands = candidates(
             &self.start,
@@ -416,6 +421,7 @@ impl ChannelTask for TuneTask<'_> {
             events,
             verified,
             sweep_s,
+            warnings: self.warnings,
         })
     }
 }
@@ -484,6 +490,9 @@ pub fn command(cmd: &TuneCommand) -> Result<(), crate::console::CliError> {
         None => None,
     };
     let outcome = tune(cmd)?;
+    for w in &outcome.warnings {
+        console::err(&format!("humsim: warning: {w}\n"))?;
+    }
     let budget = cmd.budget_per_hour;
     let mut failures: Vec<String> = Vec::new();
     let mut out = String::new();

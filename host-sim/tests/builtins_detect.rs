@@ -15,8 +15,9 @@
 
 use humsense::{Event, EventKind, Profile};
 use humsim::input::RenderSource;
+use humsim::labels::{Label, LabelKind};
 use humsim::replay::{config_for, replay};
-use humsim::scenario::{Label, LabelKind, RenderOptions, Scenario};
+use humsim::scenario::{RenderOptions, Scenario};
 use humsim::score::{score_events, ScoreOptions};
 
 fn check(name: &str, kind: LabelKind) -> String {

@@ -494,7 +494,8 @@ fn config_files_and_labels_are_checked() {
     ]);
     assert_eq!(code, 1);
     assert!(
-        err.contains("label for channel `knob`") && err.contains("its channels are: pad"),
+        err.contains("labels.csv:2: label `knob,touch,1,2` is for channel `knob`")
+            && err.contains("its channels are: pad"),
         "{err}"
     );
     std::fs::write(&labels, "channel,kind,start_s,end_s\npad,touch,1,9.5\n").unwrap();

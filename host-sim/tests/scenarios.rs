@@ -1,7 +1,8 @@
 //! Scenario format, built-ins, labels and streaming.
 
 use humsim::builtin;
-use humsim::scenario::{LabelKind, RenderOptions, Scenario, ScenarioError};
+use humsim::labels::LabelKind;
+use humsim::scenario::{RenderOptions, Scenario, ScenarioError};
 
 fn render_all(s: &Scenario, seconds: Option<f64>, seed: Option<u64>) -> Vec<u16> {
     let mut r = s.render(&RenderOptions { seconds, seed }).unwrap();
@@ -287,7 +288,7 @@ fn window_levels(s: &Scenario, codes: &[u16], c: usize) -> (Vec<f64>, Vec<f64>) 
         let m = seg.iter().sum::<f64>() / win as f64;
         let sd = (seg.iter().map(|v| (v - m).powi(2)).sum::<f64>() / win as f64).sqrt();
         let (t0, t1) = (w0 as f64 / rate, (w0 + win) as f64 / rate);
-        let mine = |l: &&humsim::scenario::Label| &l.channel == name;
+        let mine = |l: &&humsim::labels::Label| &l.channel == name;
         if labels
             .iter()
             .filter(mine)

@@ -2,8 +2,8 @@
 #![allow(clippy::unwrap_used)]
 
 use humsense::{Event, EventKind, Fault};
-use humsim::scenario::{Label, LabelKind};
-use humsim::score::{parse_labels, score_events, LatencyStats, ScoreOptions};
+use humsim::labels::{Label, LabelFile, LabelKind, Span};
+use humsim::score::{score_events, LatencyStats, ScoreOptions};
 
 const RATE: f64 = 2000.0;
 
@@ -218,13 +218,13 @@ fn percentiles_by_nearest_rank() {
 
 #[test]
 fn label_files_parse_and_errors_name_line_and_column() {
-    let ok = parse_labels(
+    let file = LabelFile::parse(
         "channel,kind,start_s,end_s\npad,touch,1.0,1.5\n\nprobe,field,2,3\n",
         "l.csv",
     )
     .unwrap();
     assert_eq!(
-        ok,
+        file.labels,
         vec![
             touch("pad", 1.0, 1.5),
             Label {
@@ -260,7 +260,39 @@ fn label_files_parse_and_errors_name_line_and_column() {
         ),
     ];
     for (text, want) in cases {
-        let e = parse_labels(text, "l.csv").unwrap_err();
+        let e = LabelFile::parse(text, "l.csv").unwrap_err();
         assert!(e.starts_with(want), "{text:?}: got {e}");
     }
+    // Checks against the input name the label's line (line 4: after a
+    // blank line), for an unknown channel and for a label past the end.
+    let names = ["pad".to_string(), "probe".to_string()];
+    assert!(file
+        .check(&names, &Span::of_input(0.0, 4.0, 2000.0))
+        .is_ok());
+    let e = file
+        .check(&names[..1], &Span::of_input(0.0, 4.0, 2000.0))
+        .unwrap_err();
+    assert!(
+        e.starts_with("l.csv:4: label `probe,field,2,3` is for channel `probe`"),
+        "{e}"
+    );
+    let e = file
+        .check(&names, &Span::of_input(0.0, 2.5, 2000.0))
+        .unwrap_err();
+    assert!(
+        e.starts_with(
+            "l.csv:4: label `probe,field,2,3` ends after the input, which lasts 2.5000 s"
+        ),
+        "{e}"
+    );
+    // Labels of the other kind are named in a warning, not dropped silently.
+    let (touches, warning) = file.of_kind(LabelKind::Touch);
+    assert_eq!(touches, vec![touch("pad", 1.0, 1.5)]);
+    assert_eq!(
+        warning.as_deref(),
+        Some(
+            "l.csv: 1 `field` label(s) not scored: the touch profile scores `touch` labels \
+             (pass --profile field to score them)"
+        )
+    );
 }

@@ -150,7 +150,10 @@ fn tune_refuses_labels_that_do_not_fit() {
     let (code, _, err) = run(&["tune", p(&csv), "--labels", p(&labels)]);
     assert_eq!(code, 1);
     assert!(
-        err.contains(&format!("{}: label for channel `knob`", p(&labels))),
+        err.contains(&format!(
+            "{}:2: label `knob,touch,1,2` is for channel `knob`",
+            p(&labels)
+        )),
         "{err}"
     );
     assert!(
