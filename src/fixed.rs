@@ -1,7 +1,9 @@
 //! Fixed-point formats and integer helpers shared by every stage.
 //!
 //! Formats used across the crate (the name says the format):
-//! - **Q15** sine values: `i16`, 32767 = +1.0.
+//! - **Q14** sine values (`nco`'s table): `i16`, 16 383 = +1.0 less one
+//!   LSB (Q14 rather than Q15 so that a pair sum times a table value fits
+//!   `i32`; see [`nco`](crate::nco)).
 //! - **Q8 amplitudes** (`…_q8`): `u32` or `i32`, 256 = one ADC code of
 //!   amplitude (peak, not RMS).
 //! - **Q12 state** (`…_q12`): `u32`, 4096 = one ADC code; used where an
