@@ -205,6 +205,7 @@ pub struct DemodState<const H: usize> {
 
 /// [`DemodState`] in registers for a run of pairs (block path).
 #[derive(Clone, Copy, Debug)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct DemodLane<const H: usize> {
     i: i32,
     q: i32,

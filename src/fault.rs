@@ -64,6 +64,7 @@ impl FaultTuning {
 
 /// What the fault stage sees of one channel's cycle.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FaultInput {
     /// Amplitude, Q8 codes.
     pub amp_q8: u32,
