@@ -302,8 +302,14 @@ mod tests {
 
     #[test]
     fn hold_thresholds_are_exact_on_both_paths() {
-        // Reference: the Q8 comparisons in u64 (common practice); values
-        // below and above 2^24 take the short and the wide path.
+        // Self-consistency, not an external reference: both paths against
+        // the same Q8 comparisons written in u64, with the crate's own
+        // constants; values below and above 2^24 take the short and the
+        // wide path. That the constants are the module docs' 0.7 and 0.85
+        // is checked next: round(0.7 · 256) = 179, round(0.85 · 256) = 218
+        // (to within half a Q8 step, 0.002).
+        assert_eq!(HOLD_BELOW_Q8, (0.7f64 * 256.0).round() as u32);
+        assert_eq!(HOLD_END_Q8, (0.85f64 * 256.0).round() as u32);
         for b in [
             0u32,
             1,
@@ -340,10 +346,28 @@ mod tests {
 
     #[test]
     fn saturates_instead_of_overflowing() {
+        // Reference: the module docs' start-up equations in i64, where
+        // nothing can overflow: an input of u32::MAX (Q8) saturates to
+        // u32::MAX in Q12, the first cycle seeds b = a, then
+        // b += (a − b)/4 (division truncating toward zero, as the shifts of
+        // the magnitude do) and, from the second cycle,
+        // σ += (min(d, 4σ + 4096) − σ)/8. Exact: the same integer steps.
         let mut b = BaselineState::new();
-        for a in [u32::MAX, 0, u32::MAX, 1] {
+        let (mut base, mut noise) = (0i64, 0i64);
+        for (k, a) in [u32::MAX, 0, u32::MAX, 1].into_iter().enumerate() {
             b.update(a, a, &T);
+            let a12 = (i64::from(a) * 16).min(i64::from(u32::MAX));
+            if k == 0 {
+                base = a12;
+            } else {
+                base += (a12 - base) / 4;
+                let dev = a12.min(4 * noise + 4096);
+                noise += (dev - noise) / 8;
+            }
+            assert_eq!(i64::from(b.baseline_q8()), base >> 4, "cycle {k}");
+            assert_eq!(i64::from(b.noise_q8()), noise >> 4, "cycle {k}");
         }
-        assert!(b.baseline_q8() > 0);
+        // The last step from 0xCFFF_FFFF (Q12) towards 16: 0x9C00_0004.
+        assert_eq!(b.baseline_q8(), 0x9C00_0004 >> 4);
     }
 }

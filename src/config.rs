@@ -89,16 +89,23 @@ pub struct Config {
     /// none): a complex exponential average of the per-cycle I/Q, gaining
     /// 10·log10(2^(shift+1) − 1) dB in white noise.
     pub avg_shift: u8,
-    /// Mains cycles of fast baseline learning after start-up, during which
-    /// no event is reported (1 to 65 535).
+    /// Mains cycles of fast baseline learning after start-up and after an
+    /// input fault ends (1 to 65 535). During them the channel decides
+    /// nothing: no on, off or level event; fault events (and a queue's
+    /// overflow report) can still be reported.
     pub startup_cycles: u16,
     /// Baseline time constant while the amplitude is above it (1 to 16).
     pub baseline_rise_shift: u8,
     /// Baseline time constant while the amplitude is below it (1 to 16, not
     /// above `baseline_rise_shift`): the baseline falls faster than it rises.
     pub baseline_fall_shift: u8,
-    /// Noise estimate time constant (1 to 16). The noise estimate is the
-    /// exponential mean absolute deviation of the amplitude from the baseline.
+    /// Noise estimate time constant (1 to 16): about 2^shift cycles. The
+    /// noise estimate is an exponential average of the change of amplitude
+    /// from one cycle to the next, scaled so that for white noise its mean
+    /// is the amplitude's mean absolute deviation, and clipped at four times
+    /// the estimate plus one code (see [`baseline`](crate::baseline)); it is
+    /// not the deviation from the baseline, so a slow ramp or drift of the
+    /// amplitude does not raise it.
     pub noise_shift: u8,
     /// On threshold in noise units above the baseline (0.5 to 1000).
     pub on_noise: f32,

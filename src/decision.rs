@@ -12,8 +12,10 @@
 //! but not before `min_active_cycles`; and unconditionally after
 //! `max_active_cycles` (stuck: the baseline re-learns from `a`).
 //! In the field profile, while active, the level rises by one when
-//! `a/b ≥ r_on·s^L` and falls by one when `a/b < r_on·s^(L−2)·h`
-//! (`s` the level step, `h` the hysteresis factor, `L` the present level).
+//! `a/b ≥ r_on·s^L` and falls by one when `a/b < r_on·s^(L−1)·h`
+//! (`s` the level step, `h` the hysteresis factor, `L` the present level,
+//! `L ≥ 2`): level `L` begins at `r_on·s^(L−1)`, and it is left downwards
+//! only once the ratio is a factor `h` below that start.
 
 use crate::config::{Config, Profile};
 use crate::event::EventKind;

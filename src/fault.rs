@@ -64,6 +64,7 @@ impl FaultTuning {
 
 /// What the fault stage sees of one channel's cycle.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FaultInput {
     /// Amplitude, Q8 codes.
     pub amp_q8: u32,
@@ -218,13 +219,16 @@ mod tests {
 
     #[test]
     fn swing_and_top_limits_are_exact() {
-        // Reference: the limits of the module docs as exact integer
-        // products (common practice for a clipped sine: a full-scale sine
-        // has amplitude span/2, 0.52 of it is span·128·0.52 ≈ span·67 in
-        // Q8): amp > 67·span counts, amp < 61·span resets; a mean at or
-        // above hi − ⌊span/32⌋ counts, one below hi − ⌊span/16⌋ (with a
-        // small swing) resets. Spans of a 12-bit and a 16-bit converter,
-        // offset binary and two's complement (rails around 32 768).
+        // Self-consistency, not an external reference: the limits restated
+        // from the code as exact integer products, amp > 67·span counts,
+        // amp < 61·span resets (the module docs' 0.52 and 0.48 of span/2
+        // codes, span·128 in Q8, rounded to whole multiples of span:
+        // 66.56 → 67, 61.44 → 61); a mean at or above hi − ⌊span/32⌋
+        // counts, one below hi − ⌊span/16⌋ (with a small swing) resets.
+        // The test pins the boundaries (off by one in either direction
+        // fails); it does not show the fractions are the right ones. Spans
+        // of a 12-bit and a 16-bit converter, offset binary and two's
+        // complement (rails around 32 768).
         let t = FaultTuning::new(&Config::touch());
         for rails in [(0u16, 4_095u16), (0, 65_535), (30_720, 34_815)] {
             let (lo, hi) = (u32::from(rails.0), u32::from(rails.1));

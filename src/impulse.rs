@@ -194,6 +194,7 @@ impl ImpulseState {
 /// in [`BlockHold`], apart from the watermark). The peak is
 /// `max(w, BlockHold::max_over)`, exactly the frame path's.
 #[derive(Clone, Copy, Debug, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct BlockGate {
     /// `lo · 2^s` (wrapping), with `s = 1 + LANE_SHIFT`: a pair value
     /// `x = xc << LANE_SHIFT` is `2^s` times the gate's mean `m − dc` (`xc`
@@ -215,6 +216,7 @@ pub struct BlockGate {
 /// where a count carried over from the last run continues; a count of 0
 /// needs no marker.)
 #[derive(Clone, Copy, Debug, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct BlockHold {
     limit: u32,
     /// Groups held in a row, up to `held_next`.

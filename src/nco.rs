@@ -100,6 +100,7 @@ pub const PACKED: bool = cfg!(humsense_dsp);
 /// the low half, the sine in the high half (each a two's-complement Q14
 /// value).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct RefQ14(u32);
 
 impl RefQ14 {

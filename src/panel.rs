@@ -117,8 +117,9 @@ mod tests {
 
     proptest::proptest! {
         /// The division-free pre-check never misses what `common_ratio`
-        /// finds, and says no whenever it finds nothing (reference: the
-        /// rule itself on the divided rises, common practice).
+        /// finds, and says no whenever it finds nothing. Self-consistency,
+        /// not an external reference: the pre-check against the crate's
+        /// own rule on the divided rises.
         #[test]
         fn ambient_precheck_agrees_with_the_rule(
             ratio in 257u32..3_000,

@@ -19,6 +19,27 @@ const PRESSES: [(f64, f64); 5] = [
     (12.0, 12.3),
 ];
 
+/// Longest on and off latencies (s) the debounce allows for a press with
+/// the support's 10 ms ramps, at `rate` samples a second on `mains` Hz.
+///
+/// A cycle lasts at most `T = 1/mains + 1/rate` (the oscillator ends it on
+/// the sample after its phase wraps). The first whole cycle that starts
+/// after the ramp up ends at most 2T after the ramp's end, and each of the
+/// `debounce_on` cycles it opens must be above the on threshold: on at
+/// most `10 ms + (debounce_on + 1)·T` after the press starts; likewise off
+/// at most `(debounce_off + 1)·T` after it ends (the ramp down ends at the
+/// press's end). Valid for a rise well past the on ratio (2.8x for the
+/// touch profile; the weakest here is 4x) and presses longer than
+/// `min_active_cycles`. At 50 Hz and 2 kHz: 71.5 ms and 82 ms, under the
+/// project's bar of a 100 ms touch-on p95.
+fn latency_bounds(rate: f64, mains: f64, cfg: &Config) -> (f64, f64) {
+    let t = 1.0 / mains + 1.0 / rate;
+    (
+        0.010 + f64::from(cfg.debounce_on + 1) * t,
+        f64::from(cfg.debounce_off + 1) * t,
+    )
+}
+
 fn touch_run(
     rate: f64,
     mains: f64,
@@ -27,17 +48,27 @@ fn touch_run(
 ) -> Result<(Vec<f64>, Vec<f64>), String> {
     let sig = Signal::mid_rail(rate, mains);
     let x = sig.render(14.0, 7, |t| press(t, 25.0, gain, &PRESSES), |_| mains);
+    let (mut on_max, off_max) = latency_bounds(rate, mains, &cfg);
+    if rate / mains < 8.0 {
+        // Below 8 samples a cycle a strong rise's sample-to-sample steps
+        // exceed the impulse gate's limit (learnt on the untouched hum) and
+        // are held, two pairs at a time, until the limit has grown: the
+        // gate, not the debounce, sets the on latency there (measured at
+        // 400 Hz on 60 Hz mains, 15x: 85 ms on the first press, 35 ms with
+        // the gate off). The bound is then the project's bar itself, a
+        // 100 ms touch-on.
+        on_max = 0.100;
+    }
     let ev = run(cfg, &x);
-    // Fast events: touch-on p95 ≤ 100 ms at 50 Hz is the project's bar
-    // (DESIGN.md §4); here every single press must be on within 120 ms and
-    // off within 150 ms, at either mains frequency.
+    // Every single press on and off within the debounce's bounds (see
+    // `latency_bounds`), at either mains frequency.
     match_presses(
         &ev,
         &PRESSES,
         EventKind::TouchOn,
         EventKind::TouchOff,
-        0.120,
-        0.150,
+        on_max,
+        off_max,
     )
 }
 
@@ -84,14 +115,15 @@ fn single_supply_half_wave_input_still_detects() {
     let mut sig = Signal::mid_rail(2000.0, 50.0);
     sig.bias = 0.0;
     let x = sig.render(14.0, 3, |t| press(t, 25.0, 20.0, &PRESSES), |_| 50.0);
+    let (on_max, off_max) = latency_bounds(2000.0, 50.0, &Config::touch());
     let ev = run(Config::touch(), &x);
     let r = match_presses(
         &ev,
         &PRESSES,
         EventKind::TouchOn,
         EventKind::TouchOff,
-        0.120,
-        0.150,
+        on_max,
+        off_max,
     );
     assert!(r.is_ok(), "{r:?}");
 }

@@ -257,3 +257,32 @@ fn each_cycle_carries_the_rails_of_its_input_type() {
         assert_eq!(r, want, "sample {k}");
     }
 }
+
+#[test]
+fn fault_events_are_reported_during_start_up() {
+    // Start-up (`startup_cycles`) suppresses decisions, not fault events:
+    // an input stuck from power-on reports `Stuck` after
+    // `fault_stuck_cycles` (25 cycles, 0.5 s) although start-up here lasts
+    // 200 cycles (4 s), and no touch event comes before start-up ends.
+    let mut cfg = Config::touch();
+    cfg.startup_cycles = 200;
+    let mut x = hum(8.0, 9);
+    for s in &mut x[..2000] {
+        *s = 1234; // the first second at one code
+    }
+    let ev = run(cfg, &x);
+    assert_eq!(
+        kinds(&ev),
+        vec![
+            EventKind::Fault(Fault::Stuck),
+            EventKind::FaultClear(Fault::Stuck)
+        ],
+        "{ev:?}"
+    );
+    // Automatic mains mode starts its oscillator at 55 Hz, so cycles are
+    // 1/55 s until it pulls in; the flat count starts with the first cycle
+    // after the DC estimate settles: 25 + 1 cycles, 26/55 = 0.4727 s,
+    // within a cycle (±0.018 s), long before start-up's 4 s end.
+    let on = when(&ev, EventKind::Fault(Fault::Stuck)).unwrap();
+    assert!((on - 26.0 / 55.0).abs() < 1.0 / 55.0, "{on}");
+}
