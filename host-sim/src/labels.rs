@@ -260,6 +260,17 @@ impl LabelFile {
     }
 }
 
+/// Renames each label's channel to `ch<i>`, `i` its index in `names` (the
+/// names a WAV or raw input has in replay). A channel not in `names` is
+/// left as it is.
+pub fn rename_to_index(labels: &mut [Label], names: &[String]) {
+    for l in labels {
+        if let Some(i) = names.iter().position(|n| *n == l.channel) {
+            l.channel = format!("ch{i}");
+        }
+    }
+}
+
 /// `labels` with `offset_s` added to every time (from the log's own clock
 /// to sample time: `offset_s = −start`).
 pub fn shifted(labels: &[Label], offset_s: f64) -> Vec<Label> {

@@ -282,11 +282,25 @@ fn simulate(
     bar.finish_and_clear();
     let seconds = render.frames_total() as f64 / render.rate_hz();
     let labels_name = labels_file.shown().to_string();
-    humsim::labels::write(&s.labels(seconds), labels_file.writer()?)
+    let mut labels = s.labels(seconds);
+    let mut renamed = String::new();
+    if wav {
+        // A WAV's channels are ch0, ch1, … to replay: its labels use those
+        // names, so that the pair scores and tunes as it is.
+        let names = s.channel_names();
+        humsim::labels::rename_to_index(&mut labels, &names);
+        let list: Vec<String> = names
+            .iter()
+            .enumerate()
+            .map(|(i, n)| format!("ch{i} = {n}"))
+            .collect();
+        renamed = format!(" (labels by WAV channel: {})", list.join(", "));
+    }
+    humsim::labels::write(&labels, labels_file.writer()?)
         .map_err(|e| format!("{labels_name}: cannot write: {e}"))?;
     humsim::outfile::commit_all([out, labels_file])?;
     console::err(&format!(
-        "humsim: wrote {} frames x {} channels to {} and labels to {}\n",
+        "humsim: wrote {} frames x {} channels to {} and labels to {}{renamed}\n",
         render.frames_done(),
         render.channels(),
         output.display(),

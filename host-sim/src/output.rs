@@ -1,4 +1,5 @@
-//! Writing renders to files: CSV or WAV samples and the labels CSV.
+//! Writing renders to files: CSV or WAV samples (the labels beside them
+//! are written by [`crate::labels::write`]).
 //!
 //! - Samples CSV: header row of channel names (optionally `time_s` first),
 //!   one row per frame of integer ADC codes; `time_s` = frame index / rate
@@ -6,8 +7,14 @@
 //! - WAV: one channel per scenario channel, 16-bit integer PCM holding the
 //!   ADC codes unchanged, sample rate rounded to whole hertz (WAV headers
 //!   hold an integer rate). Codes above 32767 (a 16-bit ADC) cannot be held
-//!   unchanged in signed 16-bit PCM, so such scenarios are refused for WAV.
-//! - Labels: `channel,kind,start_s,end_s`, kind `touch` or `field`.
+//!   unchanged in signed 16-bit PCM, so such scenarios are refused for WAV,
+//!   and so is a render whose samples exceed the format's 32-bit size
+//!   fields ([`check_wav`]): split it with `--seconds`, or write CSV.
+//! - Labels, `FILE.labels.csv` ([`labels_path`]): `channel,kind,start_s,end_s`,
+//!   kind `touch` or `field`. For CSV the channel is the scenario's channel
+//!   name, as in the CSV header; for WAV it is `ch0`, `ch1`, … (the names
+//!   replay gives a WAV's channels), so that every output and its labels
+//!   replay, score and tune as they are.
 //!
 //! All writers stream block by block; memory does not grow with the run.
 

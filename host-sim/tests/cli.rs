@@ -182,3 +182,67 @@ fn scenarios_lists_every_builtin_and_help_works() {
         );
     }
 }
+
+/// Every output format of `simulate` replays, scores and tunes against its
+/// own labels as written: CSV, CSV with a time column, and WAV (whose labels
+/// name the channels ch0, ch1, … as replay does).
+#[test]
+fn every_simulate_output_scores_against_its_own_labels() {
+    for (name, extra) in [
+        ("round.csv", None),
+        ("round-timed.csv", Some("--time-column")),
+        ("round.wav", None),
+    ] {
+        let out = tmp(name);
+        let mut args = vec!["simulate", "kitchen-panel", "--seconds", "12", "-o"];
+        let o = out.to_str().unwrap();
+        args.push(o);
+        args.extend(extra);
+        let st = humsim().args(&args).output().unwrap();
+        let err = String::from_utf8_lossy(&st.stderr).into_owned();
+        assert!(st.status.success(), "{name}: {err}");
+        let labels = format!("{o}.labels.csv");
+        let text = std::fs::read_to_string(&labels).unwrap();
+        let rate: &[&str] = if name == "round.csv" {
+            &["--rate", "2000"]
+        } else {
+            &[]
+        };
+        let st = humsim()
+            .args(["replay", o, "--labels", &labels])
+            .args(rate)
+            .output()
+            .unwrap();
+        let err = String::from_utf8_lossy(&st.stderr).into_owned();
+        assert!(st.status.success(), "{name}: {err}\n{text}");
+        // Every label scored: the score table's `all` row has every label
+        // detected, none missed and no false event (kitchen-panel's own bar, DESIGN.md §4).
+        let labels_n = text
+            .lines()
+            .skip(1)
+            .filter(|l| l.contains(",touch,"))
+            .count();
+        assert!(labels_n >= 4, "{name}: {text}");
+        let all: Vec<&str> = err
+            .lines()
+            .find(|l| l.starts_with("all "))
+            .map(|l| l.split_whitespace().take(5).collect())
+            .unwrap_or_default();
+        let n = labels_n.to_string();
+        assert_eq!(
+            all,
+            ["all", n.as_str(), n.as_str(), "0", "0"],
+            "{name}: {err}"
+        );
+        let st = humsim()
+            .args(["tune", o, "--labels", &labels, "--points", "3"])
+            .args(rate)
+            .output()
+            .unwrap();
+        assert!(
+            st.status.success(),
+            "{name}: {}",
+            String::from_utf8_lossy(&st.stderr)
+        );
+    }
+}
