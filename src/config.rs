@@ -126,7 +126,8 @@ pub struct Config {
     /// Consecutive cycles below the off threshold before an off event
     /// (1 to 255).
     pub debounce_off: u8,
-    /// Shortest active time in cycles: no off event before it (0 to 65 535).
+    /// Shortest active time in cycles: no off event before it (0 to 65 535,
+    /// and at most `max_active_cycles` unless that is 0).
     pub min_active_cycles: u16,
     /// Longest active time in cycles before the channel is declared stuck:
     /// an off event, and the baseline re-learns from the present amplitude
@@ -351,6 +352,15 @@ impl Config {
                 value: ConfigValue::Int(self.baseline_fall_shift.into()),
                 min: ConfigValue::Int(1),
                 max: ConfigValue::Int(self.baseline_rise_shift.into()),
+            });
+        }
+        if self.max_active_cycles != 0 && self.min_active_cycles > self.max_active_cycles {
+            // The shortest active time cannot exceed the longest.
+            return Err(ConfigError::OutOfRange {
+                field: "min_active_cycles",
+                value: ConfigValue::Int(self.min_active_cycles.into()),
+                min: ConfigValue::Int(0),
+                max: ConfigValue::Int(self.max_active_cycles.into()),
             });
         }
         // Off below on, in `RULES` indices (both finite by now; compared

@@ -195,6 +195,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         frame: &[S; N],
         on_cycle: impl FnOnce(&Cycle<N, H>),
     ) {
+        self.note_type::<S>();
         let phase = self.tracker.phase();
         let step = self.tracker.step();
         let (next, wraps) = phase.overflowing_add(step);
@@ -237,6 +238,32 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
     }
 
     /// The first sample of a pair: kept until the second arrives.
+    /// Before the samples of a call: a signed (`i16`) input moves the rails
+    /// at once and, if nothing has been taken yet, starts the DC estimate at
+    /// the signed mid-scale (code 0, offset 32 768) instead of the unsigned
+    /// one, so that the first cycle is demodulated against the right level
+    /// and a signed input gives the same cycles as the same codes offset
+    /// to unsigned. For `u16` the test is a constant and compiles away; the
+    /// way back (unsigned after signed) is taken at the cycle's end.
+    #[inline(always)]
+    fn note_type<S: AdcSample>(&mut self) {
+        if S::SIGNED && !self.signed {
+            self.enter_signed();
+        }
+    }
+
+    #[cold]
+    #[inline(never)]
+    fn enter_signed(&mut self) {
+        let fresh = self.last_end == u64::MAX && self.tracker.samples_in_cycle() == 0;
+        self.signed = true;
+        let span = u32::from(self.rails.1.wrapping_sub(self.rails.0)) + 1;
+        self.rails = rails(span, true);
+        if fresh {
+            self.demod = [DemodState::new(32_768); N];
+        }
+    }
+
     fn hold_frame<S: AdcSample>(&mut self, frame: &[S; N]) {
         for (x, dem) in frame.iter().zip(self.demod.iter_mut()) {
             dem.hold_first(x.offset_code());
@@ -256,6 +283,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         samples: &[S],
         mut on_cycle: impl FnMut(&Cycle<N, H>),
     ) -> usize {
+        self.note_type::<S>();
         let whole = samples.len() - samples.len() % N;
         let (mut remaining, rest) = samples.split_at(whole);
         while !remaining.is_empty() {

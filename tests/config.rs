@@ -69,6 +69,11 @@ fn each_invalid_field_is_named() {
         ("levels", |c| c.levels = 17),
         ("level_step_db", |c| c.level_step_db = 0.1),
         ("level_hysteresis_db", |c| c.level_hysteresis_db = 3.0), // not below the step
+        ("min_active_cycles", |c| {
+            // The shortest active time above the longest.
+            c.min_active_cycles = 100;
+            c.max_active_cycles = 10;
+        }),
     ];
     for (field, edit) in cases {
         let mut cfg = Config::touch();
@@ -79,6 +84,22 @@ fn each_invalid_field_is_named() {
         let msg = e.to_string();
         assert!(msg.contains(&format!("`{field}`")), "{msg}");
     }
+}
+
+#[test]
+fn min_active_may_exceed_max_active_only_when_max_is_off() {
+    let both = |min, max| Config {
+        min_active_cycles: min,
+        max_active_cycles: max,
+        ..Config::touch()
+    };
+    assert!(Detector::<1, 0>::new(both(100, 100)).is_ok());
+    assert!(Detector::<1, 0>::new(both(100, 0)).is_ok()); // 0 = never
+    let e = refused(both(101, 100));
+    assert_eq!(
+        e.to_string(),
+        "config field `min_active_cycles` is 101, expected a value from 0 to 100"
+    );
 }
 
 #[test]
@@ -123,6 +144,10 @@ fn any_config() -> impl Strategy<Value = Config> {
                 c.debounce_on = don;
                 c.debounce_off = doff;
                 c.max_active_cycles = maxa;
+                if maxa != 0 {
+                    // Validation asks min ≤ max.
+                    c.min_active_cycles = c.min_active_cycles.min(maxa);
+                }
                 c.startup_cycles = 1;
                 c
             },
