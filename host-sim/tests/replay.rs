@@ -364,6 +364,85 @@ fn wav_bytes(channels: u16, bits: u16, samples: &[i32]) -> Vec<u8> {
     std::fs::read(&path).unwrap()
 }
 
+/// A WAVE_FORMAT_EXTENSIBLE file of one channel at 2 kHz: `valid` bits in
+/// 16-bit containers, the container values as given (the layout from
+/// Microsoft's WAVEFORMATEXTENSIBLE documentation, from memory: a 40-byte
+/// `fmt ` chunk, format tag 0xFFFE, then cbSize 22, valid bits, channel
+/// mask and the PCM sub-format GUID).
+fn extensible_wav(valid: u16, containers: &[i16]) -> Vec<u8> {
+    let mut fmt = Vec::new();
+    fmt.extend_from_slice(&0xFFFEu16.to_le_bytes());
+    fmt.extend_from_slice(&1u16.to_le_bytes());
+    fmt.extend_from_slice(&2000u32.to_le_bytes());
+    fmt.extend_from_slice(&4000u32.to_le_bytes());
+    fmt.extend_from_slice(&2u16.to_le_bytes());
+    fmt.extend_from_slice(&16u16.to_le_bytes());
+    fmt.extend_from_slice(&22u16.to_le_bytes());
+    fmt.extend_from_slice(&valid.to_le_bytes());
+    fmt.extend_from_slice(&4u32.to_le_bytes());
+    fmt.extend_from_slice(&[
+        0x01, 0x00, 0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xaa, 0x00, 0x38, 0x9b,
+        0x71,
+    ]);
+    let data: Vec<u8> = containers.iter().flat_map(|v| v.to_le_bytes()).collect();
+    let mut out = b"RIFF".to_vec();
+    out.extend_from_slice(&((4 + 8 + fmt.len() + 8 + data.len()) as u32).to_le_bytes());
+    out.extend_from_slice(b"WAVEfmt ");
+    out.extend_from_slice(&(fmt.len() as u32).to_le_bytes());
+    out.extend_from_slice(&fmt);
+    out.extend_from_slice(b"data");
+    out.extend_from_slice(&(data.len() as u32).to_le_bytes());
+    out.extend_from_slice(&data);
+    out
+}
+
+#[test]
+fn an_extensible_wav_with_fewer_valid_bits_is_read() {
+    // 4 s of 50 Hz hum with touches, as signed 12-bit codes.
+    let codes: Vec<i32> = (0..8000u32)
+        .map(|n| {
+            let t = f64::from(n) / 2000.0;
+            let a = if (1.0..1.5).contains(&t) || (2.5..3.0).contains(&t) {
+                400.0
+            } else {
+                20.0
+            };
+            (a * (std::f64::consts::TAU * 50.0 * t).sin()).round() as i32
+        })
+        .collect();
+    // Left-justified in 16 bits, the low 4 bits zero.
+    let containers: Vec<i16> = codes.iter().map(|&c| (c << 4) as i16).collect();
+    let wav = tmp("ext12.wav");
+    std::fs::write(&wav, extensible_wav(12, &containers)).unwrap();
+    // The same codes as unsigned 12-bit CSV (offset binary: + 2048).
+    let csv = tmp("ext12.csv");
+    let mut text = String::from("ch0\n");
+    for c in &codes {
+        text.push_str(&format!("{}\n", c + 2048));
+    }
+    std::fs::write(&csv, text).unwrap();
+    let (code, from_wav, err) = run(&["replay", p(&wav)]);
+    assert_eq!(code, 0, "{err}");
+    let (code, from_csv, err) = run(&["replay", p(&csv), "--rate", "2000"]);
+    assert_eq!(code, 0, "{err}");
+    assert_eq!(from_wav.matches("touch-on").count(), 2, "{from_wav}");
+    // Offset binary and two's complement are the same codes to the
+    // detector: the same events.
+    assert_eq!(from_wav, from_csv);
+    // Padding bits that are not zero: refused, naming the frame.
+    let mut bad_pad = containers.clone();
+    bad_pad[3] |= 1;
+    let wav = tmp("ext12-pad.wav");
+    std::fs::write(&wav, extensible_wav(12, &bad_pad)).unwrap();
+    let (code, _, err) = run(&["replay", p(&wav)]);
+    assert_eq!(code, 1);
+    assert!(
+        err.contains("frame 3, channel ch0: container value")
+            && err.contains("nonzero padding bits below its 12 valid bits"),
+        "{err}"
+    );
+}
+
 #[test]
 fn bad_wav_and_raw_inputs_are_reported() {
     let good = wav_bytes(2, 16, &[1, 2, 3, 4, 5, 6, 7, 8]);

@@ -114,8 +114,12 @@ pub fn open_input(spec: &InputSpec) -> Result<Box<dyn FrameSource>, String> {
         check_bits(b)?;
     }
     if let Some(r) = spec.rate_hz {
-        if !(r.is_finite() && r > 0.0) {
-            return Err(format!("--rate {r}: expected a positive number of hertz"));
+        if !(1.0..=f64::from(u32::MAX)).contains(&r) {
+            return Err(format!(
+                "--rate {}: expected a sample rate from 1 Hz to {} Hz",
+                crate::text::num(r),
+                u32::MAX
+            ));
         }
     }
     if let Some(fmt) = spec.raw {
