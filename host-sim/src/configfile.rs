@@ -115,15 +115,19 @@ impl ConfigFile {
         Self::parse(&text, &name)
     }
 
-    /// `NAME:LINE:COL` of `key` (or just `NAME` when not found).
+    /// `NAME:LINE:COL` of `key` (or just `NAME` when not found), written
+    /// bare (`key = …`) or quoted (`"key" = …`, `'key' = …`), as TOML allows.
     pub fn locate(&self, key: &str) -> String {
+        let forms = [key.to_string(), format!("\"{key}\""), format!("'{key}'")];
         for (i, line) in self.text.split_inclusive('\n').enumerate() {
             let t = line.trim_start();
-            if let Some(rest) = t.strip_prefix(key) {
-                if rest.trim_start().starts_with('=') {
-                    let col = line.len() - t.len() + 1;
-                    return format!("{}:{}:{col}", self.name, i + 1);
-                }
+            let found = forms.iter().any(|f| {
+                t.strip_prefix(f.as_str())
+                    .is_some_and(|rest| rest.trim_start().starts_with('='))
+            });
+            if found {
+                let col = line.len() - t.len() + 1;
+                return format!("{}:{}:{col}", self.name, i + 1);
             }
         }
         self.name.clone()

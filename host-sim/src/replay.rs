@@ -270,9 +270,10 @@ pub fn config_for(
     let rate = src.rate_hz().round();
     if !(1.0..=f64::from(u32::MAX)).contains(&rate) {
         return Err(format!(
-            "{}: sample rate {} Hz is out of range",
+            "{}: sample rate {} Hz is out of range (1 Hz to {} Hz)",
             src.name(),
-            src.rate_hz()
+            crate::text::num(src.rate_hz()),
+            u32::MAX
         ));
     }
     let req = crate::configfile::ConfigRequest {

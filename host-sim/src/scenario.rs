@@ -900,6 +900,32 @@ fn non_negative(ctx: &Ctx, path: KeyPath, v: f64, what: &str) -> Result<f64, Sce
     }
 }
 
+/// Longest run a scenario may ask for, seconds (`duration_s`, `--seconds`).
+pub const MAX_RUN_S: f64 = 1e7;
+
+/// Why `name` cannot be a channel (a column of a CSV log that replay reads
+/// back), or `None` when it can: not empty and not only spaces, no comma,
+/// quote or control character, not `time_s` (replay's time column), not a
+/// number (replay takes a header cell that is a number for a data row), and
+/// not longer than 64 bytes.
+pub fn bad_column_name(name: &str) -> Option<&'static str> {
+    if name.trim().is_empty() {
+        Some("expected a non-empty name")
+    } else if name.contains([',', '"']) || name.chars().any(char::is_control) {
+        Some("expected a name without commas, quotes or control characters")
+    } else if name.trim() != name {
+        Some("expected a name without spaces at either end (CSV readers trim them)")
+    } else if name == "time_s" {
+        Some("`time_s` is the name of replay's time column; choose another")
+    } else if name.parse::<f64>().is_ok() {
+        Some("a name that reads as a number would be taken for a data row; choose another")
+    } else if name.len() > 64 {
+        Some("expected a name of at most 64 bytes")
+    } else {
+        None
+    }
+}
+
 impl Scenario {
     /// Parses and validates scenario TOML. `file` names the source in errors.
     /// Never panics.
@@ -1045,6 +1071,15 @@ impl Scenario {
             f.duration_s,
             "a duration in seconds",
         )?;
+        if f.duration_s > MAX_RUN_S {
+            return Err(ctx.err(
+                KeyPath::top("duration_s"),
+                format!(
+                    "expected at most {MAX_RUN_S:e} s (about 116 days), got {}",
+                    crate::text::num(f.duration_s)
+                ),
+            ));
+        }
         if let Some(p) = f.repeat_s {
             if !(p.is_finite() && p >= 1.0) {
                 return Err(ctx.err(
@@ -1231,10 +1266,10 @@ impl Scenario {
         }
         let mut channels = Vec::new();
         for (i, c) in f.channels.iter().enumerate() {
-            if c.name.is_empty() || c.name.contains([',', '"', '\n']) {
+            if let Some(why) = bad_column_name(&c.name) {
                 return Err(ctx.err(
                     KeyPath::item("channel", i, "name"),
-                    "expected a non-empty name without commas or quotes",
+                    format!("`{}`: {why}", crate::text::show(&c.name)),
                 ));
             }
             if channels.iter().any(|x: &Channel| x.name == c.name) {
@@ -1439,6 +1474,21 @@ impl Scenario {
         let mut actions = Vec::new();
         for (i, e) in f.events.iter().enumerate() {
             actions.push(Self::event(&ctx, i, e, &f, &channels, &mains)?);
+        }
+        if f.repeat_s.is_none() {
+            for (i, e) in f.events.iter().enumerate() {
+                if e.at_s >= f.duration_s {
+                    return Err(ctx.err(
+                        KeyPath::item("event", i, "at_s"),
+                        format!(
+                            "the event starts at {} s, after the scenario ends (duration_s = \
+                             {} s): it would never happen",
+                            crate::text::num(e.at_s),
+                            crate::text::num(f.duration_s)
+                        ),
+                    ));
+                }
+            }
         }
         if let Some(period) = f.repeat_s {
             for (i, e) in f.events.iter().enumerate() {
@@ -1976,13 +2026,17 @@ impl Scenario {
     /// Starts a streaming render (see [`crate::render::Render`]).
     pub fn render(&self, opts: &RenderOptions) -> Result<crate::render::Render, ScenarioError> {
         let seconds = opts.seconds.unwrap_or(self.file.duration_s);
-        if !(seconds.is_finite() && seconds > 0.0 && seconds <= 1e7) {
+        if !(seconds.is_finite() && seconds > 0.0 && seconds <= MAX_RUN_S) {
+            // duration_s was checked at load time: this is --seconds.
             return Err(ScenarioError {
                 file: self.origin.clone(),
                 line: None,
                 column: None,
-                key: Some("seconds".into()),
-                message: format!("expected a run length 0 < seconds <= 1e7, got {seconds}"),
+                key: None,
+                message: format!(
+                    "--seconds {}: expected a run length above 0 and at most {MAX_RUN_S:e} s",
+                    crate::text::num(seconds)
+                ),
             });
         }
         let reps = self.file.repeat_s.map_or(1.0, |p| (seconds / p).ceil());

@@ -55,6 +55,18 @@ fn shown(text: &str, total_bytes: usize) -> String {
     out
 }
 
+/// A number as a message shows it: plain where that is short, in
+/// scientific notation where plain would print dozens of digits
+/// (`1e-300`, `1e300`).
+pub fn num(v: f64) -> String {
+    let a = v.abs();
+    if v != 0.0 && v.is_finite() && !(1e-4..1e9).contains(&a) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
+}
+
 /// Whether a line (its end already removed) holds a carriage return: the
 /// sign of a file with CR-only line ends, read as one line.
 pub fn has_inner_cr(line: &[u8]) -> bool {

@@ -289,7 +289,7 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
     if !(cmd.budget_per_hour.is_finite() && cmd.budget_per_hour >= 0.0) {
         return Err(format!(
             "--budget {}: expected false events per hour >= 0",
-            cmd.budget_per_hour
+            crate::text::num(cmd.budget_per_hour)
         ));
     }
     let mut src = open_input(&cmd.input)?;
