@@ -41,6 +41,11 @@ pub const BUILTINS: &[(&str, &str)] = &[
         "mains-events",
         include_str!("../scenarios/mains-events.toml"),
     ),
+    ("esd-touches", include_str!("../scenarios/esd-touches.toml")),
+    (
+        "supply-steps",
+        include_str!("../scenarios/supply-steps.toml"),
+    ),
 ];
 
 /// The TOML source of a built-in, if `name` is one.

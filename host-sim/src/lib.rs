@@ -43,6 +43,7 @@ pub mod mains;
 pub mod outfile;
 pub mod output;
 pub mod plot;
+pub mod reliability;
 pub mod render;
 pub mod replay;
 pub mod rng;
