@@ -28,10 +28,9 @@ pub struct DemoReport {
     pub events: usize,
 }
 
-/// Runs the demo, writes the plot to `write_to`, returns the report;
-/// `plot` is the plot's name for the report and messages (the same path,
-/// or the file `write_to` will be renamed to, see [`crate::outfile`]).
-pub fn run(write_to: &Path, plot: &Path) -> Result<DemoReport, String> {
+/// Runs the demo, writes the plot (PNG) to `out`, returns the report;
+/// `plot` is the plot's file name for the report and messages.
+pub fn run(out: &mut dyn std::io::Write, plot: &Path) -> Result<DemoReport, String> {
     let s = Scenario::builtin(SCENARIO).map_err(|e| e.to_string())?;
     let seconds = s.duration_s();
     let render = s
@@ -99,7 +98,7 @@ pub fn run(write_to: &Path, plot: &Path) -> Result<DemoReport, String> {
     let _ = writeln!(t, "\nper channel (against the scenario's labels):");
     t.push_str(&score.table());
     let title = format!("humsim demo: `{SCENARIO}` through the detector (touch defaults)");
-    rec.write_png(write_to, &plot.display().to_string(), &title, &labels)?;
+    rec.write_png(out, &plot.display().to_string(), &title, &labels)?;
     let _ = writeln!(t, "\nplot: {}", plot.display());
     Ok(DemoReport {
         text: t,

@@ -223,7 +223,7 @@ fn main() -> ExitCode {
 fn demo(plot: Option<PathBuf>) -> Result<(), CliError> {
     let path = plot.unwrap_or_else(humsim::demo::default_plot_path);
     let mut file = OutputFile::create("--plot", &path, Kind::Png)?;
-    let report = humsim::demo::run(file.write_path(), &path)?;
+    let report = humsim::demo::run(file.writer()?, &path)?;
     file.commit()?;
     console::out(&report.text)
 }

@@ -55,8 +55,8 @@ pub struct OutputFile {
 pub enum Kind {
     /// Any bytes (CSV, TOML, WAV).
     Data,
-    /// A PNG picture: the name must end in `.png`, since the encoder picks
-    /// the format from it.
+    /// A PNG picture: the name must end in `.png` (so that what is written
+    /// is what the name says).
     Png,
 }
 
@@ -237,18 +237,6 @@ impl OutputFile {
         self.writer
             .as_mut()
             .ok_or_else(|| format!("{shown}: already closed"))
-    }
-
-    /// The path a writer that takes a path (the PNG encoder) should write
-    /// to: the temporary file, or the target itself when written directly.
-    /// The writer this struct holds is closed first, so the two never
-    /// interleave.
-    pub fn write_path(&mut self) -> &Path {
-        self.writer = None;
-        match &self.how {
-            Target::Replace { tmp } => tmp,
-            Target::Direct => &self.target,
-        }
     }
 
     /// A message for a write error on this output.

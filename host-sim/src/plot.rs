@@ -18,7 +18,7 @@ use crate::labels::Label;
 use humsense::{ChannelSnapshot, Event, EventKind};
 use plotters::coord::Shift;
 use plotters::prelude::*;
-use std::path::Path;
+use std::io::Write;
 
 /// Most buckets a series keeps.
 pub const MAX_BUCKETS: usize = 2048;
@@ -166,7 +166,7 @@ impl PlotRecorder {
     /// panels.
     pub fn write_png(
         &self,
-        path: &Path,
+        out: &mut dyn Write,
         name: &str,
         title: &str,
         labels: &[Label],
@@ -175,8 +175,9 @@ impl PlotRecorder {
         let n = self.names.len().max(1);
         let (w, h) = (1400u32, 80 + 450 * n as u32);
         let err = |e: String| format!("{name}: cannot draw the plot: {e}");
+        let mut rgb = vec![0u8; w as usize * h as usize * 3];
         {
-            let root = BitMapBackend::new(path, (w, h)).into_drawing_area();
+            let root = BitMapBackend::with_buffer(&mut rgb, (w, h)).into_drawing_area();
             root.fill(&WHITE).map_err(|e| err(e.to_string()))?;
             let (head, body) = root.split_vertically(70);
             let mut t = title.to_string();
@@ -192,7 +193,7 @@ impl PlotRecorder {
             }
             root.present().map_err(|e| err(e.to_string()))?;
         }
-        Ok(())
+        encode_png(out, &rgb, (w, h), name)
     }
 
     fn seconds(&self, x: u64) -> f64 {
@@ -417,7 +418,7 @@ fn register_font() -> Result<(), String> {
 /// A scatter of tuning results: false events per hour against median on
 /// latency, the chosen point ringed.
 pub fn write_tradeoff_png(
-    path: &Path,
+    out: &mut dyn Write,
     name: &str,
     points: &[(f64, f64)],
     chosen: Option<(f64, f64)>,
@@ -426,7 +427,9 @@ pub fn write_tradeoff_png(
     register_font()?;
     let err = |e: String| format!("{name}: cannot draw the plot: {e}");
     let e = |x: DrawingAreaErrorKind<_>| x.to_string();
-    let root = BitMapBackend::new(path, (1000, 700)).into_drawing_area();
+    let (w, h) = (1000u32, 700u32);
+    let mut rgb = vec![0u8; w as usize * h as usize * 3];
+    let root = BitMapBackend::with_buffer(&mut rgb, (w, h)).into_drawing_area();
     root.fill(&WHITE).map_err(|x| err(x.to_string()))?;
     let xmax = points.iter().map(|p| p.0).fold(10.0f64, f64::max) * 1.1;
     let ymax = points
@@ -483,5 +486,28 @@ pub fn write_tradeoff_png(
         .draw()
         .map_err(|x| err(e(x)))?;
     root.present().map_err(|x| err(x.to_string()))?;
-    Ok(())
+    drop(c);
+    drop(root);
+    encode_png(out, &rgb, (w, h), name)
+}
+
+/// Encodes an RGB picture as PNG into `out` (the `png` crate; plotters'
+/// own encoder would pick the format from a file name, and give its errors
+/// as debug text). A write error names `name` and says what failed.
+fn encode_png(
+    out: &mut dyn Write,
+    rgb: &[u8],
+    (w, h): (u32, u32),
+    name: &str,
+) -> Result<(), String> {
+    let mut enc = png::Encoder::new(out, w, h);
+    enc.set_color(png::ColorType::Rgb);
+    enc.set_depth(png::BitDepth::Eight);
+    let failed = |e: png::EncodingError| match e {
+        png::EncodingError::IoError(io) => format!("{name}: cannot write: {io}"),
+        other => format!("{name}: cannot encode the plot as PNG: {other}"),
+    };
+    let mut writer = enc.write_header().map_err(failed)?;
+    writer.write_image_data(rgb).map_err(failed)?;
+    writer.finish().map_err(failed)
 }

@@ -405,7 +405,7 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
             );
             let name = f.shown().to_string();
             rec.write_png(
-                f.write_path(),
+                f.writer()?,
                 &name,
                 &title,
                 labels.as_ref().map_or(&[][..], |l| &l.labels[..]),

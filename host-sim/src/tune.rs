@@ -518,7 +518,9 @@ pub fn command(cmd: &TuneCommand) -> Result<(), crate::console::CliError> {
             .and_then(|i| outcome.trials.get(i))
             .map(|t| (t.on_median_ms, t.false_per_hour));
         let name = f.shown().to_string();
-        match crate::plot::write_tradeoff_png(f.write_path(), &name, &pts, chosen, budget)
+        match f
+            .writer()
+            .and_then(|w| crate::plot::write_tradeoff_png(w, &name, &pts, chosen, budget))
             .and_then(|()| f.commit())
         {
             Ok(()) => {

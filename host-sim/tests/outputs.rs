@@ -261,6 +261,19 @@ fn a_device_given_as_output_is_written_and_never_removed() {
         "{err}"
     );
     assert!(is_char_device(&full), "the device node was removed");
+    // A plot that cannot be written says so plainly, not as debug text.
+    let png = d.join("full.png");
+    std::os::unix::fs::symlink(&full, &png).unwrap();
+    let (code, _, err) = run(&["replay", p(&input), "--plot", p(&png)]);
+    assert_eq!(code, 1, "{err}");
+    assert_eq!(
+        err.trim_end(),
+        format!(
+            "humsim: error: --plot {}: cannot write: No space left on device (os error 28)",
+            p(&png)
+        )
+    );
+    assert!(is_char_device(&full), "the device node was removed");
     // tune: the result still reaches stdout when the TOML cannot be written.
     let lab = d.join("log.labels.csv");
     labels(&lab);
