@@ -15,7 +15,7 @@ fn main() {
         let t0 = std::time::Instant::now();
         match humsim::reliability::run(case) {
             Ok(o) => println!(
-                "{} wall_s={:.1}",
+                "{} wall_s={:.2}",
                 o.bench_line(),
                 t0.elapsed().as_secs_f64()
             ),

@@ -173,18 +173,19 @@ impl FrontEnd {
 mod tests {
     use super::*;
 
-    // Non-inverting gain 1 + Rf/Rg: 10 MΩ / 10 kΩ -> 1001 (common practice).
+    // Non-inverting gain 1 + Rf/Rg (common practice): 3.9 MΩ / 5.6 kΩ ->
+    // 1 + 696.428571 = 697.428571 (computed).
     #[test]
     fn non_inverting_gain() {
         let a = Amplifier {
-            rf_ohm: 10e6,
-            rg_ohm: 10e3,
+            rf_ohm: 3.9e6,
+            rg_ohm: 5.6e3,
             bias_v: 0.0,
             swing_low_v: 0.0,
             swing_high_v: 3.3,
         };
-        assert!((a.gain() - 1001.0).abs() < 1e-9);
-        assert!((a.output(1e-3) - 1.001).abs() < 1e-12);
+        assert!((a.gain() - 697.428_571_428_571_4).abs() < 1e-9);
+        assert!((a.output(1e-3) - 0.697_428_571_428_571_4).abs() < 1e-12);
         assert_eq!(a.output(-1e-3), 0.0); // clipped at the 0 V rail
         assert_eq!(a.output(1.0), 3.3); // clipped at the positive rail
     }

@@ -106,13 +106,13 @@ fn sense_node_matches_closed_form() {
 // Half-wave rectified sine on the clipping amplifier's output: mean Vp/π,
 // RMS Vp/2, fundamental Vp/2, 2nd harmonic 2Vp/(3π) = 0.21221 Vp (standard
 // Fourier series; Hayt, Kemmerly & Durbin ch. 18, secondary). Fundamental
-// and 2nd harmonic via rustfft. Gain 1001 from 10 MΩ/10 kΩ (common practice),
-// negative rail 0 V, no bias.
+// and 2nd harmonic via rustfft. Gain 1 + Rf/Rg (common practice) with
+// 3.9 MΩ/5.6 kΩ: 697.43; negative rail 0 V, no bias.
 #[test]
 fn clipping_amplifier_gives_half_wave() {
     let amp = FrontEnd::Amplifier(Amplifier {
-        rf_ohm: 10e6,
-        rg_ohm: 10e3,
+        rf_ohm: 3.9e6,
+        rg_ohm: 5.6e3,
         bias_v: 0.0,
         swing_low_v: 0.0,
         swing_high_v: 3.3,
@@ -123,7 +123,8 @@ fn clipping_amplifier_gives_half_wave() {
     let mut st = FrontEndState::default();
     let y: Vec<f64> = (0..n)
         .map(|k| {
-            let v_in = vp / 1001.0 * (TAU * 50.0 * k as f64 / rate).sin();
+            let gain = 1.0 + 3.9e6 / 5.6e3;
+            let v_in = vp / gain * (TAU * 50.0 * k as f64 / rate).sin();
             amp.output(&mut st, v_in, 1.0 / rate)
         })
         .collect();
