@@ -1,8 +1,8 @@
 //! Cost of the detector on Cortex-M, measured under QEMU (issue 6).
 //!
 //! ```text
-//! cargo run --release --example cortexm_bench --target thumbv6m-none-eabi
-//! cargo run --release --example cortexm_bench --target thumbv7em-none-eabihf
+//! cargo run --profile firmware --example cortexm_bench --target thumbv6m-none-eabi
+//! cargo run --profile firmware --example cortexm_bench --target thumbv7em-none-eabihf
 //! ```
 //!
 //! runs through the QEMU runners of `.cargo/config.toml` (`microbit`,
@@ -132,7 +132,7 @@ mod gen;
 fn main() {
     println!(
         "cortexm_bench measures on Cortex-M under QEMU; run it with \
-         `cargo run --release --example cortexm_bench --target thumbv6m-none-eabi` \
+         `cargo run --profile firmware --example cortexm_bench --target thumbv6m-none-eabi` \
          (or thumbv7em-none-eabihf), or `bash .ci/cortexm` for the budgets"
     );
 }

@@ -9,7 +9,7 @@
 //!
 //! - Host (part of `cargo test --workspace`): compares with the golden file;
 //!   `HUMSENSE_BLESS=1 cargo test --test on_target` rewrites it.
-//! - Target: `cargo test --release --test on_target --target
+//! - Target: `cargo test --profile firmware --test on_target --target
 //!   thumbv6m-none-eabi` (QEMU `microbit`, Cortex-M0) or `--target
 //!   thumbv7em-none-eabihf` (QEMU `mps2-an386`, Cortex-M4F), through the
 //!   runners in `.cargo/config.toml`; prints `N passed, N failed` and exits
