@@ -19,7 +19,8 @@ use crate::frontend::FrontEndState;
 use crate::interference::DriftState;
 use crate::mains::MainsSource;
 use crate::rng::{stream, Rng};
-use crate::scenario::{Plan, Scenario};
+use crate::scenario::error::{locate, KeyPath};
+use crate::scenario::{Plan, RenderOptions, Scenario, ScenarioError, MAX_RUN_S};
 
 /// How often ambient drift advances, seconds.
 const DRIFT_UPDATE_S: f64 = 0.01;
@@ -285,5 +286,45 @@ impl TargetExt for Option<usize> {
             None => true,
             Some(c) => *c == ch,
         }
+    }
+}
+
+impl Scenario {
+    /// Starts a streaming render (see [`crate::render::Render`]).
+    pub fn render(&self, opts: &RenderOptions) -> Result<crate::render::Render, ScenarioError> {
+        let seconds = opts.seconds.unwrap_or(self.file.duration_s);
+        if !(seconds.is_finite() && seconds > 0.0 && seconds <= MAX_RUN_S) {
+            // duration_s was checked at load time: this is --seconds.
+            return Err(ScenarioError {
+                file: self.origin.clone(),
+                line: None,
+                column: None,
+                key: None,
+                message: format!(
+                    "--seconds {}: expected a run length above 0 and at most {MAX_RUN_S:e} s",
+                    crate::text::num(seconds)
+                ),
+            });
+        }
+        let reps = self.file.repeat_s.map_or(1.0, |p| (seconds / p).ceil());
+        let expanded = reps * self.actions.len() as f64;
+        if expanded > 5e6 {
+            return Err(ScenarioError {
+                file: self.origin.clone(),
+                line: locate(&self.source, &KeyPath::top("repeat_s")),
+                column: None,
+                key: Some("repeat_s".into()),
+                message: format!(
+                    "the timeline repeated over {seconds} s expands to {expanded:.0} events; expected at most 5000000 (use a longer repeat_s or a shorter run)"
+                ),
+            });
+        }
+        Render::new(self, seconds, opts.seed.unwrap_or(self.file.seed)).map_err(|m| ScenarioError {
+            file: self.origin.clone(),
+            line: None,
+            column: None,
+            key: None,
+            message: m,
+        })
     }
 }
