@@ -384,12 +384,6 @@ impl MainsTracker {
         MainsHealth::Ok
     }
 
-    /// Apparent mains frequency in hertz while pinned at a range limit
-    /// (diagnostics; 0 before any pinned cycle).
-    pub fn apparent_hz(&self) -> f32 {
-        self.apparent_mhz as f32 / 1000.0
-    }
-
     fn coarse_verdict(&mut self, e: u32, phi: u32) {
         if e >= COARSE_E {
             self.good = 0;

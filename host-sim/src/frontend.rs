@@ -116,7 +116,7 @@ impl Comparator {
 
 /// One of the front ends.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub enum FrontEnd {
+pub enum AnalogFrontEnd {
     /// Non-inverting amplifier.
     Amplifier(Amplifier),
     /// Emitter-follower chain.
@@ -125,22 +125,22 @@ pub enum FrontEnd {
     Comparator(Comparator),
 }
 
-/// Running state of a [`FrontEnd`] (only the comparator has any).
+/// Running state of an [`AnalogFrontEnd`] (only the comparator has any).
 #[derive(Debug, Clone, Copy, Default)]
-pub struct FrontEndState {
+pub struct AnalogFrontEndState {
     high: bool,
     rc_out: f64,
     last_in: f64,
 }
 
-impl FrontEnd {
+impl AnalogFrontEnd {
     /// Pin voltage for node voltage `v_in` after a step of `dt` seconds.
-    pub fn output(&self, s: &mut FrontEndState, v_in: f64, dt: f64) -> f64 {
+    pub fn output(&self, s: &mut AnalogFrontEndState, v_in: f64, dt: f64) -> f64 {
         s.last_in = v_in;
         match self {
-            FrontEnd::Amplifier(a) => a.output(v_in),
-            FrontEnd::Follower(f) => f.output(v_in),
-            FrontEnd::Comparator(c) => {
+            AnalogFrontEnd::Amplifier(a) => a.output(v_in),
+            AnalogFrontEnd::Follower(f) => f.output(v_in),
+            AnalogFrontEnd::Comparator(c) => {
                 let half = 0.5 * c.hysteresis_v;
                 if s.high && v_in < c.threshold_v - half {
                     s.high = false;
@@ -161,9 +161,9 @@ impl FrontEnd {
     }
 
     /// Extra load on the sense node, ohms, given the last input seen.
-    pub fn load_ohm(&self, s: &FrontEndState) -> f64 {
+    pub fn load_ohm(&self, s: &AnalogFrontEndState) -> f64 {
         match self {
-            FrontEnd::Follower(f) => f.load_ohm_at(s.last_in),
+            AnalogFrontEnd::Follower(f) => f.load_ohm_at(s.last_in),
             _ => f64::INFINITY,
         }
     }
@@ -219,8 +219,8 @@ mod tests {
             supply_v: 3.3,
             rc: None,
         };
-        let fe = FrontEnd::Comparator(c);
-        let mut s = FrontEndState::default();
+        let fe = AnalogFrontEnd::Comparator(c);
+        let mut s = AnalogFrontEndState::default();
         let outs: Vec<f64> = [0.55, 0.61, 0.45, 0.39, 0.5]
             .iter()
             .map(|&v| fe.output(&mut s, v, 1e-3))
@@ -233,8 +233,8 @@ mod tests {
         };
         assert!((c2.rc_corner_hz().unwrap_or(0.0) - 1.591_55).abs() < 1e-4);
         // Step response after one time constant: 1 − 1/e of the step.
-        let fe2 = FrontEnd::Comparator(c2);
-        let mut s2 = FrontEndState::default();
+        let fe2 = AnalogFrontEnd::Comparator(c2);
+        let mut s2 = AnalogFrontEndState::default();
         let mut y = 0.0;
         for _ in 0..100 {
             y = fe2.output(&mut s2, 1.0, 1e-3);

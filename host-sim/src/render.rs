@@ -15,7 +15,7 @@
 
 use crate::adc::AdcState;
 use crate::coupling::SenseNodeState;
-use crate::frontend::FrontEndState;
+use crate::frontend::AnalogFrontEndState;
 use crate::interference::DriftState;
 use crate::mains::MainsSource;
 use crate::rng::{stream, Rng};
@@ -27,7 +27,7 @@ const DRIFT_UPDATE_S: f64 = 0.01;
 
 struct ChannelRun {
     node: SenseNodeState,
-    fe: FrontEndState,
+    fe: AnalogFrontEndState,
     adc: AdcState,
     drift: DriftState,
     noise: Rng,
@@ -62,7 +62,7 @@ impl Render {
                 let base = stream::CHANNEL_BASE + 16 * c;
                 ChannelRun {
                     node: SenseNodeState::default(),
-                    fe: FrontEndState::default(),
+                    fe: AnalogFrontEndState::default(),
                     adc: AdcState::new(Rng::new(seed, base)),
                     drift: DriftState::new(Rng::new(seed, base + 1)),
                     noise: Rng::new(seed, base + 2),

@@ -4,7 +4,7 @@
 
 use humsim::adc::Adc;
 use humsim::coupling::{coupled_current, parallel_plate, SenseNode, SenseNodeState};
-use humsim::frontend::{Amplifier, FrontEnd, FrontEndState};
+use humsim::frontend::{Amplifier, AnalogFrontEnd, AnalogFrontEndState};
 use humsim::interference::EsdWaveform;
 use humsim::mains::{MainsConfig, MainsSource};
 use rustfft::{num_complex::Complex, FftPlanner};
@@ -110,7 +110,7 @@ fn sense_node_matches_closed_form() {
 // 3.9 MΩ/5.6 kΩ: 697.43; negative rail 0 V, no bias.
 #[test]
 fn clipping_amplifier_gives_half_wave() {
-    let amp = FrontEnd::Amplifier(Amplifier {
+    let amp = AnalogFrontEnd::Amplifier(Amplifier {
         rf_ohm: 3.9e6,
         rg_ohm: 5.6e3,
         bias_v: 0.0,
@@ -120,7 +120,7 @@ fn clipping_amplifier_gives_half_wave() {
     let vp = 2.0; // output peak, below the 3.3 V rail
     let rate = 3200.0; // 64 samples per 50 Hz cycle
     let n = 3200; // 50 whole cycles
-    let mut st = FrontEndState::default();
+    let mut st = AnalogFrontEndState::default();
     let y: Vec<f64> = (0..n)
         .map(|k| {
             let gain = 1.0 + 3.9e6 / 5.6e3;

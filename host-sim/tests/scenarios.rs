@@ -219,7 +219,7 @@ fn labels_are_sane() {
             .file
             .events
             .iter()
-            .filter(|e| e.kind == humsim::scenario::EventKind::Touch)
+            .filter(|e| e.kind == humsim::scenario::TimelineKind::Touch)
             .count();
         let n_touch = labels.iter().filter(|l| l.kind == LabelKind::Touch).count();
         assert_eq!(n_touch, touches, "{name}");

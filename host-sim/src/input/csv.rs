@@ -1,4 +1,12 @@
 //! CSV logs (see the [module docs](super)).
+//!
+//! Hand-written rather than through a general CSV crate: a log is integer
+//! cells and one optional time column, read row by row into a reused
+//! buffer with no allocation per row (the replay of a one-hour four-channel
+//! log streams through it at the detector's own speed: see the README's
+//! performance section), and every refusal names the line and column and
+//! quotes the cell short ([`crate::text`]). Quoted cells are not part of the
+//! format: a quote is only trimmed from a header name.
 
 use super::{check_channels, FrameSource, MAX_CHANNELS, RATE_ROWS};
 use std::collections::VecDeque;

@@ -34,7 +34,7 @@ impl Scenario {
             ("magnitude_percent", e.magnitude_percent.is_some()),
         ];
         let allowed: &[&str] = match e.kind {
-            EventKind::Touch => &[
+            TimelineKind::Touch => &[
                 "channel",
                 "hold_s",
                 "ramp_ms",
@@ -42,17 +42,17 @@ impl Scenario {
                 "pressure",
                 "area_mm2",
             ],
-            EventKind::Approach | EventKind::Retreat => &["conductor", "to_mm", "duration_s"],
-            EventKind::LampOn => &["lamp", "firing_deg"],
-            EventKind::LampOff => &["lamp"],
-            EventKind::Esd => &["kv", "count", "interval_s", "channel"],
-            EventKind::FrequencyStep => &["to_hz"],
-            EventKind::Dip => &["duration_s", "residual_percent"],
-            EventKind::Swell => &["duration_s", "magnitude_percent"],
-            EventKind::MainsOff
-            | EventKind::MainsOn
-            | EventKind::GroundFloat
-            | EventKind::GroundEarth => &[],
+            TimelineKind::Approach | TimelineKind::Retreat => &["conductor", "to_mm", "duration_s"],
+            TimelineKind::LampOn => &["lamp", "firing_deg"],
+            TimelineKind::LampOff => &["lamp"],
+            TimelineKind::Esd => &["kv", "count", "interval_s", "channel"],
+            TimelineKind::FrequencyStep => &["to_hz"],
+            TimelineKind::Dip => &["duration_s", "residual_percent"],
+            TimelineKind::Swell => &["duration_s", "magnitude_percent"],
+            TimelineKind::MainsOff
+            | TimelineKind::MainsOn
+            | TimelineKind::GroundFloat
+            | TimelineKind::GroundEarth => &[],
         };
         let kind = event_kind_name(e.kind);
         for (k, g) in given {
@@ -108,7 +108,7 @@ impl Scenario {
             })
         };
         Ok(match e.kind {
-            EventKind::Touch => {
+            TimelineKind::Touch => {
                 let ch = channel(&e.channel)?.ok_or_else(|| {
                     ctx.err(
                         p("channel"),
@@ -164,7 +164,7 @@ impl Scenario {
                     area_m2: area * 1e-6,
                 }
             }
-            EventKind::Approach | EventKind::Retreat => {
+            TimelineKind::Approach | TimelineKind::Retreat => {
                 let c = named(
                     &e.conductor,
                     f.conductors.iter().map(|c| c.name.as_str()).collect(),
@@ -187,13 +187,13 @@ impl Scenario {
                     to_m: to * MM,
                 }
             }
-            EventKind::LampOn | EventKind::LampOff => {
+            TimelineKind::LampOn | TimelineKind::LampOff => {
                 let l = named(
                     &e.lamp,
                     f.lamps.iter().map(|l| l.name.as_str()).collect(),
                     "lamp",
                 )?;
-                let on = if e.kind == EventKind::LampOn {
+                let on = if e.kind == TimelineKind::LampOn {
                     let deg = e
                         .firing_deg
                         .unwrap_or_else(|| f.lamps.get(l).map_or(0.0, |x| x.firing_deg));
@@ -213,7 +213,7 @@ impl Scenario {
                     on,
                 }
             }
-            EventKind::Esd => {
+            TimelineKind::Esd => {
                 let kv = need(e.kv, "kv", "charging voltage in kV, e.g. 4")?;
                 if !(kv.is_finite() && kv != 0.0 && kv.abs() <= 30.0) {
                     return Err(ctx.err(p("kv"), "expected a charging voltage in kV, 0 < |kv| <= 30 (contact levels are 2, 4, 6, 8)"));
@@ -236,7 +236,7 @@ impl Scenario {
                     channel: channel(&e.channel)?,
                 }
             }
-            EventKind::FrequencyStep => {
+            TimelineKind::FrequencyStep => {
                 let to = need(e.to_hz, "to_hz", "new nominal frequency in Hz")?;
                 if !(to >= mains.range_hz.0 && to <= mains.range_hz.1) {
                     return Err(ctx.err(
@@ -252,7 +252,7 @@ impl Scenario {
                     to_hz: to,
                 })
             }
-            EventKind::Dip => {
+            TimelineKind::Dip => {
                 let d = positive(
                     ctx,
                     p("duration_s"),
@@ -273,7 +273,7 @@ impl Scenario {
                     residual: r / 100.0,
                 })
             }
-            EventKind::Swell => {
+            TimelineKind::Swell => {
                 let d = positive(
                     ctx,
                     p("duration_s"),
@@ -297,13 +297,13 @@ impl Scenario {
                     magnitude: m / 100.0,
                 })
             }
-            EventKind::MainsOff => Action::Mains(MainsEvent::Off { at_s: at }),
-            EventKind::MainsOn => Action::Mains(MainsEvent::On { at_s: at }),
-            EventKind::GroundFloat => Action::Ground {
+            TimelineKind::MainsOff => Action::Mains(MainsEvent::Off { at_s: at }),
+            TimelineKind::MainsOn => Action::Mains(MainsEvent::On { at_s: at }),
+            TimelineKind::GroundFloat => Action::Ground {
                 at_s: at,
                 floating: true,
             },
-            EventKind::GroundEarth => Action::Ground {
+            TimelineKind::GroundEarth => Action::Ground {
                 at_s: at,
                 floating: false,
             },
@@ -311,20 +311,20 @@ impl Scenario {
     }
 }
 
-fn event_kind_name(k: EventKind) -> &'static str {
+fn event_kind_name(k: TimelineKind) -> &'static str {
     match k {
-        EventKind::Touch => "touch",
-        EventKind::Approach => "approach",
-        EventKind::Retreat => "retreat",
-        EventKind::LampOn => "lamp-on",
-        EventKind::LampOff => "lamp-off",
-        EventKind::Esd => "esd",
-        EventKind::FrequencyStep => "frequency-step",
-        EventKind::Dip => "dip",
-        EventKind::Swell => "swell",
-        EventKind::MainsOff => "mains-off",
-        EventKind::MainsOn => "mains-on",
-        EventKind::GroundFloat => "ground-float",
-        EventKind::GroundEarth => "ground-earth",
+        TimelineKind::Touch => "touch",
+        TimelineKind::Approach => "approach",
+        TimelineKind::Retreat => "retreat",
+        TimelineKind::LampOn => "lamp-on",
+        TimelineKind::LampOff => "lamp-off",
+        TimelineKind::Esd => "esd",
+        TimelineKind::FrequencyStep => "frequency-step",
+        TimelineKind::Dip => "dip",
+        TimelineKind::Swell => "swell",
+        TimelineKind::MainsOff => "mains-off",
+        TimelineKind::MainsOn => "mains-on",
+        TimelineKind::GroundFloat => "ground-float",
+        TimelineKind::GroundEarth => "ground-earth",
     }
 }

@@ -431,7 +431,7 @@ pub struct ConductorSection {
 /// Timeline event kinds.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
-pub enum EventKind {
+pub enum TimelineKind {
     /// Finger on `channel` (`hold_s`, `ramp_ms`, `release_ms`, `pressure`, `area_mm2`).
     Touch,
     /// Move `conductor` to offset `to_mm` over `duration_s`.
@@ -463,9 +463,9 @@ pub enum EventKind {
 /// `[[event]]`: `kind`, `at_s` and that kind's keys; other keys are rejected.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
-#[allow(missing_docs)] // keys are documented on EventKind and in the README
+#[allow(missing_docs)] // keys are documented on TimelineKind and in the README
 pub struct EventSection {
-    pub kind: EventKind,
+    pub kind: TimelineKind,
     pub at_s: f64,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub channel: Option<String>,

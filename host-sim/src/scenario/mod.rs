@@ -56,7 +56,7 @@ pub use validate::{bad_column_name, MAX_RUN_S};
 use crate::adc::Adc;
 use crate::body::{Body, Contact, Touch};
 use crate::coupling::{DistanceSchedule, Geometry, SenseNode};
-use crate::frontend::{Amplifier, Comparator, FollowerChain, FrontEnd};
+use crate::frontend::{Amplifier, AnalogFrontEnd, Comparator, FollowerChain};
 use crate::interference::{burst, Discharge, Drift, Lamp};
 use crate::labels::{Label, LabelKind};
 use crate::mains::{Harmonic, MainsConfig, MainsEvent, MainsSchedule};
@@ -165,7 +165,7 @@ pub struct Scenario {
     /// Converter.
     pub adc: Adc,
     /// Front end.
-    pub frontend: FrontEnd,
+    pub frontend: AnalogFrontEnd,
     /// Person.
     pub body: Body,
     /// Pads.

@@ -515,7 +515,10 @@ impl Scenario {
         })
     }
 
-    pub(super) fn frontend(ctx: &Ctx, s: &FrontEndSection) -> Result<FrontEnd, ScenarioError> {
+    pub(super) fn frontend(
+        ctx: &Ctx,
+        s: &FrontEndSection,
+    ) -> Result<AnalogFrontEnd, ScenarioError> {
         let p = |k: &'static str| KeyPath::table("frontend", k);
         let given: [(&'static str, bool); 15] = [
             ("supply_v", s.supply_v.is_some()),
@@ -606,7 +609,7 @@ impl Scenario {
                         format!("expected swing_low_v < swing_high_v <= supply_v ({supply} V)"),
                     ));
                 }
-                FrontEnd::Amplifier(Amplifier {
+                AnalogFrontEnd::Amplifier(Amplifier {
                     rf_ohm: rf,
                     rg_ohm: rg,
                     bias_v: bias,
@@ -621,7 +624,7 @@ impl Scenario {
                         ctx.err(p("stages"), format!("expected 1..=4 stages, got {stages}"))
                     );
                 }
-                FrontEnd::Follower(FollowerChain {
+                AnalogFrontEnd::Follower(FollowerChain {
                     stages,
                     beta: positive(ctx, p("beta"), s.beta.unwrap_or(150.0), "a current gain")?,
                     vbe_v: non_negative(ctx, p("vbe_v"), s.vbe_v.unwrap_or(0.65), "a voltage")?,
@@ -663,7 +666,7 @@ impl Scenario {
                                 .err(p("rc_nf"), "expected rc_ohm too (the RC filter needs both)"))
                         }
                     };
-                FrontEnd::Comparator(Comparator {
+                AnalogFrontEnd::Comparator(Comparator {
                     threshold_v: th,
                     hysteresis_v: non_negative(
                         ctx,
