@@ -7,6 +7,11 @@
 //! same bits on every target and links no soft-float routine.
 
 use crate::error::{ConfigError, ConfigValue};
+
+/// Largest channel count.
+pub const MAX_CHANNELS: usize = 32;
+/// Largest number of extra harmonic bins (orders 2 to 5).
+pub const MAX_HARMONICS: usize = 4;
 use crate::fixed::{div_rem_u32, f32_mul_pow2};
 
 /// Which mains system to demodulate.
@@ -385,7 +390,7 @@ impl Config {
         // rates and at most 5 bins. (For H = 0 this is 291 Hz, below the
         // lowest rate accepted anyway.)
         let top_mhz = self.tracking_range_mhz().1;
-        let bins = harmonics.min(crate::detector::MAX_HARMONICS) as u32 + 1;
+        let bins = harmonics.min(MAX_HARMONICS) as u32 + 1;
         let need = 44 * top_mhz * bins;
         if self.sample_rate_hz * 10_000 < need {
             return Err(ConfigError::TooFewSamplesPerCycle {

@@ -59,10 +59,7 @@ impl AdcSample for i16 {
     }
 }
 
-/// Largest channel count.
-pub const MAX_CHANNELS: usize = 32;
-/// Largest number of extra harmonic bins (orders 2 to 5).
-pub const MAX_HARMONICS: usize = 4;
+pub use crate::config::{MAX_CHANNELS, MAX_HARMONICS};
 
 /// What the front end produces at the end of each mains cycle.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
