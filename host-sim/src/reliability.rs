@@ -23,7 +23,7 @@
 //! detected: if missed, it is counted as excused, not missed. Every other
 //! touch counts, and every on event that matches no touch is false.
 
-use crate::input::{FrameSource, RenderSource};
+use crate::input::{FrameSource, RenderSource, SourceInfo};
 use crate::labels::{Label, LabelKind};
 use crate::replay::{config_for, replay};
 use crate::scenario::{RenderOptions, Scenario};
@@ -220,31 +220,17 @@ fn rails(bits: u8) -> (i32, i32) {
 
 /// Frames held in memory as a [`FrameSource`] (the case's damaged codes).
 struct Frames {
-    names: Vec<String>,
-    rate_hz: f64,
-    bits: u8,
+    info: SourceInfo,
     codes: Vec<i32>,
     at: usize,
 }
 
 impl FrameSource for Frames {
-    fn name(&self) -> &str {
-        "reliability case"
-    }
-    fn channel_names(&self) -> &[String] {
-        &self.names
-    }
-    fn rate_hz(&self) -> f64 {
-        self.rate_hz
-    }
-    fn bits(&self) -> u8 {
-        self.bits
-    }
-    fn signed(&self) -> bool {
-        false
+    fn info(&self) -> &SourceInfo {
+        &self.info
     }
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String> {
-        let n = self.names.len();
+        let n = self.info.channels.len();
         let rest = self.codes.get(self.at..).unwrap_or(&[]);
         let take = (buf.len() / n).min(rest.len() / n) * n;
         for (slot, c) in buf.iter_mut().zip(rest.iter().take(take)) {
@@ -319,9 +305,14 @@ pub fn run(case: &Case) -> Result<Outcome, String> {
             }
         }
         let mut src = Frames {
-            names: names.clone(),
-            rate_hz: told_rate,
-            bits,
+            info: SourceInfo {
+                name: "reliability case".into(),
+                channels: names.clone(),
+                rate_hz: told_rate,
+                bits,
+                signed: false,
+                start_s: 0.0,
+            },
             codes,
             at: 0,
         };

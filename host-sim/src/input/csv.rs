@@ -8,7 +8,7 @@
 //! quotes the cell short ([`crate::text`]). Quoted cells are not part of the
 //! format: a quote is only trimmed from a header name.
 
-use super::{check_channels, FrameSource, MAX_CHANNELS, RATE_ROWS};
+use super::{check_channels, FrameSource, SourceInfo, MAX_CHANNELS, RATE_ROWS};
 use std::collections::VecDeque;
 use std::fs::File;
 use std::io::{BufRead, BufReader};
@@ -16,18 +16,14 @@ use std::path::Path;
 
 /// A CSV log (see the module docs).
 pub struct CsvSource {
-    name: String,
+    info: SourceInfo,
     reader: Box<dyn BufRead>,
     line: Vec<u8>,
     line_no: usize,
     header: Vec<String>,
-    names: Vec<String>,
     time_col: Option<usize>,
-    bits: u8,
     max_code: i64,
-    rate_hz: f64,
     period: f64,
-    start_s: f64,
     last_time: Option<(f64, usize)>,
     pending: VecDeque<i32>,
     row: Vec<i32>,
@@ -121,18 +117,18 @@ impl CsvSource {
     ) -> Result<CsvSource, String> {
         super::check_bits(bits)?;
         let mut src = CsvSource {
-            name: name.clone(),
+            info: SourceInfo {
+                name: name.clone(),
+                bits,
+                ..SourceInfo::default()
+            },
             reader,
             line: Vec::with_capacity(256),
             line_no: 0,
             header: Vec::new(),
-            names: Vec::new(),
             time_col: None,
-            bits,
             max_code: (1i64 << bits) - 1,
-            rate_hz: 0.0,
             period: 0.0,
-            start_s: 0.0,
             last_time: None,
             pending: VecDeque::new(),
             row: Vec::new(),
@@ -153,7 +149,7 @@ impl CsvSource {
         for cell in text.split(',') {
             let t = cell.trim().trim_matches('"');
             let here = col + cell.len() - cell.trim_start().len();
-            if src.names.len() == MAX_CHANNELS && t != "time_s" {
+            if src.info.channels.len() == MAX_CHANNELS && t != "time_s" {
                 return Err(format!(
                     "{name}:1:{here}: more than {MAX_CHANNELS} channel columns in the header; \
                      replay handles 1 to {MAX_CHANNELS} (split the file)"
@@ -176,13 +172,13 @@ impl CsvSource {
             if t == "time_s" {
                 src.time_col = Some(src.header.len());
             } else {
-                src.names.push(t.to_string());
+                src.info.channels.push(t.to_string());
             }
             src.header.push(t.to_string());
             col += cell.len() + 1;
         }
-        check_channels(&name, src.names.len())?;
-        src.row = vec![0; src.names.len()];
+        check_channels(&name, src.info.channels.len())?;
+        src.row = vec![0; src.info.channels.len()];
         // Read ahead to find the rate (and to refuse a header-only file).
         let ahead = if src.time_col.is_some() { RATE_ROWS } else { 1 };
         let mut times = Vec::new();
@@ -216,7 +212,7 @@ impl CsvSource {
                 ));
             }
             src.period = period;
-            src.start_s = first.0;
+            src.info.start_s = first.0;
             let inferred = 1.0 / period;
             if let Some(r) = rate {
                 if (r - inferred).abs() > 0.01 * inferred {
@@ -225,12 +221,12 @@ impl CsvSource {
                     ));
                 }
             }
-            src.rate_hz = rate.unwrap_or(inferred);
+            src.info.rate_hz = rate.unwrap_or(inferred);
             for &(t, line, col, decimals) in &ts {
                 src.check_time(t, line, col, decimals)?;
             }
         } else {
-            src.rate_hz = rate.ok_or_else(|| {
+            src.info.rate_hz = rate.ok_or_else(|| {
                 format!("{name}: no time_s column, so the sample rate is unknown; pass --rate HZ")
             })?;
         }
@@ -245,7 +241,7 @@ impl CsvSource {
             let n = crate::text::read_line(
                 &mut self.reader,
                 &mut self.line,
-                &self.name,
+                &self.info.name,
                 self.line_no + 1,
             )?;
             if n == 0 {
@@ -280,7 +276,7 @@ impl CsvSource {
             let unit = 10f64.powi(-(decimals.min(15) as i32));
             let tol = unit.clamp(0.01 * period, 0.5 * period);
             if !(dt - period).abs().le(&tol) {
-                let name = &self.name;
+                let name = &self.info.name;
                 let rate = 1.0 / period;
                 let resolve = if unit > 0.5 * period {
                     format!(
@@ -341,7 +337,7 @@ impl CsvSource {
             if k >= ncols {
                 return Err(format!(
                     "{}:{ln}:{}: expected {ncols} cells as in the header, found more",
-                    self.name,
+                    self.info.name,
                     start + 1
                 ));
             }
@@ -356,7 +352,7 @@ impl CsvSource {
                     .ok_or_else(|| {
                         format!(
                             "{}:{ln}:{col}: column `time_s`: `{}` is not a time in seconds",
-                            self.name,
+                            self.info.name,
                             crate::text::show_bytes(t)
                         )
                     })?;
@@ -366,8 +362,8 @@ impl CsvSource {
                 let Some(v) = parse_int(t) else {
                     return Err(format!(
                         "{}:{ln}:{col}: column `{}`: `{}` is not an integer ADC code",
-                        self.name,
-                        crate::text::show(self.names.get(ch).map_or("?", String::as_str)),
+                        self.info.name,
+                        crate::text::show(self.info.channels.get(ch).map_or("?", String::as_str)),
                         crate::text::show_bytes(t)
                     ));
                 };
@@ -375,9 +371,9 @@ impl CsvSource {
                     return Err(format!(
                         "{}:{ln}:{col}: column `{}`: {v} is out of range for {}-bit codes \
                          (0 to {}); see --bits",
-                        self.name,
-                        crate::text::show(self.names.get(ch).map_or("?", String::as_str)),
-                        self.bits,
+                        self.info.name,
+                        crate::text::show(self.info.channels.get(ch).map_or("?", String::as_str)),
+                        self.info.bits,
                         self.max_code
                     ));
                 }
@@ -395,7 +391,7 @@ impl CsvSource {
         if k != ncols {
             return Err(format!(
                 "{}:{ln}:{}: expected {ncols} cells as in the header, found {k}",
-                self.name,
+                self.info.name,
                 len + 1
             ));
         }
@@ -404,26 +400,11 @@ impl CsvSource {
 }
 
 impl FrameSource for CsvSource {
-    fn name(&self) -> &str {
-        &self.name
-    }
-    fn channel_names(&self) -> &[String] {
-        &self.names
-    }
-    fn rate_hz(&self) -> f64 {
-        self.rate_hz
-    }
-    fn bits(&self) -> u8 {
-        self.bits
-    }
-    fn signed(&self) -> bool {
-        false
-    }
-    fn start_s(&self) -> f64 {
-        self.start_s
+    fn info(&self) -> &SourceInfo {
+        &self.info
     }
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String> {
-        let n = self.names.len();
+        let n = self.info.channels.len();
         let mut frames = 0;
         for frame in buf.chunks_exact_mut(n) {
             if !self.pending.is_empty() {

@@ -84,27 +84,56 @@ pub struct InputSpec {
     pub channels: Option<usize>,
 }
 
-/// A stream of interleaved frames of ADC codes.
-pub trait FrameSource {
+/// What every input says about itself.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct SourceInfo {
     /// The input's name for messages (the file name).
-    fn name(&self) -> &str;
+    pub name: String,
     /// Channel names in column order.
-    fn channel_names(&self) -> &[String];
+    pub channels: Vec<String>,
     /// Sample rate per channel, hertz.
-    fn rate_hz(&self) -> f64;
+    pub rate_hz: f64,
     /// ADC resolution the codes were checked against.
-    fn bits(&self) -> u8;
+    pub bits: u8,
     /// Whether codes are two's complement (fed to the detector as `i16`).
-    fn signed(&self) -> bool;
+    pub signed: bool,
     /// The time of the first frame on the log's own clock, seconds: the
     /// first `time_s` of a CSV log, 0 for inputs without a time column.
     /// Events and labels are reported on this clock.
-    fn start_s(&self) -> f64 {
-        0.0
-    }
+    pub start_s: f64,
+}
+
+/// A stream of interleaved frames of ADC codes.
+pub trait FrameSource {
+    /// What the input says about itself.
+    fn info(&self) -> &SourceInfo;
     /// Fills `buf` (a multiple of the channel count long) with whole frames
     /// and returns how many; 0 at the end. Errors name the place in the file.
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String>;
+    /// [`SourceInfo::name`].
+    fn name(&self) -> &str {
+        &self.info().name
+    }
+    /// [`SourceInfo::channels`].
+    fn channel_names(&self) -> &[String] {
+        &self.info().channels
+    }
+    /// [`SourceInfo::rate_hz`].
+    fn rate_hz(&self) -> f64 {
+        self.info().rate_hz
+    }
+    /// [`SourceInfo::bits`].
+    fn bits(&self) -> u8 {
+        self.info().bits
+    }
+    /// [`SourceInfo::signed`].
+    fn signed(&self) -> bool {
+        self.info().signed
+    }
+    /// [`SourceInfo::start_s`].
+    fn start_s(&self) -> f64 {
+        self.info().start_s
+    }
 }
 
 /// Opens `spec.path` as CSV, WAV or raw (see the module docs).
@@ -187,45 +216,41 @@ fn check_channels(name: &str, n: usize) -> Result<(), String> {
 /// A scenario render as an input (for the demo and tests).
 pub struct RenderSource {
     render: crate::render::Render,
-    names: Vec<String>,
-    bits: u8,
+    info: SourceInfo,
     codes: Vec<u16>,
 }
 
 impl RenderSource {
     /// Wraps a render.
     pub fn new(render: crate::render::Render) -> RenderSource {
-        let names = render.scenario().channel_names();
-        let bits = render.scenario().adc.bits.clamp(8, 16) as u8;
+        let info = SourceInfo {
+            name: render.scenario().origin.clone(),
+            channels: render.scenario().channel_names(),
+            rate_hz: render.rate_hz(),
+            bits: render.scenario().adc.bits.clamp(8, 16) as u8,
+            signed: false,
+            start_s: 0.0,
+        };
         RenderSource {
             render,
-            names,
-            bits,
+            info,
             codes: Vec::new(),
         }
     }
 }
 
 impl FrameSource for RenderSource {
-    fn name(&self) -> &str {
-        &self.render.scenario().origin
-    }
-    fn channel_names(&self) -> &[String] {
-        &self.names
-    }
-    fn rate_hz(&self) -> f64 {
-        self.render.rate_hz()
-    }
-    fn bits(&self) -> u8 {
-        self.bits
-    }
-    fn signed(&self) -> bool {
-        false
+    fn info(&self) -> &SourceInfo {
+        &self.info
     }
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String> {
         self.codes.resize(buf.len(), 0);
         let n = self.render.fill(&mut self.codes);
-        for (slot, c) in buf.iter_mut().zip(&self.codes).take(n * self.names.len()) {
+        for (slot, c) in buf
+            .iter_mut()
+            .zip(&self.codes)
+            .take(n * self.info.channels.len())
+        {
             *slot = i32::from(*c);
         }
         Ok(n)

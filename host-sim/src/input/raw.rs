@@ -1,18 +1,14 @@
 //! Raw little-endian 16-bit codes (see the [module docs](super)).
 
-use super::{check_channels, FrameSource, RawFormat};
+use super::{check_channels, FrameSource, RawFormat, SourceInfo};
 use std::fs::File;
 use std::io::{BufReader, Read};
 use std::path::Path;
 
 /// Raw little-endian 16-bit codes.
 pub struct RawSource {
-    name: String,
+    info: SourceInfo,
     reader: Box<dyn Read>,
-    names: Vec<String>,
-    rate_hz: f64,
-    bits: u8,
-    format: RawFormat,
     lo: i32,
     hi: i32,
     bytes: Vec<u8>,
@@ -59,12 +55,15 @@ impl RawSource {
             RawFormat::I16Le => (-(1i32 << (bits - 1)), (1i32 << (bits - 1)) - 1),
         };
         Ok(RawSource {
-            name,
+            info: SourceInfo {
+                name,
+                channels: (0..channels).map(|i| format!("ch{i}")).collect(),
+                rate_hz,
+                bits,
+                signed: format == RawFormat::I16Le,
+                start_s: 0.0,
+            },
             reader,
-            names: (0..channels).map(|i| format!("ch{i}")).collect(),
-            rate_hz,
-            bits,
-            format,
             lo,
             hi,
             bytes: Vec::new(),
@@ -75,23 +74,11 @@ impl RawSource {
 }
 
 impl FrameSource for RawSource {
-    fn name(&self) -> &str {
-        &self.name
-    }
-    fn channel_names(&self) -> &[String] {
-        &self.names
-    }
-    fn rate_hz(&self) -> f64 {
-        self.rate_hz
-    }
-    fn bits(&self) -> u8 {
-        self.bits
-    }
-    fn signed(&self) -> bool {
-        self.format == RawFormat::I16Le
+    fn info(&self) -> &SourceInfo {
+        &self.info
     }
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String> {
-        let nch = self.names.len();
+        let nch = self.info.channels.len();
         let frame_bytes = 2 * nch;
         let want = buf.len() / nch * frame_bytes;
         self.bytes.resize(want, 0);
@@ -104,18 +91,18 @@ impl FrameSource for RawSource {
                 Ok(0) => break,
                 Ok(n) => filled += n,
                 Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-                Err(e) => return Err(format!("{}: cannot read: {e}", self.name)),
+                Err(e) => return Err(format!("{}: cannot read: {e}", self.info.name)),
             }
         }
         if filled == 0 && !self.started {
-            return Err(format!("{}: empty file", self.name));
+            return Err(format!("{}: empty file", self.info.name));
         }
         self.started = true;
         if !filled.is_multiple_of(frame_bytes) {
             return Err(format!(
                 "{}: truncated: {} trailing bytes at byte offset {} do not make a whole frame \
                  ({nch} channels x 2 bytes)",
-                self.name,
+                self.info.name,
                 filled % frame_bytes,
                 self.offset + (filled - filled % frame_bytes) as u64
             ));
@@ -143,10 +130,10 @@ impl FrameSource for RawSource {
                 return Err(format!(
                     "{}: frame {}, channel ch{} (byte offset {byte}): code {v} is out of range \
                      for {}-bit codes ({} to {}); see --bits",
-                    self.name,
+                    self.info.name,
                     byte / frame_bytes as u64,
                     k % nch,
-                    self.bits,
+                    self.info.bits,
                     self.lo,
                     self.hi
                 ));

@@ -11,7 +11,7 @@
 //! shifts them out. The valid bits are then the PCM width, and the default
 //! `--bits`.
 
-use super::{check_channels, FrameSource};
+use super::{check_channels, FrameSource, SourceInfo};
 use std::cell::RefCell;
 use std::fs::File;
 use std::io::{BufReader, Read};
@@ -72,12 +72,8 @@ enum Decoder {
 
 /// A WAV file of integer PCM (see the module docs).
 pub struct WavSource {
-    name: String,
+    info: SourceInfo,
     decoder: Decoder,
-    names: Vec<String>,
-    rate_hz: f64,
-    bits: u8,
-    signed: bool,
     lo: i32,
     hi: i32,
     declared: u64,
@@ -175,12 +171,15 @@ impl WavSource {
             ));
         };
         Ok(WavSource {
-            names: (0..nch).map(|i| format!("ch{i}")).collect(),
-            rate_hz: f64::from(spec.sample_rate),
-            name,
+            info: SourceInfo {
+                name,
+                channels: (0..nch).map(|i| format!("ch{i}")).collect(),
+                rate_hz: f64::from(spec.sample_rate),
+                bits,
+                signed,
+                start_s: 0.0,
+            },
             decoder,
-            bits,
-            signed,
             lo,
             hi,
             declared,
@@ -190,25 +189,13 @@ impl WavSource {
 }
 
 impl FrameSource for WavSource {
-    fn name(&self) -> &str {
-        &self.name
-    }
-    fn channel_names(&self) -> &[String] {
-        &self.names
-    }
-    fn rate_hz(&self) -> f64 {
-        self.rate_hz
-    }
-    fn bits(&self) -> u8 {
-        self.bits
-    }
-    fn signed(&self) -> bool {
-        self.signed
+    fn info(&self) -> &SourceInfo {
+        &self.info
     }
     fn read(&mut self, buf: &mut [i32]) -> Result<usize, String> {
-        let nch = self.names.len();
-        let (lo, hi, bits) = (self.lo, self.hi, self.bits);
-        let name = &self.name;
+        let nch = self.info.channels.len();
+        let (lo, hi, bits) = (self.lo, self.hi, self.info.bits);
+        let name = &self.info.name;
         let declared = self.declared;
         let start = self.read;
         let frame_of = |index: u64| (index / nch as u64, index % nch as u64);
@@ -233,7 +220,7 @@ impl FrameSource for WavSource {
                         None => break,
                         Some(Ok(v)) => {
                             if v < lo || v > hi {
-                                return Err(range_error(start + got as u64, v, self.signed));
+                                return Err(range_error(start + got as u64, v, self.info.signed));
                             }
                             *slot = v;
                             got += 1;
@@ -293,7 +280,7 @@ impl FrameSource for WavSource {
                     }
                     let v = v >> *shift;
                     if v < lo || v > hi {
-                        return Err(range_error(index, v, self.signed));
+                        return Err(range_error(index, v, self.info.signed));
                     }
                     *slot = v;
                     got += 1;
