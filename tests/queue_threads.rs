@@ -33,7 +33,7 @@ const SPIN_LIMIT: u64 = 50_000_000;
 
 fn ev(sample: u64) -> Event {
     let channel = (sample % 4) as u8;
-    let kind = if sample % 2 == 0 {
+    let kind = if sample.is_multiple_of(2) {
         EventKind::TouchOn
     } else {
         EventKind::TouchOff
@@ -71,7 +71,7 @@ fn every_event_is_popped_in_order_or_reported_lost() {
                 }
             };
             while sample < EVENTS {
-                if sample % PHASE == 0 {
+                if sample.is_multiple_of(PHASE) {
                     // Pause the consumer, wait until it says so, then a
                     // burst the queue cannot hold.
                     let phase = sample / PHASE + 1;
@@ -157,7 +157,7 @@ fn every_event_is_popped_in_order_or_reported_lost() {
                     None => {}
                 }
                 // Pace: mostly pop again at once, sometimes yield.
-                if next(&mut rng) % 8 == 0 {
+                if next(&mut rng).is_multiple_of(8) {
                     thread::yield_now();
                 }
             }
