@@ -7,8 +7,9 @@
     clippy::panic
 )]
 
-use humsense::{Config, ConfigError, Detector};
+use humsense::{Config, ConfigError, Detector, MainsMode, PanelMode, Profile};
 use proptest::prelude::*;
+use proptest::strategy::ValueTree;
 
 fn refused(cfg: Config) -> ConfigError {
     match Detector::<1, 0>::new(cfg) {
@@ -115,64 +116,547 @@ fn harmonic_bins_need_the_rate_for_them() {
     assert!(Detector::<1, 2>::new(Config::touch().with_sample_rate(872)).is_ok());
 }
 
+/// Every public field of `Config`, by its name in the struct.
+const FIELDS: [&str; 31] = [
+    "sample_rate_hz",
+    "adc_bits",
+    "mains",
+    "profile",
+    "spike_max_len",
+    "spike_floor_codes",
+    "track_min_codes",
+    "avg_shift",
+    "startup_cycles",
+    "baseline_rise_shift",
+    "baseline_fall_shift",
+    "noise_shift",
+    "on_noise",
+    "off_noise",
+    "on_ratio",
+    "off_ratio",
+    "floor_codes",
+    "debounce_on",
+    "debounce_off",
+    "min_active_cycles",
+    "max_active_cycles",
+    "levels",
+    "level_step_db",
+    "level_hysteresis_db",
+    "panel",
+    "ambient_ratio",
+    "fault_saturation_cycles",
+    "fault_stuck_cycles",
+    "nohum_codes",
+    "nohum_cycles",
+    "mains_lost_cycles",
+];
+
+/// An integer field: mostly within `lo..=hi` (passed a little wider than
+/// the documented range, so both sides of each limit are hit), sometimes
+/// any value of the type.
+macro_rules! int_field {
+    ($t:ty, $lo:expr, $hi:expr) => {
+        prop_oneof![
+            6 => $lo..=$hi,
+            1 => any::<$t>(),
+        ]
+    };
+}
+
+/// An `f32` field: mostly within `lo..=hi`, sometimes exactly a limit,
+/// negative zero, or any value at all (NaN, infinities, subnormals).
+fn float_field(lo: f32, hi: f32) -> impl Strategy<Value = f32> + Clone {
+    prop_oneof![
+        8 => lo..=hi,
+        1 => Just(lo),
+        1 => Just(hi),
+        1 => Just(-0.0f32),
+        1 => any::<f32>(),
+    ]
+}
+
+fn any_mains() -> impl Strategy<Value = MainsMode> {
+    prop_oneof![
+        Just(MainsMode::Auto),
+        Just(MainsMode::Hz50),
+        Just(MainsMode::Hz60)
+    ]
+}
+
+/// Every public field of `Config`, each from its own strategy, including
+/// values outside the documented ranges: validation refuses most. The
+/// struct literal names every field, so a new field fails to compile here.
+fn wild_config() -> impl Strategy<Value = Config> {
+    let sizes = (
+        prop_oneof![
+            2 => 350u32..=1_200, // around the lowest rate and the harmonic limit
+            3 => 1_200u32..=50_100,
+            1 => any::<u32>(),
+        ],
+        int_field!(u8, 7u8, 17),
+        any_mains(),
+        prop_oneof![Just(Profile::Touch), Just(Profile::Field)],
+        int_field!(u8, 0u8, 9),
+        any::<u16>(),
+        float_field(-1.0, 10_001.0),
+        int_field!(u8, 0u8, 5),
+        int_field!(u16, 0u16, 100),
+    );
+    let baseline = (
+        int_field!(u8, 0u8, 17),
+        int_field!(u8, 0u8, 17),
+        int_field!(u8, 0u8, 17),
+        float_field(0.4, 1001.0),
+        float_field(-0.1, 1001.0),
+        float_field(0.9, 1001.0),
+        float_field(0.9, 1001.0),
+        float_field(-1.0, 10_001.0),
+    );
+    let decision = (
+        int_field!(u8, 0u8, 20),
+        int_field!(u8, 0u8, 20),
+        any::<u16>(),
+        prop_oneof![0u16..=200, any::<u16>()],
+        int_field!(u8, 0u8, 17),
+        float_field(0.4, 21.0),
+        float_field(-0.1, 21.0),
+        prop_oneof![Just(PanelMode::StrongestPad), Just(PanelMode::Independent)],
+        float_field(1.0, 101.0),
+    );
+    let faults = (
+        int_field!(u16, 0u16, 100),
+        int_field!(u16, 0u16, 100),
+        float_field(-1.0, 10_001.0),
+        int_field!(u16, 0u16, 2_000),
+        int_field!(u16, 0u16, 500),
+    );
+    (sizes, baseline, decision, faults).prop_map(
+        |(
+            (
+                sample_rate_hz,
+                adc_bits,
+                mains,
+                profile,
+                spike_max_len,
+                spike_floor_codes,
+                track_min_codes,
+                avg_shift,
+                startup_cycles,
+            ),
+            (
+                baseline_rise_shift,
+                baseline_fall_shift,
+                noise_shift,
+                on_noise,
+                off_noise,
+                on_ratio,
+                off_ratio,
+                floor_codes,
+            ),
+            (
+                debounce_on,
+                debounce_off,
+                min_active_cycles,
+                max_active_cycles,
+                levels,
+                level_step_db,
+                level_hysteresis_db,
+                panel,
+                ambient_ratio,
+            ),
+            (
+                fault_saturation_cycles,
+                fault_stuck_cycles,
+                nohum_codes,
+                nohum_cycles,
+                mains_lost_cycles,
+            ),
+        )| Config {
+            sample_rate_hz,
+            adc_bits,
+            mains,
+            profile,
+            spike_max_len,
+            spike_floor_codes,
+            track_min_codes,
+            avg_shift,
+            startup_cycles,
+            baseline_rise_shift,
+            baseline_fall_shift,
+            noise_shift,
+            on_noise,
+            off_noise,
+            on_ratio,
+            off_ratio,
+            floor_codes,
+            debounce_on,
+            debounce_off,
+            min_active_cycles,
+            max_active_cycles,
+            levels,
+            level_step_db,
+            level_hysteresis_db,
+            panel,
+            ambient_ratio,
+            fault_saturation_cycles,
+            fault_stuck_cycles,
+            nohum_codes,
+            nohum_cycles,
+            mains_lost_cycles,
+        },
+    )
+}
+
+/// Every public field of `Config` within its documented range (the
+/// fields that must stay below another drawn as a fraction of it).
+fn valid_config() -> impl Strategy<Value = Config> {
+    let a = (
+        prop_oneof![400u32..=1_000, 400u32..=50_000],
+        8u8..=16,
+        any_mains(),
+        prop_oneof![Just(Profile::Touch), Just(Profile::Field)],
+        0u8..=8,
+        any::<u16>(),
+        0.0f32..=10_000.0,
+        0u8..=4,
+        prop_oneof![1u16..=60, any::<u16>().prop_map(|v| v.max(1))],
+        1u8..=16,
+        1u8..=16,
+        1u8..=16,
+    );
+    let b = (
+        0.5f32..=1000.0,
+        0.0f32..0.99,
+        1.01f32..=1000.0,
+        0.0f32..0.99,
+        0.0f32..=10_000.0,
+        1u8..=255,
+        1u8..=255,
+        any::<u16>(),
+        any::<u16>(),
+        1u8..=16,
+        0.5f32..=20.0,
+        0.0f32..0.99,
+    );
+    let c = (
+        prop_oneof![Just(PanelMode::StrongestPad), Just(PanelMode::Independent)],
+        1.05f32..=100.0,
+        1u16..=65_535,
+        1u16..=65_535,
+        0.0f32..=10_000.0,
+        1u16..=65_535,
+        1u16..=65_535,
+    );
+    (a, b, c).prop_map(
+        |(
+            (
+                sample_rate_hz,
+                adc_bits,
+                mains,
+                profile,
+                spike_max_len,
+                spike_floor_codes,
+                track_min_codes,
+                avg_shift,
+                startup_cycles,
+                baseline_rise_shift,
+                fall,
+                noise_shift,
+            ),
+            (
+                on_noise,
+                off_noise_t,
+                on_ratio,
+                off_ratio_t,
+                floor_codes,
+                debounce_on,
+                debounce_off,
+                min_active_cycles,
+                max_active_cycles,
+                levels,
+                level_step_db,
+                hysteresis_t,
+            ),
+            (
+                panel,
+                ambient_ratio,
+                fault_saturation_cycles,
+                fault_stuck_cycles,
+                nohum_codes,
+                nohum_cycles,
+                mains_lost_cycles,
+            ),
+        )| Config {
+            sample_rate_hz,
+            adc_bits,
+            mains,
+            profile,
+            spike_max_len,
+            spike_floor_codes,
+            track_min_codes,
+            avg_shift,
+            startup_cycles,
+            baseline_rise_shift,
+            baseline_fall_shift: fall.min(baseline_rise_shift),
+            noise_shift,
+            on_noise,
+            off_noise: on_noise * off_noise_t,
+            on_ratio,
+            off_ratio: 1.0 + (on_ratio - 1.0) * off_ratio_t,
+            floor_codes,
+            debounce_on,
+            debounce_off,
+            // At most max_active_cycles unless that is 0 (validation).
+            min_active_cycles: if max_active_cycles == 0 {
+                min_active_cycles
+            } else {
+                min_active_cycles.min(max_active_cycles)
+            },
+            max_active_cycles,
+            levels,
+            level_step_db,
+            level_hysteresis_db: level_step_db * hysteresis_t,
+            panel,
+            ambient_ratio,
+            fault_saturation_cycles,
+            fault_stuck_cycles,
+            nohum_codes,
+            nohum_cycles,
+            mains_lost_cycles,
+        },
+    )
+}
+
+/// A config over every field: a valid one with each field, one time in
+/// thirty, taken from [`wild_config`] instead (about one field a config),
+/// so about half are accepted and the refusals spread over every field
+/// and every rule.
 fn any_config() -> impl Strategy<Value = Config> {
     (
-        400u32..=50_000,
-        8u8..=16,
-        0u8..=8,
-        0u8..=4,
-        1u8..=16,
-        1u8..=16,
-        1u8..=255,
-        1u8..=255,
-        any::<bool>(),
-        0u16..100,
+        valid_config(),
+        wild_config(),
+        prop::collection::vec(prop::bool::weighted(1.0 / 30.0), FIELDS.len()),
     )
-        .prop_map(
-            |(rate, bits, spike, avg, rise, noise, don, doff, field, maxa)| {
-                let mut c = if field {
-                    Config::field()
-                } else {
-                    Config::touch()
-                };
-                c = c.with_sample_rate(rate).with_adc_bits(bits);
-                c.spike_max_len = spike;
-                c.avg_shift = avg;
-                c.baseline_rise_shift = rise;
-                c.baseline_fall_shift = c.baseline_fall_shift.min(rise);
-                c.noise_shift = noise;
-                c.debounce_on = don;
-                c.debounce_off = doff;
-                c.max_active_cycles = maxa;
-                if maxa != 0 {
-                    // Validation asks min ≤ max.
-                    c.min_active_cycles = c.min_active_cycles.min(maxa);
-                }
-                c.startup_cycles = 1;
-                c
-            },
-        )
+        .prop_map(|(valid, wild, mask)| {
+            let mut c = valid;
+            for (k, _) in mask.iter().enumerate().filter(|(_, &m)| m) {
+                c = with_field(c, &wild, k);
+            }
+            c
+        })
+}
+
+/// The documented ranges (the doc comments on `Config`'s fields), written
+/// out again independently of `Config::validate`: whether `c` should be
+/// accepted by a detector with `harmonics` extra bins. Float limits are
+/// compared as floats (so NaN fails every one, and −0.0 counts as 0).
+fn documented_valid(c: &Config, harmonics: u32) -> bool {
+    let int = |v: u32, lo: u32, hi: u32| (lo..=hi).contains(&v);
+    let float = |v: f32, lo: f32, hi: f32| v.is_finite() && v >= lo && v <= hi;
+    // Rate ≥ 4.4 · f_top · (H + 1), f_top the top of the tracking range
+    // (66 Hz in automatic mode, 54 Hz for 50 Hz, 64.8 Hz for 60 Hz).
+    let top = match c.mains {
+        MainsMode::Auto => 66.0,
+        MainsMode::Hz50 => 54.0,
+        MainsMode::Hz60 => 64.8,
+    };
+    int(c.sample_rate_hz, 400, 50_000)
+        && f64::from(c.sample_rate_hz) >= 4.4 * top * f64::from(harmonics + 1)
+        && int(c.adc_bits.into(), 8, 16)
+        && int(c.spike_max_len.into(), 0, 8)
+        && float(c.track_min_codes, 0.0, 10_000.0)
+        && int(c.avg_shift.into(), 0, 4)
+        && int(c.startup_cycles.into(), 1, 65_535)
+        && int(c.baseline_rise_shift.into(), 1, 16)
+        && int(c.baseline_fall_shift.into(), 1, 16)
+        && c.baseline_fall_shift <= c.baseline_rise_shift
+        // min_active_cycles' doc: at most max_active_cycles unless that is 0.
+        && (c.max_active_cycles == 0 || c.min_active_cycles <= c.max_active_cycles)
+        && int(c.noise_shift.into(), 1, 16)
+        && float(c.on_noise, 0.5, 1000.0)
+        && float(c.off_noise, 0.0, 1000.0)
+        && c.off_noise < c.on_noise
+        && float(c.on_ratio, 1.01, 1000.0)
+        && float(c.off_ratio, 1.0, 1000.0)
+        && c.off_ratio < c.on_ratio
+        && float(c.floor_codes, 0.0, 10_000.0)
+        && int(c.debounce_on.into(), 1, 255)
+        && int(c.debounce_off.into(), 1, 255)
+        && int(c.levels.into(), 1, 16)
+        && float(c.level_step_db, 0.5, 20.0)
+        && float(c.level_hysteresis_db, 0.0, 20.0)
+        && c.level_hysteresis_db < c.level_step_db
+        && float(c.ambient_ratio, 1.05, 100.0)
+        && int(c.fault_saturation_cycles.into(), 1, 65_535)
+        && int(c.fault_stuck_cycles.into(), 1, 65_535)
+        && float(c.nohum_codes, 0.0, 10_000.0)
+        && int(c.nohum_cycles.into(), 1, 65_535)
+        && int(c.mains_lost_cycles.into(), 1, 65_535)
+}
+
+/// The fields an error about `field` may name besides `field` itself when
+/// only `field` was changed: the other side of a rule between two fields.
+fn partners(field: &str) -> &'static [&'static str] {
+    match field {
+        "baseline_rise_shift" => &["baseline_fall_shift"],
+        "max_active_cycles" => &["min_active_cycles"],
+        "on_noise" => &["off_noise"],
+        "on_ratio" => &["off_ratio"],
+        "level_step_db" => &["level_hysteresis_db"],
+        // The harmonic bins' rate rule depends on the tracking range.
+        "mains" => &["sample_rate_hz"],
+        _ => &[],
+    }
+}
+
+/// `base` with field `k` of `FIELDS` taken from `from`.
+fn with_field(base: Config, from: &Config, k: usize) -> Config {
+    let mut c = base;
+    match FIELDS[k] {
+        "sample_rate_hz" => c.sample_rate_hz = from.sample_rate_hz,
+        "adc_bits" => c.adc_bits = from.adc_bits,
+        "mains" => c.mains = from.mains,
+        "profile" => c.profile = from.profile,
+        "spike_max_len" => c.spike_max_len = from.spike_max_len,
+        "spike_floor_codes" => c.spike_floor_codes = from.spike_floor_codes,
+        "track_min_codes" => c.track_min_codes = from.track_min_codes,
+        "avg_shift" => c.avg_shift = from.avg_shift,
+        "startup_cycles" => c.startup_cycles = from.startup_cycles,
+        "baseline_rise_shift" => c.baseline_rise_shift = from.baseline_rise_shift,
+        "baseline_fall_shift" => c.baseline_fall_shift = from.baseline_fall_shift,
+        "noise_shift" => c.noise_shift = from.noise_shift,
+        "on_noise" => c.on_noise = from.on_noise,
+        "off_noise" => c.off_noise = from.off_noise,
+        "on_ratio" => c.on_ratio = from.on_ratio,
+        "off_ratio" => c.off_ratio = from.off_ratio,
+        "floor_codes" => c.floor_codes = from.floor_codes,
+        "debounce_on" => c.debounce_on = from.debounce_on,
+        "debounce_off" => c.debounce_off = from.debounce_off,
+        "min_active_cycles" => c.min_active_cycles = from.min_active_cycles,
+        "max_active_cycles" => c.max_active_cycles = from.max_active_cycles,
+        "levels" => c.levels = from.levels,
+        "level_step_db" => c.level_step_db = from.level_step_db,
+        "level_hysteresis_db" => c.level_hysteresis_db = from.level_hysteresis_db,
+        "panel" => c.panel = from.panel,
+        "ambient_ratio" => c.ambient_ratio = from.ambient_ratio,
+        "fault_saturation_cycles" => c.fault_saturation_cycles = from.fault_saturation_cycles,
+        "fault_stuck_cycles" => c.fault_stuck_cycles = from.fault_stuck_cycles,
+        "nohum_codes" => c.nohum_codes = from.nohum_codes,
+        "nohum_cycles" => c.nohum_cycles = from.nohum_cycles,
+        "mains_lost_cycles" => c.mains_lost_cycles = from.mains_lost_cycles,
+        other => panic!("unknown field {other}"),
+    }
+    c
+}
+
+/// The error names a field of `Config`, in backquotes in its message.
+fn names_a_real_field(e: &ConfigError) -> &'static str {
+    let field = field_of(e);
+    assert!(FIELDS.contains(&field), "{e:?} names no field of Config");
+    let msg = e.to_string();
+    assert!(msg.contains(&format!("`{field}`")), "{msg}");
+    field
+}
+
+#[test]
+fn the_strategy_covers_every_field_and_both_outcomes() {
+    // Each field's strategy gives it more than one value, and configs are
+    // both accepted and refused often enough for the properties below to
+    // test something.
+    let mut runner = proptest::test_runner::TestRunner::deterministic();
+    let strategy = any_config();
+    let first = strategy.new_tree(&mut runner).unwrap().current();
+    let mut differs = [false; FIELDS.len()];
+    let (mut accepted, mut refused) = (0, 0);
+    for _ in 0..2_000 {
+        let c = strategy.new_tree(&mut runner).unwrap().current();
+        for (k, d) in differs.iter_mut().enumerate() {
+            let probe = with_field(first, &c, k);
+            // Bitwise, so a NaN or −0.0 counts as a new value.
+            *d |= format!("{probe:?}") != format!("{first:?}");
+        }
+        match Detector::<1, 0>::new(c) {
+            Ok(_) => accepted += 1,
+            Err(_) => refused += 1,
+        }
+    }
+    for (k, d) in differs.iter().enumerate() {
+        assert!(d, "field {} never varies", FIELDS[k]);
+    }
+    assert!(
+        accepted >= 100 && refused >= 100,
+        "{accepted} accepted, {refused} refused"
+    );
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(2_000))]
+
+    /// Validation accepts exactly what the field docs allow, for a detector
+    /// without and with harmonic bins, and every refusal names a field of
+    /// `Config` (in backquotes in its message).
+    #[test]
+    fn validation_follows_the_documented_ranges(cfg in any_config()) {
+        for (h, result) in [
+            (0, Detector::<1, 0>::new(cfg).map(|_| ())),
+            (2, Detector::<2, 2>::new(cfg).map(|_| ())),
+        ] {
+            prop_assert_eq!(result.is_ok(), documented_valid(&cfg, h), "H = {}: {:?} {:?}", h, result, cfg);
+            if let Err(e) = result {
+                names_a_real_field(&e);
+            }
+        }
+    }
+
+    /// One field of a valid config changed to any value: if refused, the
+    /// error names that field (or the other side of a rule it shares).
+    #[test]
+    fn a_refused_field_is_the_one_named(
+        from in any_config(),
+        k in 0..FIELDS.len(),
+        field_profile in any::<bool>(),
+    ) {
+        let base = if field_profile { Config::field() } else { Config::touch() };
+        let c = with_field(base, &from, k);
+        if let Err(e) = Detector::<1, 2>::new(c) {
+            let named = names_a_real_field(&e);
+            let field = FIELDS[k];
+            prop_assert!(
+                named == field || partners(field).contains(&named),
+                "changed {} but the error names {}: {}", field, named, e
+            );
+        }
+    }
 }
 
 proptest! {
     #![proptest_config(ProptestConfig::with_cases(64))]
 
-    /// Any accepted config and any sample values, including codes outside
-    /// the configured resolution: no panic (debug build, so overflow would
-    /// panic too), and every event names channel 0 or 1.
+    /// Any accepted config (over every field) and any sample values,
+    /// including codes outside the configured resolution: no panic (debug
+    /// build, so overflow would panic too), every event names a channel of
+    /// the detector, and snapshots exist for exactly its channels.
     #[test]
     fn never_panics(cfg in any_config(), xs in prop::collection::vec(any::<u16>(), 0..6000)) {
-        let mut det = Detector::<2, 2>::new(cfg);
-        if let Ok(det) = det.as_mut() {
-            det.push_block(&xs, |e| assert!(e.channel < 2));
-            let _ = det.snapshot(0);
-            assert!(det.snapshot(2).is_none());
+        if let Ok(mut det) = Detector::<2, 2>::new(cfg) {
+            let left = det.push_block(&xs, |e| assert!(e.channel < 2));
+            prop_assert_eq!(left, xs.len() % 2);
+            prop_assert!(det.snapshot(1).is_some());
+            prop_assert!(det.snapshot(2).is_none());
         }
-        let mut one = Detector::<1, 0>::new(cfg).expect("valid");
-        for &x in &xs {
-            let _ = one.push(x as i16);
+        if let Ok(mut one) = Detector::<1, 0>::new(cfg) {
+            for &x in &xs {
+                if let Some(e) = one.push(x as i16) {
+                    prop_assert_eq!(e.channel, 0);
+                }
+            }
+            prop_assert_eq!(one.samples_seen(), xs.len() as u64);
         }
     }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(64))]
 
     /// Splitting a block anywhere gives the same events as one call, and a
     /// partial frame is returned to the caller, not dropped.
