@@ -62,8 +62,10 @@
 //!   within `asin` of `η`), so centre intervals repeat at the mains period
 //!   even while a touch widens the pulses, where rising-edge intervals
 //!   shorten by up to a quarter period. A pulse is **coherent** when its
-//!   interval lies within 1/16 of the tracked period and its width is less
-//!   than the period; a pulse that is not marks the window incoherent.
+//!   centre lies one, two or three tracked periods after the last coherent
+//!   pulse's centre, within 1/16 of a period, and its width is less than
+//!   the period (see `confirm`); a pulse that is not marks the window
+//!   incoherent and does not move the reference.
 //!
 //! # Per window (one mains cycle)
 //!
@@ -1014,9 +1016,21 @@ impl<const N: usize> EdgeFrontend<N> {
 }
 
 /// Confirms channel `c`'s pending edge at `t`: the level changes, and a
-/// falling edge completes a pulse. Returns the pulse-centre interval to
-/// add to the tracker's sums when it lies within `accept`. Per edge:
-/// shifts, adds and compares only.
+/// falling edge completes a pulse. Returns the pulse-centre interval(s) to
+/// add to the tracker's sums (sum, count). Per edge: shifts, adds and
+/// compares only.
+///
+/// While acquiring, the interval is from the previous pulse's centre and is
+/// returned when it lies within `accept`. While tracking, the reference is
+/// the centre of the last coherent pulse, and a pulse is coherent when its
+/// centre lies `k·P` after it within `accept` (shifted by `(k − 1)·P`) for
+/// `k` = 1, 2 or 3 (up to two pulses lost or incoherent in between) and its
+/// width is less than `P`. An incoherent pulse leaves the reference where
+/// it was, so a disturbance that shifts several pulses alike (interference
+/// holding the pin past its falling edge two cycles in a row) is not taken
+/// for a train of its own; once the reference is more than three periods
+/// old, an incoherent pulse becomes the new reference (a train that
+/// started, or whose phase moved, is followed after one more pulse).
 #[inline]
 fn confirm(
     c: &mut EdgeChannel,
@@ -1035,20 +1049,43 @@ fn confirm(
     let rise = c.rise.take()?;
     let width = t.saturating_sub(rise);
     let centre = rise + (width >> 1);
-    let prev = c.centre.replace(centre);
-    let interval = centre.saturating_sub(prev?);
-    let fits = interval >= u64::from(accept.0) && interval <= u64::from(accept.1);
+    let (lo, hi) = (u64::from(accept.0), u64::from(accept.1));
+    let fits = |iv: u64| iv >= lo && iv <= hi;
     if !tracking {
-        return fits.then_some((interval, 1));
+        let interval = centre.saturating_sub(c.centre.replace(centre)?);
+        return fits(interval).then_some((interval, 1));
     }
-    if fits && width < u64::from(period) {
+    let Some(reference) = c.centre else {
+        c.centre = Some(centre);
+        return None;
+    };
+    let p = u64::from(period);
+    let interval = centre.saturating_sub(reference);
+    let k = if fits(interval) {
+        1
+    } else if fits(interval.saturating_sub(p)) {
+        2
+    } else if fits(interval.saturating_sub(2 * p)) {
+        3
+    } else {
+        0
+    };
+    if k != 0 && width < p {
+        c.centre = Some(centre);
         c.width_sum += width;
         c.widths = c.widths.saturating_add(1);
         c.stats.pulses = c.stats.pulses.saturating_add(1);
-        Some((interval, 1))
+        match k {
+            1 => Some((interval, 1)),
+            2 => Some((interval, 2)),
+            _ => None,
+        }
     } else {
         c.bad = true;
         c.stats.incoherent_pulses = c.stats.incoherent_pulses.saturating_add(1);
+        if interval > 2 * p + hi {
+            c.centre = Some(centre);
+        }
         None
     }
 }
