@@ -7,6 +7,7 @@ pub mod config;
 pub mod decision;
 pub mod demod;
 pub mod detector;
+pub mod edge;
 pub mod error;
 pub mod event;
 pub mod fault;
@@ -19,6 +20,7 @@ pub mod queue;
 
 pub use config::{Config, MainsMode, PanelMode, Profile};
 pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};
+pub use edge::{EdgeConfig, EdgeDetector, EdgeInput, TimerWidth};
 pub use error::{ConfigError, ConfigValue};
 pub use event::{Event, EventKind, Fault, Faults};
 pub use mains::{MainsHealth, MainsSystem};
