@@ -369,12 +369,12 @@ enum Stage {
 }
 
 /// Windows in a row that agree within 1/32 before the period is taken.
-const ACQUIRE_WINDOWS: u8 = 4;
+pub const ACQUIRE_WINDOWS: u8 = 4;
 /// Windows in a row within 1/256 (plus two ticks) before lock.
-const LOCK_WINDOWS: u8 = 8;
+pub const LOCK_WINDOWS: u8 = 8;
 /// Windows in a row with edges but no coherent interval before the lock is
 /// dropped and the period acquired again.
-const UNLOCK_WINDOWS: u8 = 8;
+pub const UNLOCK_WINDOWS: u8 = 8;
 
 /// The mains period in timer ticks, from the intervals between pulse
 /// centres: the edge input's counterpart of [`MainsTracker`](crate::mains::MainsTracker),
