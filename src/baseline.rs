@@ -98,9 +98,11 @@ impl BaselineState {
     }
 
     /// Restarts the baseline at amplitude `amp_q8`, keeping the noise
-    /// estimate (used after a stuck-active timeout).
+    /// estimate and ending any hold (used after a stuck-active timeout, and
+    /// after a release that landed away from the old baseline).
     pub fn relearn(&mut self, amp_q8: u32) {
         self.base_q12 = q8_to_q12(amp_q8);
+        self.held = 0;
     }
 
     /// Starts learning again from the next cycle, with the start-up rates

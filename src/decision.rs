@@ -137,14 +137,37 @@ pub enum Verdict {
     Relearn,
 }
 
-/// Per-channel decision state (5 bytes of data).
+/// Per-channel decision state (7 bytes of data: the touch level fits the
+/// padding the back end's channel record had, so it costs no RAM).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct DecisionState {
     active_cycles: u16,
+    /// While active: the touch's (or field's) own level in whole codes,
+    /// saturating: raised to each higher amplitude at once, followed down
+    /// by 1/8 of the gap a cycle (so a slow change of the whole signal, a
+    /// board's ground or an ambient ramp, moves it along).
+    level_q0: u16,
     count: u8,
     level: u8,
-    active: bool,
+    mode: Mode,
+}
+
+/// Whether a channel is on, and what its baseline does next while it is
+/// off.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+enum Mode {
+    /// Off.
+    #[default]
+    Idle,
+    /// On (touched, or field present).
+    Active,
+    /// Off since a release that landed away from the old baseline (above
+    /// the off threshold, or below 0.7 of the baseline: the ambient
+    /// changed while the channel was on); the next idle cycle restarts the
+    /// baseline from its amplitude.
+    Fresh,
 }
 
 impl DecisionState {
@@ -152,15 +175,18 @@ impl DecisionState {
     pub const fn new() -> Self {
         Self {
             active_cycles: 0,
+            // Set when the channel turns on; nonzero until then on purpose
+            // (see the back end's channel record).
+            level_q0: u16::MAX,
             count: 0,
             level: 0,
-            active: false,
+            mode: Mode::Idle,
         }
     }
 
     /// Whether the channel is active (touched, or field present).
     pub const fn active(&self) -> bool {
-        self.active
+        matches!(self.mode, Mode::Active)
     }
 
     /// Present level (0 when idle; 1 to `levels` when active in the field
@@ -171,7 +197,17 @@ impl DecisionState {
 
     /// Whether the channel is above its on threshold but not yet on.
     pub const fn pending(&self) -> bool {
-        !self.active && self.count > 0
+        !self.active() && self.count > 0
+    }
+
+    /// While active, the channel's own level in Q8 codes (whole codes, see
+    /// the module docs); 0 when idle.
+    pub const fn touch_level_q8(&self) -> u32 {
+        if self.active() {
+            (self.level_q0 as u32) << 8
+        } else {
+            0
+        }
     }
 
     /// Decides one cycle with amplitude `a`, baseline `b` and noise `n`
@@ -187,22 +223,26 @@ impl DecisionState {
         may_turn_on: bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
-        self.step_with(a, b, n, || may_turn_on, t)
+        self.step_with(a, b, n, true, || may_turn_on, t)
     }
 
     /// [`step`](Self::step) with the panel's permission asked only when
     /// it matters (an idle channel above its on threshold), so a costly
-    /// permission (the strongest-pad rule) is mostly never computed.
+    /// permission (the strongest-pad rule) is mostly never computed, and
+    /// with `steady`: whether the cycle's mean level stayed put (see
+    /// [`Cycle::dc_step`](crate::Cycle::dc_step)); only a steady cycle may
+    /// turn a channel on by itself.
     pub fn step_with(
         &mut self,
         a: u32,
         b: u32,
         n: u32,
+        steady: bool,
         may_turn_on: impl FnOnce() -> bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
         let touch = t.profile == Profile::Touch;
-        if !self.active {
+        if !self.active() {
             // Only the threshold this state compares against is computed.
             let on = t.on_threshold(b, n);
             if a > on && !may_turn_on() {
@@ -210,12 +250,18 @@ impl DecisionState {
                 return (None, Verdict::Freeze);
             }
             if a > on {
-                self.count = self.count.saturating_add(1);
+                // Strong evidence (the excess over the baseline twice what
+                // the on threshold asks, in a cycle whose mean did not
+                // move: no impulse behind it) confirms at once.
+                let strong = steady && a - on > on - b;
+                let add = if strong { t.debounce_on } else { 1 };
+                self.count = self.count.saturating_add(add);
                 if self.count >= t.debounce_on {
-                    self.active = true;
+                    self.mode = Mode::Active;
                     self.count = 0;
                     self.active_cycles = 0;
                     self.level = 1;
+                    self.level_q0 = whole_codes(a);
                     let k = if touch {
                         EventKind::TouchOn
                     } else {
@@ -226,6 +272,10 @@ impl DecisionState {
                 return (None, Verdict::Freeze);
             }
             self.count = 0;
+            if self.mode == Mode::Fresh {
+                self.mode = Mode::Idle;
+                return (None, Verdict::Relearn);
+            }
             return (None, Verdict::Learn);
         }
         self.active_cycles = self.active_cycles.saturating_add(1);
@@ -238,10 +288,34 @@ impl DecisionState {
             self.release();
             return (Some(off_kind), Verdict::Relearn);
         }
-        if a < t.off_threshold(b, n) {
-            self.count = self.count.saturating_add(1);
+        let own = u32::from(self.level_q0);
+        let off = t.off_threshold(b, n);
+        // Below the off threshold, or a sharp fall from the channel's own
+        // level (a finger lifting while the ambient is above the old
+        // baseline), compared in whole codes (no overflow: both below 2^16).
+        let below = a < off;
+        let a0 = whole_codes(a);
+        let fall = u32::from(a0);
+        let dropped = fall * DROP < own;
+        // The level follows: up at once, down by 1/8 of the gap.
+        self.level_q0 = if a0 > self.level_q0 {
+            a0
+        } else {
+            self.level_q0 - ((self.level_q0 - a0) >> 3)
+        };
+        if below || dropped {
+            // Strong evidence: halfway from the off threshold down to the
+            // baseline, or a fall twice as deep.
+            let strong = a < b + (off - b) / 2 || fall * (2 * DROP) < own;
+            let add = if strong { t.debounce_off } else { 1 };
+            self.count = self.count.saturating_add(add);
             if self.count >= t.debounce_off && self.active_cycles >= t.min_active {
                 self.release();
+                // Landed away from the old baseline: the ambient changed
+                // while the channel was on; learn it afresh.
+                if !below || a < mul_q8(b, HOLD_BELOW_Q8) {
+                    self.mode = Mode::Fresh;
+                }
                 return (Some(off_kind), Verdict::Freeze);
             }
             return (None, Verdict::Freeze);
@@ -259,7 +333,7 @@ impl DecisionState {
     /// Ends an active state without waiting for the signal (a fault on the
     /// channel); returns the off event if the channel was active.
     pub fn force_off(&mut self, t: &DecisionTuning) -> Option<EventKind> {
-        if !self.active {
+        if !self.active() {
             self.count = 0;
             return None;
         }
@@ -272,7 +346,7 @@ impl DecisionState {
     }
 
     fn release(&mut self) {
-        self.active = false;
+        self.mode = Mode::Idle;
         self.count = 0;
         self.level = 0;
         self.active_cycles = 0;
@@ -291,6 +365,20 @@ impl DecisionState {
         }
         None
     }
+}
+
+/// A release by a fall from the channel's own level needs the amplitude
+/// below 1/`DROP` of it (strong evidence: 1/(2·`DROP`)).
+pub const DROP: u32 = 3;
+
+/// A released level below this fraction of the baseline (Q8: 0.7, as the
+/// baseline's own hold) means the ambient fell while the channel was on.
+const HOLD_BELOW_Q8: u32 = 179;
+
+/// `a` in whole codes (`a` in Q8), saturating at `u16::MAX`.
+#[inline(always)]
+fn whole_codes(a: u32) -> u16 {
+    u16::try_from(a >> 8).unwrap_or(u16::MAX)
 }
 
 /// `a / b` in Q8, saturating; `u32::MAX` when `b` is 0. Out of line: one
@@ -403,19 +491,131 @@ mod tests {
         let t = tuning(Config::touch());
         let mut d = DecisionState::new();
         let b = 10 * 256;
+        // On at 28 codes; 40 is marginal (strong from 46: twice the
+        // excess), so it takes debounce_on = 2 cycles.
         assert_eq!(d.step(40 * 256, b, 0, true, &t), (None, Verdict::Freeze));
         assert_eq!(d.step(40 * 256, b, 0, true, &t).0, Some(EventKind::TouchOn));
         // Between off (18 codes) and on (28 codes): stays on.
         for _ in 0..10 {
             assert_eq!(d.step(20 * 256, b, 0, true, &t).0, None);
         }
-        assert_eq!(d.step(12 * 256, b, 0, true, &t).0, None);
-        assert_eq!(d.step(12 * 256, b, 0, true, &t).0, None);
+        // 16 codes: below off, above the strong mark (14: halfway down to
+        // the baseline) and not a fall to a third of the level (20 codes
+        // followed): debounce_off = 3 cycles.
+        assert_eq!(d.step(16 * 256, b, 0, true, &t).0, None);
+        assert_eq!(d.step(16 * 256, b, 0, true, &t).0, None);
         assert_eq!(
-            d.step(12 * 256, b, 0, true, &t).0,
+            d.step(16 * 256, b, 0, true, &t).0,
             Some(EventKind::TouchOff)
         );
         assert!(!d.active());
+        // Released near the baseline: ordinary learning goes on.
+        assert_eq!(d.step(10 * 256, b, 0, true, &t), (None, Verdict::Learn));
+    }
+
+    #[test]
+    fn strong_evidence_confirms_at_once() {
+        let t = tuning(Config::touch());
+        let b = 10 * 256;
+        let mut d = DecisionState::new();
+        // 47 codes: more than twice the on excess (18 codes) over 10.
+        assert_eq!(d.step(47 * 256, b, 0, true, &t).0, Some(EventKind::TouchOn));
+        assert_eq!(d.step(47 * 256, b, 0, true, &t).0, None);
+        // min_active_cycles = 2 is met; 13 codes is below the strong mark
+        // (14) of the off threshold (18): off at once.
+        assert_eq!(
+            d.step(13 * 256, b, 0, true, &t).0,
+            Some(EventKind::TouchOff)
+        );
+        // One cycle short of the strong mark on: debounced.
+        let mut d = DecisionState::new();
+        assert_eq!(d.step(46 * 256, b, 0, true, &t).0, None);
+        assert_eq!(d.step(46 * 256, b, 0, true, &t).0, Some(EventKind::TouchOn));
+    }
+
+    #[test]
+    fn a_sharp_fall_releases_above_the_old_off_threshold() {
+        let t = tuning(Config::touch());
+        let b = 15 * 256;
+        let mut d = DecisionState::new();
+        assert_eq!(
+            d.step(500 * 256, b, 0, true, &t).0,
+            Some(EventKind::TouchOn)
+        );
+        for _ in 0..5 {
+            assert_eq!(d.step(500 * 256, b, 0, true, &t).0, None);
+        }
+        assert_eq!(d.touch_level_q8(), 500 * 256);
+        // The ambient doubled during the touch: the finger lifts to 30
+        // codes, above the old off threshold (27), far below a sixth of
+        // the touch's level: released at once, and the baseline is learnt
+        // afresh from the next idle cycle.
+        assert!(30 * 256 > t.thresholds(b, 0).1);
+        assert_eq!(
+            d.step(30 * 256, b, 0, true, &t),
+            (Some(EventKind::TouchOff), Verdict::Freeze)
+        );
+        assert_eq!(d.step(30 * 256, b, 0, true, &t), (None, Verdict::Relearn));
+        assert_eq!(
+            d.step(30 * 256, 30 * 256, 0, true, &t),
+            (None, Verdict::Learn)
+        );
+        // A fall to a quarter (below a third, above a sixth) is debounced.
+        let mut d = DecisionState::new();
+        d.step(400 * 256, b, 0, true, &t);
+        d.step(400 * 256, b, 0, true, &t);
+        assert_eq!(d.step(100 * 256, b, 0, true, &t).0, None);
+        assert_eq!(d.step(100 * 256, b, 0, true, &t).0, None);
+        // (the level followed down by 1/8 of the gap twice: 400 → 363 → 330)
+        assert_eq!(
+            d.step(100 * 256, b, 0, true, &t).0,
+            Some(EventKind::TouchOff)
+        );
+        // A fall to half of the level is no release.
+        let mut d = DecisionState::new();
+        d.step(400 * 256, b, 0, true, &t);
+        for _ in 0..20 {
+            assert_eq!(d.step(200 * 256, b, 0, true, &t).0, None);
+        }
+        assert!(d.active());
+    }
+
+    #[test]
+    fn a_slow_change_moves_the_level_along() {
+        // Everything scales down by 2 % a cycle while touched (a floating
+        // board's ground): the level follows and the touch holds, until
+        // the finger lifts.
+        let t = tuning(Config::touch());
+        let b = 20 * 256;
+        let mut d = DecisionState::new();
+        let mut a = 600.0f64;
+        assert_eq!(
+            d.step((a * 256.0) as u32, b, 0, true, &t).0,
+            Some(EventKind::TouchOn)
+        );
+        for _ in 0..50 {
+            a *= 0.98;
+            assert_eq!(d.step((a * 256.0) as u32, b, 0, true, &t).0, None);
+        }
+        assert!(d.active(), "{a}");
+        let off = d.step((a / 10.0 * 256.0) as u32, b, 0, true, &t).0;
+        assert_eq!(off, Some(EventKind::TouchOff));
+    }
+
+    #[test]
+    fn a_release_below_the_old_baseline_relearns() {
+        // The ambient halved during the touch: the release lands at 0.5 of
+        // the old baseline, and the baseline restarts from the next cycle.
+        let t = tuning(Config::touch());
+        let b = 40 * 256;
+        let mut d = DecisionState::new();
+        d.step(800 * 256, b, 0, true, &t);
+        d.step(800 * 256, b, 0, true, &t);
+        assert_eq!(
+            d.step(20 * 256, b, 0, true, &t).0,
+            Some(EventKind::TouchOff)
+        );
+        assert_eq!(d.step(20 * 256, b, 0, true, &t).1, Verdict::Relearn);
     }
 
     #[test]
@@ -432,7 +632,9 @@ mod tests {
                 break;
             }
         }
-        assert_eq!(seen, Some((6, Some(EventKind::TouchOff))));
+        // 100 codes over a baseline of 10 is strong evidence: on at cycle
+        // 0, active for 5 cycles at cycle 5.
+        assert_eq!(seen, Some((5, Some(EventKind::TouchOff))));
     }
 
     #[test]

@@ -39,7 +39,7 @@
 //! mid-scale code as its DC.
 
 use crate::fixed::{div_rem_u32, mul_wide, mul_wide_signed};
-use crate::nco::{ref_q14, RefQ14};
+use crate::nco::{phase_ref, PhaseRef};
 
 /// One quadrature pair, Q8 ADC codes of amplitude.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
@@ -79,7 +79,7 @@ pub const PRODUCT_SHIFT: u32 = 10;
 /// Whether the multiply-accumulate takes the "wide" form: `x` pre-scaled by
 /// 2^[`LANE_SHIFT`] and the product's top 32 bits of 48,
 /// `((x·2^6) · t) >> 16`, which ARMv7E-M does in one `smlawb`/`smlawt`
-/// with the table value a halfword of a packed word ([`RefQ14`]), instead of
+/// with the table value a halfword of a packed word ([`RefQ14`](crate::nco::RefQ14)), instead of
 /// `(x · t) >> 10` (a multiply and a shifted add). The two are the same
 /// number: `⌊2^6·x·t / 2^16⌋ = ⌊x·t / 2^10⌋` (tested over the whole range).
 /// Taken on ARMv7E-M and ARMv8-M Mainline (`humsense_dsp`, set by the build
@@ -244,10 +244,11 @@ const fn product_wide(x: i32, t: i16) -> i32 {
 /// `i += (xc · cos) >> 10`, `q += (xc · sin) >> 10` for `x = xc <<
 /// LANE_SHIFT` (wrapping: see [`PRODUCT_SHIFT`] for why the true sum fits).
 #[inline(always)]
-fn mac(acc: &mut [i32; 2], x: i32, r: RefQ14) {
+fn mac(acc: &mut [i32; 2], x: i32, r: PhaseRef) {
+    let x = r.signed(x);
     let [i, q] = acc;
-    *i = i.wrapping_add(product(x, r.cos()));
-    *q = q.wrapping_add(product(x, r.sin()));
+    *i = i.wrapping_add(product(x, r.table.cos()));
+    *q = q.wrapping_add(product(x, r.table.sin()));
 }
 
 /// The harmonic bins' products for `x` at reference phase `phase`: order
@@ -255,7 +256,7 @@ fn mac(acc: &mut [i32; 2], x: i32, r: RefQ14) {
 #[inline(always)]
 fn mac_harmonics<const H: usize>(harm: &mut [[i32; 2]; H], x: i32, phase: u32) {
     for (order, acc) in (2u32..).zip(harm.iter_mut()) {
-        mac(acc, x, ref_q14(phase.wrapping_mul(order)));
+        mac(acc, x, phase_ref(phase.wrapping_mul(order)));
     }
 }
 
@@ -271,9 +272,9 @@ impl<const H: usize> DemodLane<H> {
     /// Accumulates one pair given as `x = xc << LANE_SHIFT`, with `xc` its
     /// gated sum less twice the DC (|xc| ≤ 131 070; see
     /// [`centred`](Self::centred)), at the midpoint
-    /// phase `mid`, whose table reference is `r` ([`ref_q14`]).
+    /// phase `mid`, whose reference is `r` ([`phase_ref`]).
     #[inline(always)]
-    pub fn push_pair(&mut self, x: i32, r: RefQ14, mid: u32) {
+    pub fn push_pair(&mut self, x: i32, r: PhaseRef, mid: u32) {
         let mut f = [self.i, self.q];
         mac(&mut f, x, r);
         [self.i, self.q] = f;
@@ -353,7 +354,7 @@ impl<const H: usize> DemodState<H> {
     #[inline(never)]
     fn accumulate(&mut self, xc: i32, phase: u32, v: u32) {
         let x = xc << LANE_SHIFT;
-        mac(&mut self.acc, x, ref_q14(phase));
+        mac(&mut self.acc, x, phase_ref(phase));
         mac_harmonics(&mut self.harm, x, phase);
         self.sum = self.sum.wrapping_add(v);
     }
@@ -627,7 +628,10 @@ mod tests {
         let peak = TABLE_PEAK as i16;
         for xc in [131_070i32, -131_070] {
             let mut acc = [0i32; 2];
-            let r = RefQ14::new(peak, peak);
+            let r = PhaseRef {
+                table: crate::nco::RefQ14::new(peak, peak),
+                neg: 0,
+            };
             for _ in 0..products {
                 mac(&mut acc, xc << LANE_SHIFT, r);
             }

@@ -27,15 +27,17 @@
 pub const TABLE_LEN: usize = 512;
 const INDEX_SHIFT: u32 = 23;
 const QUARTER: usize = TABLE_LEN / 4;
-/// Entries stored: one and a quarter turns.
-pub const TABLE_ENTRIES: usize = TABLE_LEN + QUARTER;
+const HALF: usize = TABLE_LEN / 2;
+/// Entries stored: three quarters of a turn.
+pub const TABLE_ENTRIES: usize = HALF + QUARTER;
 /// Peak value of the table (the Q14 "one", less one LSB).
 pub const TABLE_PEAK: i32 = 16_383;
 
-/// Q14 sine at the centre of each of 512 phase bins per turn, over one and
-/// a quarter turns: `SINE_Q14[k] = round(16383 · sin(2π(k + ½)/512))` for
-/// k = 0..640 (entries 512.. repeat entries 0..128: the cosine of bin `k`
-/// is entry `k + 128` with no wrap-around).
+/// Q14 sine at the centre of each of 512 phase bins per turn, over three
+/// quarters of a turn: `SINE_Q14[k] = round(16383 · sin(2π(k + ½)/512))`
+/// for k = 0..384. The second half turn is the first negated (the table is
+/// exactly odd about half a turn: `sin(x + π) = −sin x`, and rounding to
+/// nearest is symmetric), and the cosine of bin `k` is entry `k + 128`.
 ///
 /// Indexing by the truncated phase therefore returns the sine at the middle
 /// of the bin the phase falls in: the reference has no phase bias, only a
@@ -47,7 +49,7 @@ pub const SINE_Q14: [i16; TABLE_ENTRIES] = {
     let mut t = [0i16; TABLE_ENTRIES];
     let mut k = 0;
     while k < TABLE_ENTRIES {
-        t[k] = SINE_TURN_Q14[k % TABLE_LEN];
+        t[k] = SINE_TURN_Q14[k];
         k += 1;
     }
     t
@@ -139,7 +141,7 @@ pub const PACKED_Q14: [RefQ14; TABLE_LEN] = {
     let mut t = [RefQ14(0); TABLE_LEN];
     let mut k = 0;
     while k < TABLE_LEN {
-        t[k] = RefQ14::new(SINE_Q14[k], SINE_Q14[k + QUARTER]);
+        t[k] = RefQ14::new(SINE_TURN_Q14[k], SINE_TURN_Q14[(k + QUARTER) % TABLE_LEN]);
         k += 1;
     }
     t
@@ -163,22 +165,77 @@ pub fn ref_q14(phase: u32) -> RefQ14 {
     }
 }
 
-/// Sine and cosine of a `u32` phase in Q14 (16 383 = +1.0): entries `k`
-/// and `k + 128` of the table, `k = phase >> 23`.
+/// What the demodulator multiplies a pair by: a table word and the sign of
+/// the half turn, applied to the pair value rather than to both table
+/// values (one negation instead of two; `(−x)·t = x·(−t)` exactly).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct PhaseRef {
+    /// The sine and cosine, of the phase folded into the first half turn
+    /// (of the phase itself where [`PACKED`] holds).
+    pub table: RefQ14,
+    /// 0, or −1 (all ones) where the pair value is to be negated.
+    pub neg: i32,
+}
+
+impl PhaseRef {
+    /// `x` with the half turn's sign: `x` or `−x` (`x` above `i32::MIN`).
+    #[inline(always)]
+    pub const fn signed(self, x: i32) -> i32 {
+        (x ^ self.neg).wrapping_sub(self.neg)
+    }
+}
+
+/// The demodulator's reference at `phase`: `x · ref_q14(phase)` equals
+/// `phase_ref(phase).signed(x) · phase_ref(phase).table`, halfword by
+/// halfword. Where [`PACKED`] holds, the packed word and no sign (the
+/// negation compiles away); elsewhere the folded entries of [`SINE_Q14`]
+/// and the sign of the second half turn (a shift, a mask and two loads).
+#[inline(always)]
+pub fn phase_ref(phase: u32) -> PhaseRef {
+    if PACKED {
+        return PhaseRef {
+            table: ref_q14(phase),
+            neg: 0,
+        };
+    }
+    let j = ((phase << 1) >> (INDEX_SHIFT + 1)) as usize;
+    // `j < 256` and `j + 128 < 384` by construction, so the fallbacks are
+    // never taken and the compiler removes the checks.
+    let s = match SINE_Q14.get(j) {
+        Some(v) => *v,
+        None => 0,
+    };
+    let c = match SINE_Q14.get(j + QUARTER) {
+        Some(v) => *v,
+        None => 0,
+    };
+    PhaseRef {
+        table: RefQ14::new(s, c),
+        neg: (phase as i32) >> 31,
+    }
+}
+
+/// Sine and cosine of a `u32` phase in Q14 (16 383 = +1.0) of bin
+/// `k = phase >> 23`: entries `j` and `j + 128` of the table for
+/// `j = k mod 256`, negated in the second half turn (`k ≥ 256`).
 #[inline(always)]
 pub fn sin_cos_q14(phase: u32) -> (i16, i16) {
-    let k = (phase >> INDEX_SHIFT) as usize;
-    // `k < 512` and `k + 128 < 640` by construction, so the fallbacks are
+    let j = ((phase << 1) >> (INDEX_SHIFT + 1)) as usize;
+    // 0 in the first half turn, −1 (all ones) in the second: `(v ^ m) − m`
+    // is `v` or `−v` (no entry is −32 768).
+    let m = ((phase as i32) >> 31) as i16;
+    // `j < 256` and `j + 128 < 384` by construction, so the fallbacks are
     // never taken and the compiler removes the checks.
-    let s = match SINE_Q14.get(k) {
+    let s = match SINE_Q14.get(j) {
         Some(v) => *v,
         None => 0,
     };
-    let c = match SINE_Q14.get(k + QUARTER) {
+    let c = match SINE_Q14.get(j + QUARTER) {
         Some(v) => *v,
         None => 0,
     };
-    (s, c)
+    ((s ^ m).wrapping_sub(m), (c ^ m).wrapping_sub(m))
 }
 
 #[cfg(test)]
@@ -231,6 +288,31 @@ mod tests {
             }
         }
         assert_eq!(RefQ14::new(-1, 2).bits(), 0xffff_0002);
+    }
+
+    #[test]
+    fn phase_ref_is_the_reference_with_the_sign_on_the_pair() {
+        // Every bin, both ends, against the full-turn reference: the
+        // products are equal as integers (identity of integer arithmetic).
+        for k in 0..TABLE_LEN as u32 {
+            for phase in [k << INDEX_SHIFT, (k << INDEX_SHIFT) | 0x7f_ffff] {
+                let r = ref_q14(phase);
+                let p = phase_ref(phase);
+                for x in [-131_070, -1, 0, 1, 977, 131_070] {
+                    let x = x << 6;
+                    assert_eq!(
+                        i64::from(p.signed(x)) * i64::from(p.table.sin()),
+                        i64::from(x) * i64::from(r.sin()),
+                        "sin bin {k}"
+                    );
+                    assert_eq!(
+                        i64::from(p.signed(x)) * i64::from(p.table.cos()),
+                        i64::from(x) * i64::from(r.cos()),
+                        "cos bin {k}"
+                    );
+                }
+            }
+        }
     }
 
     #[test]

@@ -49,5 +49,6 @@ pub mod replay;
 pub mod rng;
 pub mod scenario;
 pub mod score;
+pub mod selfcheck;
 pub mod text;
 pub mod tune;

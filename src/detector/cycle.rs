@@ -46,6 +46,12 @@ pub struct Cycle<const N: usize, const H: usize> {
     /// Mean input level per channel over the cycle, offset-binary codes
     /// (`i16` input plus 32 768).
     pub dc: [u16; N],
+    /// Per channel: how far the mean level moved since the previous cycle,
+    /// codes. Coupled hum has no DC of its own, so a touch or a field
+    /// leaves the mean where it was, while an impulse of area `S` code
+    /// samples moves it by `S/n` and the fundamental by at most `2S/n`: a
+    /// rise of the amplitude without a move of the mean is hum.
+    pub dc_step: [u16; N],
     /// Per channel: the cycle demodulated to exactly nothing (every group
     /// equal to the DC estimate: an input that does not move).
     pub flat: [bool; N],
@@ -64,6 +70,7 @@ impl<const N: usize, const H: usize> Cycle<N, H> {
         fund: [Iq { i: 0, q: 0 }; N],
         harm: [[Iq { i: 0, q: 0 }; H]; N],
         dc: [0; N],
+        dc_step: [0; N],
         flat: [false; N],
         health: MainsHealth::Ok,
         rails: (0, 0),

@@ -7,7 +7,7 @@ use crate::demod::{reciprocal, CycleScale, DemodState};
 use crate::error::ConfigError;
 use crate::impulse::{BlockGate, BlockHold, ImpulseState};
 use crate::mains::MainsTracker;
-use crate::nco::ref_q14;
+use crate::nco::phase_ref;
 
 /// Per-sample half of the pipeline: impulse gate, demodulator and the shared
 /// mains tracker, for `N` channels with `H` extra harmonic bins.
@@ -249,7 +249,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         for [a, b] in pairs {
             let v = u32::from(a.offset_code()) + u32::from(b.offset_code());
             let x = g.pair(&mut hold, d.centred(v), max_len, (mid, step2));
-            d.push_pair(x, ref_q14(mid), mid);
+            d.push_pair(x, phase_ref(mid), mid);
             mid = mid.wrapping_add(step2);
         }
         gate.store_block(&g, &hold, mid, dc);
@@ -280,7 +280,7 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let chunks = run.chunks_exact(2 * N);
         let pairs = chunks.len() as u32;
         for chunk in chunks {
-            let table = ref_q14(mid);
+            let table = phase_ref(mid);
             let (first, second) = chunk.split_at(N);
             let stages = gates.iter_mut().zip(holds.iter_mut()).zip(dems.iter_mut());
             for ((a, b), ((g, h), d)) in first.iter().zip(second.iter()).zip(stages) {
@@ -329,11 +329,17 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         let scale = &self.scale;
         let stages = self.demod.iter_mut().zip(self.impulse.iter_mut());
         let outs = cycle.fund.iter_mut().zip(cycle.harm.iter_mut());
-        let extras = cycle.dc.iter_mut().zip(cycle.flat.iter_mut());
-        for ((dem, gate), ((f, h), (dc, flat))) in stages.zip(outs.zip(extras)) {
+        let extras = cycle
+            .dc
+            .iter_mut()
+            .zip(cycle.dc_step.iter_mut())
+            .zip(cycle.flat.iter_mut());
+        for ((dem, gate), ((f, h), ((dc, step), flat))) in stages.zip(outs.zip(extras)) {
             *flat = dem.quiet();
+            let before = dem.dc();
             (*f, *h) = dem.end_cycle_with(scale);
             *dc = dem.dc();
+            *step = dc.abs_diff(before);
             gate.end_cycle(self.spike_groups, self.spike_floor);
         }
         self.tracker.end_cycle(&cycle.fund);
