@@ -2,10 +2,14 @@
 //!
 //! The phase is a `u32` in turns (2^32 = one turn). Its top nine bits pick
 //! one of 512 phase bins per turn; the table holds the Q14 sine at the
-//! centre of each bin for one and a quarter turns (640 entries, 1.25 KiB
-//! of flash), so the cosine of bin `k` is entry `k + 128` with no
-//! wrap-around: a sine/cosine pair is one shift, an address and two loads,
-//! no division, no float, no search.
+//! centre of each bin for three quarters of a turn (384 entries, 768 bytes
+//! of flash): the sine is odd about half a turn, so bin `k ≥ 256` is bin
+//! `k − 256` negated, and the cosine of bin `k` is entry `k + 128` with no
+//! wrap-around. The demodulator applies the half turn's sign to the pair
+//! value rather than to both table values ([`phase_ref`]): a shift, a mask,
+//! an address and two loads a pair, no division, no float, no search. On
+//! the targets with `smlawb`/`smlawt` a packed table of the whole turn is
+//! read instead (one word a bin, [`PACKED_Q14`]).
 //!
 //! Truncating the phase to 9 bits leaves at most half a table step
 //! (π/512 rad) of phase error in the reference (the table holds bin
@@ -13,10 +17,10 @@
 //! nothing measurable (a uniform phase error of ±π/512 scales the
 //! amplitude by 1 − (π/512)²/6, 6·10⁻⁶); it lets a strong fundamental
 //! through into the optional harmonic bins by up to A₁·π/512 (tested). The
-//! layout was chosen for Cortex-M0 flash and cycles: 1024 bins over three
-//! quarters of a turn (1.5 KiB) needed a sign per half turn on every pair
-//! (about 4.7 more instructions a sample on the M0, 1 on the M4F); 1024
-//! bins over 1¼ turns took 2.5 KiB.
+//! layout is a trade of Cortex-M0 flash against cycles: one and a quarter
+//! turns (1.25 KiB) needed no sign; the half-turn fold saves 512 bytes for
+//! about 3.5 instructions a sample on the M0 (measured, 1 channel: 54.4
+//! against 50.9).
 //!
 //! Q14 (peak 16 383) rather than Q15 keeps the product of a pair sum of
 //! 16-bit samples less its DC (at most 131 070 in magnitude) and a table
