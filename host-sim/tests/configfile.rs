@@ -60,6 +60,77 @@ fn toml_round_trips_exactly() {
 }
 
 #[test]
+fn the_file_format_is_the_core_crates_serde_form() {
+    // A second, independent reader of the format: serde's derive on
+    // `Config` (feature `serde`), which requires every field by its name
+    // and refuses unknown ones. So `to_toml` writes every field, under
+    // the names and enum spellings the core crate declares.
+    for c in [Config::touch(), Config::field(), unusual()] {
+        let text = to_toml(&c);
+        let back: Config = toml::from_str(&text).unwrap();
+        assert_eq!(back, c, "{text}");
+    }
+    // And serde's output reads back through the file reader.
+    let text = toml::to_string(&unusual()).unwrap();
+    let file = ConfigFile::parse(&text, "serde.toml").unwrap();
+    let req = ConfigRequest {
+        profile: None,
+        mains: None,
+        bits: 10,
+        rate_hz: 1000,
+    };
+    assert_eq!(build(&req, Some(&file)).unwrap(), unusual(), "{text}");
+}
+
+#[test]
+fn every_field_is_read_from_the_file() {
+    // One field at a time set to a value other than the default, through
+    // the descriptors: the built configuration differs in that field only.
+    use humsense::{FieldKind, FieldValue};
+    let req = ConfigRequest {
+        profile: None,
+        mains: None,
+        bits: 12,
+        rate_hz: 2000,
+    };
+    for f in Config::FIELDS {
+        if matches!(f.name, "sample_rate_hz" | "adc_bits") {
+            continue; // must equal the input's
+        }
+        let base = Config::touch();
+        let (text, want) = match ((f.get)(&base), f.kind) {
+            (FieldValue::Int(v), FieldKind::Int { max, .. }) => {
+                let n = if v < max { v + 1 } else { v - 1 };
+                (format!("{} = {n}\n", f.name), FieldValue::Int(n))
+            }
+            (FieldValue::Float(v), FieldKind::Float { max, .. }) => {
+                // A quarter up stays below each "below" partner's default.
+                let n = (v * 1.25).min(max);
+                (format!("{} = {n:?}\n", f.name), FieldValue::Float(n))
+            }
+            (FieldValue::Choice(i), FieldKind::Choice { names, .. }) => {
+                let n = (i + 1) % names.len();
+                (
+                    format!("{} = \"{}\"\n", f.name, names[n]),
+                    FieldValue::Choice(n),
+                )
+            }
+            other => panic!("{}: {other:?}", f.name),
+        };
+        let file = ConfigFile::parse(&text, "one.toml").unwrap();
+        // A changed profile brings its own defaults: compare with them.
+        let mut expect = if text.starts_with("profile") {
+            Config::field()
+        } else {
+            base
+        };
+        assert!((f.set)(&mut expect, want), "{}", f.name);
+        // Every new value is valid on its own and against its neighbours.
+        assert_eq!(build(&req, Some(&file)).unwrap(), expect, "{text}");
+    }
+}
+
+#[test]
 fn defaults_without_a_file_are_the_profiles() {
     let req = ConfigRequest {
         profile: None,
@@ -114,6 +185,30 @@ fn conflicts_and_bad_values_name_the_line() {
             "c.toml:2:1: config field `off_ratio` must be below `on_ratio`",
         ),
         ("x = 1\n", "c.toml:1:1: unknown field `x`"),
+        // Quoted and indented keys are located by the parser's spans.
+        (
+            "'debounce_on' = 0\n",
+            "c.toml:1:1: config field `debounce_on` is 0, expected a value from 1 to 255",
+        ),
+        (
+            "profile = \"touch\"\n   \"on_noise\" = 0.1\n",
+            "c.toml:2:4: config field `on_noise` is 0.1",
+        ),
+        // Beyond the field's type: the range, as validation gives it.
+        (
+            "spike_floor_codes = -1\n",
+            "c.toml:1:1: config field `spike_floor_codes` is -1, expected a value from 0 to 65535",
+        ),
+        // A key in a table is no field.
+        (
+            "[on_ratio]\nx = 1\n",
+            "c.toml:1:1: invalid type: map, expected f64",
+        ),
+        ("[ratio]\nx = 1\n", "c.toml:1:2: unknown field `ratio`"),
+        (
+            "debounce_on = 2.5\n",
+            "c.toml:1:15: invalid type: floating point `2.5`, expected i64",
+        ),
     ];
     for (text, want) in cases {
         let e = ConfigFile::parse(text, "c.toml").and_then(|f| build(&req, Some(&f)));
