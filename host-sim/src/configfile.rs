@@ -29,6 +29,7 @@
 //! everything; [`to_rust`] writes the same configuration as a `const` for
 //! firmware.
 
+use crate::text::line_col;
 use humsense::{Config, ConfigError, FieldInfo, FieldKind, FieldValue, MainsMode, Profile};
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
@@ -69,14 +70,6 @@ pub struct ConfigFile {
     pub text: String,
     /// Its settings, in the file's order.
     pub settings: Vec<Setting>,
-}
-
-/// 1-based (line, column) of byte offset `at` in `text`.
-fn line_col(text: &str, at: usize) -> (usize, usize) {
-    let before = text.get(..at).unwrap_or(text);
-    let line = before.matches('\n').count() + 1;
-    let col = before.chars().rev().take_while(|c| *c != '\n').count() + 1;
-    (line, col)
 }
 
 /// A serde error's message on one line.
