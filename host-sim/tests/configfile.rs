@@ -1,43 +1,30 @@
-//! Configuration files: TOML round trips, and the Rust snippet compiles.
+//! Configuration files: TOML round trips, messages, and the Rust snippet
+//! (compiled by tests/rust_snippet.rs) kept current.
 #![allow(clippy::unwrap_used)]
 
-use humsense::{Config, MainsMode, PanelMode};
+#[path = "support/unusual.rs"]
+mod support;
+
+use humsense::{Config, MainsMode};
 use humsim::configfile::{build, to_rust, to_toml, ConfigFile, ConfigRequest};
-
-/// A configuration unlike either profile's defaults in every enum and in
-/// several numbers.
-fn unusual() -> Config {
-    let mut c = Config::field().with_adc_bits(10).with_sample_rate(1_000);
-    c.mains = MainsMode::Hz60;
-    c.panel = PanelMode::Independent;
-    c.on_ratio = 1.7;
-    c.off_ratio = 1.3;
-    c.on_noise = 5.5;
-    c.off_noise = 2.2;
-    c.debounce_on = 4;
-    c.avg_shift = 3;
-    c
-}
-
-// The snippet written by `to_rust(&unusual())`, checked in and compiled
-// here: if the generator wrote something that does not compile, or the core
-// crate's `Config` changed shape, this test file fails to build.
-mod snippet {
-    include!("data/unusual_config.rs");
-    pub const fn get() -> humsense::Config {
-        CONFIG
-    }
-}
+use support::unusual;
 
 #[test]
-fn the_rust_snippet_compiles_and_equals_the_config() {
+fn the_checked_in_rust_snippet_is_current() {
+    // tests/rust_snippet.rs compiles the file; this test keeps it equal to
+    // what `to_rust` writes, and rewrites it with HUMSENSE_BLESS=1 (after a
+    // change to `Config`'s fields, when tests/rust_snippet.rs cannot build).
     let text = to_rust(&unusual());
-    let golden = include_str!("data/unusual_config.rs");
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/unusual_config.rs");
+    if std::env::var_os("HUMSENSE_BLESS").is_some() {
+        std::fs::write(&path, &text).unwrap();
+    }
+    let golden = std::fs::read_to_string(&path).unwrap();
     assert_eq!(
         text, golden,
-        "regenerate tests/data/unusual_config.rs:\n{text}"
+        "tests/data/unusual_config.rs is out of date: HUMSENSE_BLESS=1 cargo test -p humsim --test configfile"
     );
-    assert_eq!(snippet::get(), unusual());
 }
 
 #[test]
