@@ -649,10 +649,10 @@ impl Config {
     /// ));
     /// ```
     ///
-    /// Table-driven (one loop over [`RULES`] instead of one call per
-    /// field: flash on small cores) and integer only: `f32` fields are
-    /// compared by their [`order_key`]s, so no soft-float routine is
-    /// linked.
+    /// Table-driven (one loop over the table's range rules instead of one
+    /// call per field: flash on small cores) and integer only: `f32`
+    /// fields are compared by integer keys with the order of the floats,
+    /// so no soft-float routine is linked.
     pub fn validate(&self, harmonics: usize) -> Result<(), ConfigError> {
         for (i, rule) in RULES.iter().enumerate() {
             let v = self.raw(i);
