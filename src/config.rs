@@ -169,7 +169,7 @@ pub struct FieldInfo {
     pub name: &'static str,
     /// Its unit, for display (`"Hz"`, `"cycles"`; empty for enums).
     pub unit: &'static str,
-    /// Its doc comment, one line of text a source line.
+    /// Its doc comment, a line of text for each line of the source.
     pub doc: &'static str,
     /// Its kind and range.
     pub kind: FieldKind,
