@@ -66,6 +66,26 @@ pub enum ConfigError {
     },
 }
 
+impl ConfigError {
+    /// The name in [`Config`](crate::Config) of the field the error is
+    /// about (`sample_rate_hz` for [`Self::TooFewSamplesPerCycle`]; for
+    /// [`Self::NotBelow`] the field that must be smaller).
+    ///
+    /// ```
+    /// use humsense::Config;
+    /// let e = Config { off_ratio: 3.0, ..Config::touch() }.validate(0).unwrap_err();
+    /// assert_eq!(e.field(), "off_ratio");
+    /// ```
+    pub const fn field(&self) -> &'static str {
+        match *self {
+            Self::OutOfRange { field, .. }
+            | Self::NotFinite { field }
+            | Self::NotBelow { field, .. } => field,
+            Self::TooFewSamplesPerCycle { .. } => "sample_rate_hz",
+        }
+    }
+}
+
 impl fmt::Display for ConfigError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match *self {

@@ -18,7 +18,7 @@ pub mod nco;
 pub mod panel;
 pub mod queue;
 
-pub use config::{Config, MainsMode, PanelMode, Profile};
+pub use config::{Config, FieldInfo, FieldKind, FieldValue, MainsMode, PanelMode, Profile};
 pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};
 pub use edge::{EdgeConfig, EdgeDetector, EdgeInput, TimerWidth};
 pub use error::{ConfigError, ConfigValue};

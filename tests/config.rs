@@ -7,7 +7,7 @@
     clippy::panic
 )]
 
-use humsense::{Config, ConfigError, Detector, MainsMode, PanelMode, Profile};
+use humsense::{Config, ConfigError, Detector, FieldInfo, FieldKind, FieldValue, MainsMode};
 use proptest::prelude::*;
 use proptest::strategy::ValueTree;
 
@@ -15,16 +15,6 @@ fn refused(cfg: Config) -> ConfigError {
     match Detector::<1, 0>::new(cfg) {
         Ok(_) => panic!("config accepted: {cfg:?}"),
         Err(e) => e,
-    }
-}
-
-fn field_of(e: &ConfigError) -> &'static str {
-    match *e {
-        ConfigError::OutOfRange { field, .. }
-        | ConfigError::NotFinite { field }
-        | ConfigError::NotBelow { field, .. } => field,
-        ConfigError::TooFewSamplesPerCycle { .. } => "sample_rate_hz",
-        _ => "?",
     }
 }
 
@@ -80,7 +70,7 @@ fn each_invalid_field_is_named() {
         let mut cfg = Config::touch();
         edit(&mut cfg);
         let e = refused(cfg);
-        assert_eq!(field_of(&e), *field, "{e}");
+        assert_eq!(e.field(), *field, "{e}");
         // The message names the field, in backquotes.
         let msg = e.to_string();
         assert!(msg.contains(&format!("`{field}`")), "{msg}");
@@ -116,315 +106,125 @@ fn harmonic_bins_need_the_rate_for_them() {
     assert!(Detector::<1, 2>::new(Config::touch().with_sample_rate(872)).is_ok());
 }
 
-/// Every public field of `Config`, by its name in the struct.
-const FIELDS: [&str; 31] = [
-    "sample_rate_hz",
-    "adc_bits",
-    "mains",
-    "profile",
-    "spike_max_len",
-    "spike_floor_codes",
-    "track_min_codes",
-    "avg_shift",
-    "startup_cycles",
-    "baseline_rise_shift",
-    "baseline_fall_shift",
-    "noise_shift",
-    "on_noise",
-    "off_noise",
-    "on_ratio",
-    "off_ratio",
-    "floor_codes",
-    "debounce_on",
-    "debounce_off",
-    "min_active_cycles",
-    "max_active_cycles",
-    "levels",
-    "level_step_db",
-    "level_hysteresis_db",
-    "panel",
-    "ambient_ratio",
-    "fault_saturation_cycles",
-    "fault_stuck_cycles",
-    "nohum_codes",
-    "nohum_cycles",
-    "mains_lost_cycles",
-];
+/// Every public field of `Config`, from the core crate's table of them.
+const FIELDS: &[FieldInfo] = Config::FIELDS;
 
-/// An integer field: mostly within `lo..=hi` (passed a little wider than
-/// the documented range, so both sides of each limit are hit), sometimes
-/// any value of the type.
-macro_rules! int_field {
-    ($t:ty, $lo:expr, $hi:expr) => {
-        prop_oneof![
-            6 => $lo..=$hi,
-            1 => any::<$t>(),
-        ]
-    };
+/// The descriptor of field `name`.
+fn info(name: &str) -> &'static FieldInfo {
+    Config::FIELDS.iter().find(|f| f.name == name).unwrap()
 }
 
-/// An `f32` field: mostly within `lo..=hi`, sometimes exactly a limit,
-/// negative zero, or any value at all (NaN, infinities, subnormals).
-fn float_field(lo: f32, hi: f32) -> impl Strategy<Value = f32> + Clone {
-    prop_oneof![
-        8 => lo..=hi,
-        1 => Just(lo),
-        1 => Just(hi),
-        1 => Just(-0.0f32),
-        1 => any::<f32>(),
-    ]
+/// A field's value as an `f64`, for comparisons as numbers.
+fn number(v: FieldValue) -> f64 {
+    match v {
+        FieldValue::Int(x) => f64::from(x),
+        FieldValue::Float(x) => f64::from(x),
+        FieldValue::Choice(i) => i as f64,
+    }
 }
 
-fn any_mains() -> impl Strategy<Value = MainsMode> {
-    prop_oneof![
-        Just(MainsMode::Auto),
-        Just(MainsMode::Hz50),
-        Just(MainsMode::Hz60)
-    ]
+/// Near the low end of `lo..=hi`: where most rules between fields bite
+/// (the sample rate's harmonic limit, short debounces, small shifts).
+fn near_low(lo: u32, hi: u32) -> u32 {
+    lo.saturating_add((hi - lo) / 40 + 2).min(hi)
+}
+
+/// `f`'s strategy over any value, mostly near its range: an integer
+/// mostly from just outside either limit (so both sides of each are hit),
+/// sometimes any value of its type; an `f32` mostly within a little more
+/// than its range, sometimes exactly a limit, negative zero, or any value
+/// at all (NaN, infinities, subnormals); an enum any variant.
+fn wild_value(f: &FieldInfo) -> BoxedStrategy<FieldValue> {
+    match f.kind {
+        FieldKind::Int { type_max, min, max } => {
+            let (lo, hi) = (min.saturating_sub(1), max.saturating_add(1).min(type_max));
+            prop_oneof![
+                3 => lo..=hi,
+                3 => lo..=near_low(lo, hi),
+                1 => 0..=type_max,
+            ]
+            .prop_map(FieldValue::Int)
+            .boxed()
+        }
+        FieldKind::Float { min, max } => {
+            let margin = 0.1 + (max - min) / 1000.0;
+            prop_oneof![
+                8 => (min - margin)..=(max + margin),
+                1 => Just(min),
+                1 => Just(max),
+                1 => Just(-0.0f32),
+                1 => any::<f32>(),
+            ]
+            .prop_map(FieldValue::Float)
+            .boxed()
+        }
+        FieldKind::Choice { names, .. } => (0..names.len()).prop_map(FieldValue::Choice).boxed(),
+        _ => panic!("{}: a kind this test does not know", f.name),
+    }
+}
+
+/// `f`'s strategy within its own range. A field that must stay below
+/// another gets a fraction in `[0, 0.99)` of the way from its minimum to
+/// that field's value instead (see [`valid_config`]).
+fn valid_value(f: &FieldInfo) -> BoxedStrategy<FieldValue> {
+    match f.kind {
+        FieldKind::Int { min, max, .. } => prop_oneof![min..=near_low(min, max), min..=max]
+            .prop_map(FieldValue::Int)
+            .boxed(),
+        FieldKind::Float { .. } if f.below.is_some() => {
+            (0.0f32..0.99).prop_map(FieldValue::Float).boxed()
+        }
+        FieldKind::Float { min, max } => (min..=max).prop_map(FieldValue::Float).boxed(),
+        _ => wild_value(f),
+    }
+}
+
+/// A config with every field from its own strategy.
+fn config_from(values: Vec<FieldValue>) -> Config {
+    let mut c = Config::touch();
+    for (f, v) in FIELDS.iter().zip(values) {
+        assert!((f.set)(&mut c, v), "{}: {v:?}", f.name);
+    }
+    c
 }
 
 /// Every public field of `Config`, each from its own strategy, including
-/// values outside the documented ranges: validation refuses most. The
-/// struct literal names every field, so a new field fails to compile here.
+/// values outside the documented ranges: validation refuses most.
 fn wild_config() -> impl Strategy<Value = Config> {
-    let sizes = (
-        prop_oneof![
-            2 => 350u32..=1_200, // around the lowest rate and the harmonic limit
-            3 => 1_200u32..=50_100,
-            1 => any::<u32>(),
-        ],
-        int_field!(u8, 7u8, 17),
-        any_mains(),
-        prop_oneof![Just(Profile::Touch), Just(Profile::Field)],
-        int_field!(u8, 0u8, 9),
-        any::<u16>(),
-        float_field(-1.0, 10_001.0),
-        int_field!(u8, 0u8, 5),
-        int_field!(u16, 0u16, 100),
-    );
-    let baseline = (
-        int_field!(u8, 0u8, 17),
-        int_field!(u8, 0u8, 17),
-        int_field!(u8, 0u8, 17),
-        float_field(0.4, 1001.0),
-        float_field(-0.1, 1001.0),
-        float_field(0.9, 1001.0),
-        float_field(0.9, 1001.0),
-        float_field(-1.0, 10_001.0),
-    );
-    let decision = (
-        int_field!(u8, 0u8, 20),
-        int_field!(u8, 0u8, 20),
-        any::<u16>(),
-        prop_oneof![0u16..=200, any::<u16>()],
-        int_field!(u8, 0u8, 17),
-        float_field(0.4, 21.0),
-        float_field(-0.1, 21.0),
-        prop_oneof![Just(PanelMode::StrongestPad), Just(PanelMode::Independent)],
-        float_field(1.0, 101.0),
-    );
-    let faults = (
-        int_field!(u16, 0u16, 100),
-        int_field!(u16, 0u16, 100),
-        float_field(-1.0, 10_001.0),
-        int_field!(u16, 0u16, 2_000),
-        int_field!(u16, 0u16, 500),
-    );
-    (sizes, baseline, decision, faults).prop_map(
-        |(
-            (
-                sample_rate_hz,
-                adc_bits,
-                mains,
-                profile,
-                spike_max_len,
-                spike_floor_codes,
-                track_min_codes,
-                avg_shift,
-                startup_cycles,
-            ),
-            (
-                baseline_rise_shift,
-                baseline_fall_shift,
-                noise_shift,
-                on_noise,
-                off_noise,
-                on_ratio,
-                off_ratio,
-                floor_codes,
-            ),
-            (
-                debounce_on,
-                debounce_off,
-                min_active_cycles,
-                max_active_cycles,
-                levels,
-                level_step_db,
-                level_hysteresis_db,
-                panel,
-                ambient_ratio,
-            ),
-            (
-                fault_saturation_cycles,
-                fault_stuck_cycles,
-                nohum_codes,
-                nohum_cycles,
-                mains_lost_cycles,
-            ),
-        )| Config {
-            sample_rate_hz,
-            adc_bits,
-            mains,
-            profile,
-            spike_max_len,
-            spike_floor_codes,
-            track_min_codes,
-            avg_shift,
-            startup_cycles,
-            baseline_rise_shift,
-            baseline_fall_shift,
-            noise_shift,
-            on_noise,
-            off_noise,
-            on_ratio,
-            off_ratio,
-            floor_codes,
-            debounce_on,
-            debounce_off,
-            min_active_cycles,
-            max_active_cycles,
-            levels,
-            level_step_db,
-            level_hysteresis_db,
-            panel,
-            ambient_ratio,
-            fault_saturation_cycles,
-            fault_stuck_cycles,
-            nohum_codes,
-            nohum_cycles,
-            mains_lost_cycles,
-        },
-    )
+    FIELDS
+        .iter()
+        .map(wild_value)
+        .collect::<Vec<_>>()
+        .prop_map(config_from)
 }
 
 /// Every public field of `Config` within its documented range (the
-/// fields that must stay below another drawn as a fraction of it).
+/// fields that must stay below another drawn as a fraction of it; the
+/// rules between two integer fields applied afterwards).
 fn valid_config() -> impl Strategy<Value = Config> {
-    let a = (
-        prop_oneof![400u32..=1_000, 400u32..=50_000],
-        8u8..=16,
-        any_mains(),
-        prop_oneof![Just(Profile::Touch), Just(Profile::Field)],
-        0u8..=8,
-        any::<u16>(),
-        0.0f32..=10_000.0,
-        0u8..=4,
-        prop_oneof![1u16..=60, any::<u16>().prop_map(|v| v.max(1))],
-        1u8..=16,
-        1u8..=16,
-        1u8..=16,
-    );
-    let b = (
-        0.5f32..=1000.0,
-        0.0f32..0.99,
-        1.01f32..=1000.0,
-        0.0f32..0.99,
-        0.0f32..=10_000.0,
-        1u8..=255,
-        1u8..=255,
-        any::<u16>(),
-        any::<u16>(),
-        1u8..=16,
-        0.5f32..=20.0,
-        0.0f32..0.99,
-    );
-    let c = (
-        prop_oneof![Just(PanelMode::StrongestPad), Just(PanelMode::Independent)],
-        1.05f32..=100.0,
-        1u16..=65_535,
-        1u16..=65_535,
-        0.0f32..=10_000.0,
-        1u16..=65_535,
-        1u16..=65_535,
-    );
-    (a, b, c).prop_map(
-        |(
-            (
-                sample_rate_hz,
-                adc_bits,
-                mains,
-                profile,
-                spike_max_len,
-                spike_floor_codes,
-                track_min_codes,
-                avg_shift,
-                startup_cycles,
-                baseline_rise_shift,
-                fall,
-                noise_shift,
-            ),
-            (
-                on_noise,
-                off_noise_t,
-                on_ratio,
-                off_ratio_t,
-                floor_codes,
-                debounce_on,
-                debounce_off,
-                min_active_cycles,
-                max_active_cycles,
-                levels,
-                level_step_db,
-                hysteresis_t,
-            ),
-            (
-                panel,
-                ambient_ratio,
-                fault_saturation_cycles,
-                fault_stuck_cycles,
-                nohum_codes,
-                nohum_cycles,
-                mains_lost_cycles,
-            ),
-        )| Config {
-            sample_rate_hz,
-            adc_bits,
-            mains,
-            profile,
-            spike_max_len,
-            spike_floor_codes,
-            track_min_codes,
-            avg_shift,
-            startup_cycles,
-            baseline_rise_shift,
-            baseline_fall_shift: fall.min(baseline_rise_shift),
-            noise_shift,
-            on_noise,
-            off_noise: on_noise * off_noise_t,
-            on_ratio,
-            off_ratio: 1.0 + (on_ratio - 1.0) * off_ratio_t,
-            floor_codes,
-            debounce_on,
-            debounce_off,
+    FIELDS
+        .iter()
+        .map(valid_value)
+        .collect::<Vec<_>>()
+        .prop_map(|values| {
+            let mut c = config_from(values);
+            for f in FIELDS {
+                if let (Some(other), FieldKind::Float { min, .. }, FieldValue::Float(t)) =
+                    (f.below, f.kind, (f.get)(&c))
+                {
+                    let FieldValue::Float(big) = (info(other).get)(&c) else {
+                        panic!("{other} is no f32 field");
+                    };
+                    assert!((f.set)(&mut c, FieldValue::Float(min + (big - min) * t)));
+                }
+            }
+            c.baseline_fall_shift = c.baseline_fall_shift.min(c.baseline_rise_shift);
             // At most max_active_cycles unless that is 0 (validation).
-            min_active_cycles: if max_active_cycles == 0 {
-                min_active_cycles
-            } else {
-                min_active_cycles.min(max_active_cycles)
-            },
-            max_active_cycles,
-            levels,
-            level_step_db,
-            level_hysteresis_db: level_step_db * hysteresis_t,
-            panel,
-            ambient_ratio,
-            fault_saturation_cycles,
-            fault_stuck_cycles,
-            nohum_codes,
-            nohum_cycles,
-            mains_lost_cycles,
-        },
-    )
+            if c.max_active_cycles != 0 {
+                c.min_active_cycles = c.min_active_cycles.min(c.max_active_cycles);
+            }
+            c
+        })
 }
 
 /// A config over every field: a valid one with each field, one time in
@@ -446,13 +246,28 @@ fn any_config() -> impl Strategy<Value = Config> {
         })
 }
 
-/// The documented ranges (the doc comments on `Config`'s fields), written
-/// out again independently of `Config::validate`: whether `c` should be
-/// accepted by a detector with `harmonics` extra bins. Float limits are
-/// compared as floats (so NaN fails every one, and −0.0 counts as 0).
+/// Whether `c` should be accepted by a detector with `harmonics` extra
+/// bins: each field within its documented range (the ranges of
+/// `Config::FIELDS`, which the core crate's unit test
+/// `the_docs_state_the_checked_ranges` ties to the field docs), compared
+/// as numbers here (so NaN fails every limit and −0.0 counts as 0), not
+/// by the order keys `Config::validate` uses; the `below` rules compared
+/// as floats; and the rules the field docs state in words, written out
+/// again here independently of `Config::validate`.
 fn documented_valid(c: &Config, harmonics: u32) -> bool {
-    let int = |v: u32, lo: u32, hi: u32| (lo..=hi).contains(&v);
-    let float = |v: f32, lo: f32, hi: f32| v.is_finite() && v >= lo && v <= hi;
+    let own_ranges = FIELDS.iter().all(|f| {
+        let v = (f.get)(c);
+        let x = number(v);
+        let in_range = match f.kind {
+            FieldKind::Int { min, max, .. } => (f64::from(min)..=f64::from(max)).contains(&x),
+            FieldKind::Float { min, max } => {
+                x.is_finite() && x >= f64::from(min) && x <= f64::from(max)
+            }
+            _ => true,
+        };
+        let below = f.below.is_none_or(|other| x < number((info(other).get)(c)));
+        in_range && below
+    });
     // Rate ≥ 4.4 · f_top · (H + 1), f_top the top of the tracking range
     // (66 Hz in automatic mode, 54 Hz for 50 Hz, 64.8 Hz for 60 Hz).
     let top = match c.mains {
@@ -460,102 +275,142 @@ fn documented_valid(c: &Config, harmonics: u32) -> bool {
         MainsMode::Hz50 => 54.0,
         MainsMode::Hz60 => 64.8,
     };
-    int(c.sample_rate_hz, 400, 50_000)
+    own_ranges
         && f64::from(c.sample_rate_hz) >= 4.4 * top * f64::from(harmonics + 1)
-        && int(c.adc_bits.into(), 8, 16)
-        && int(c.spike_max_len.into(), 0, 8)
-        && float(c.track_min_codes, 0.0, 10_000.0)
-        && int(c.avg_shift.into(), 0, 4)
-        && int(c.startup_cycles.into(), 1, 65_535)
-        && int(c.baseline_rise_shift.into(), 1, 16)
-        && int(c.baseline_fall_shift.into(), 1, 16)
+        // baseline_fall_shift's doc: not above baseline_rise_shift.
         && c.baseline_fall_shift <= c.baseline_rise_shift
         // min_active_cycles' doc: at most max_active_cycles unless that is 0.
         && (c.max_active_cycles == 0 || c.min_active_cycles <= c.max_active_cycles)
-        && int(c.noise_shift.into(), 1, 16)
-        && float(c.on_noise, 0.5, 1000.0)
-        && float(c.off_noise, 0.0, 1000.0)
-        && c.off_noise < c.on_noise
-        && float(c.on_ratio, 1.01, 1000.0)
-        && float(c.off_ratio, 1.0, 1000.0)
-        && c.off_ratio < c.on_ratio
-        && float(c.floor_codes, 0.0, 10_000.0)
-        && int(c.debounce_on.into(), 1, 255)
-        && int(c.debounce_off.into(), 1, 255)
-        && int(c.levels.into(), 1, 16)
-        && float(c.level_step_db, 0.5, 20.0)
-        && float(c.level_hysteresis_db, 0.0, 20.0)
-        && c.level_hysteresis_db < c.level_step_db
-        && float(c.ambient_ratio, 1.05, 100.0)
-        && int(c.fault_saturation_cycles.into(), 1, 65_535)
-        && int(c.fault_stuck_cycles.into(), 1, 65_535)
-        && float(c.nohum_codes, 0.0, 10_000.0)
-        && int(c.nohum_cycles.into(), 1, 65_535)
-        && int(c.mains_lost_cycles.into(), 1, 65_535)
 }
 
 /// The fields an error about `field` may name besides `field` itself when
 /// only `field` was changed: the other side of a rule between two fields.
-fn partners(field: &str) -> &'static [&'static str] {
-    match field {
-        "baseline_rise_shift" => &["baseline_fall_shift"],
+fn partners(field: &str) -> Vec<&'static str> {
+    let mut p: Vec<&'static str> = FIELDS
+        .iter()
+        .filter(|f| f.below == Some(field))
+        .map(|f| f.name)
+        .collect();
+    p.extend(match field {
+        "baseline_rise_shift" => &["baseline_fall_shift"][..],
         "max_active_cycles" => &["min_active_cycles"],
-        "on_noise" => &["off_noise"],
-        "on_ratio" => &["off_ratio"],
-        "level_step_db" => &["level_hysteresis_db"],
         // The harmonic bins' rate rule depends on the tracking range.
         "mains" => &["sample_rate_hz"],
         _ => &[],
-    }
+    });
+    p
 }
 
 /// `base` with field `k` of `FIELDS` taken from `from`.
 fn with_field(base: Config, from: &Config, k: usize) -> Config {
+    let f = &FIELDS[k];
     let mut c = base;
-    match FIELDS[k] {
-        "sample_rate_hz" => c.sample_rate_hz = from.sample_rate_hz,
-        "adc_bits" => c.adc_bits = from.adc_bits,
-        "mains" => c.mains = from.mains,
-        "profile" => c.profile = from.profile,
-        "spike_max_len" => c.spike_max_len = from.spike_max_len,
-        "spike_floor_codes" => c.spike_floor_codes = from.spike_floor_codes,
-        "track_min_codes" => c.track_min_codes = from.track_min_codes,
-        "avg_shift" => c.avg_shift = from.avg_shift,
-        "startup_cycles" => c.startup_cycles = from.startup_cycles,
-        "baseline_rise_shift" => c.baseline_rise_shift = from.baseline_rise_shift,
-        "baseline_fall_shift" => c.baseline_fall_shift = from.baseline_fall_shift,
-        "noise_shift" => c.noise_shift = from.noise_shift,
-        "on_noise" => c.on_noise = from.on_noise,
-        "off_noise" => c.off_noise = from.off_noise,
-        "on_ratio" => c.on_ratio = from.on_ratio,
-        "off_ratio" => c.off_ratio = from.off_ratio,
-        "floor_codes" => c.floor_codes = from.floor_codes,
-        "debounce_on" => c.debounce_on = from.debounce_on,
-        "debounce_off" => c.debounce_off = from.debounce_off,
-        "min_active_cycles" => c.min_active_cycles = from.min_active_cycles,
-        "max_active_cycles" => c.max_active_cycles = from.max_active_cycles,
-        "levels" => c.levels = from.levels,
-        "level_step_db" => c.level_step_db = from.level_step_db,
-        "level_hysteresis_db" => c.level_hysteresis_db = from.level_hysteresis_db,
-        "panel" => c.panel = from.panel,
-        "ambient_ratio" => c.ambient_ratio = from.ambient_ratio,
-        "fault_saturation_cycles" => c.fault_saturation_cycles = from.fault_saturation_cycles,
-        "fault_stuck_cycles" => c.fault_stuck_cycles = from.fault_stuck_cycles,
-        "nohum_codes" => c.nohum_codes = from.nohum_codes,
-        "nohum_cycles" => c.nohum_cycles = from.nohum_cycles,
-        "mains_lost_cycles" => c.mains_lost_cycles = from.mains_lost_cycles,
-        other => panic!("unknown field {other}"),
-    }
+    assert!((f.set)(&mut c, (f.get)(from)), "{}", f.name);
     c
 }
 
 /// The error names a field of `Config`, in backquotes in its message.
 fn names_a_real_field(e: &ConfigError) -> &'static str {
-    let field = field_of(e);
-    assert!(FIELDS.contains(&field), "{e:?} names no field of Config");
+    let field = e.field();
+    assert!(
+        FIELDS.iter().any(|f| f.name == field),
+        "{e:?} names no field of Config"
+    );
     let msg = e.to_string();
     assert!(msg.contains(&format!("`{field}`")), "{msg}");
     field
+}
+
+#[test]
+fn every_value_just_outside_a_range_is_refused_and_named() {
+    // Each limit of each field's documented range, and the value just
+    // beyond it (the next integer, the next f32 by its bits), on both
+    // profiles; NaN and the infinities for every f32 field.
+    for base in [Config::touch(), Config::field()] {
+        for f in FIELDS {
+            let mut probes = Vec::new();
+            match f.kind {
+                FieldKind::Int { type_max, min, max } => {
+                    if min > 0 {
+                        probes.push((FieldValue::Int(min - 1), false));
+                    }
+                    if max < type_max {
+                        probes.push((FieldValue::Int(max + 1), false));
+                    }
+                    probes.push((FieldValue::Int(min), true));
+                    probes.push((FieldValue::Int(max), true));
+                }
+                FieldKind::Float { min, max } => {
+                    // The next f32 below a non-negative `min` (−1e-45 below 0).
+                    let below_min = if min == 0.0 {
+                        -f32::from_bits(1)
+                    } else {
+                        f32::from_bits(min.to_bits() - 1)
+                    };
+                    let above_max = f32::from_bits(max.to_bits() + 1);
+                    for v in [
+                        below_min,
+                        above_max,
+                        f32::NAN,
+                        f32::INFINITY,
+                        f32::NEG_INFINITY,
+                    ] {
+                        probes.push((FieldValue::Float(v), false));
+                    }
+                    probes.push((FieldValue::Float(min), true));
+                    probes.push((FieldValue::Float(max), true));
+                }
+                _ => continue,
+            }
+            for (v, inside) in probes {
+                let mut c = base;
+                assert!((f.set)(&mut c, v));
+                let result = Detector::<1, 0>::new(c).map(|_| ());
+                if inside {
+                    // A limit itself may still break a rule between two
+                    // fields (a hysteresis at its maximum is above its
+                    // step): the documented rules decide.
+                    assert_eq!(
+                        result.is_ok(),
+                        documented_valid(&c, 0),
+                        "{} = {v:?}: {result:?}",
+                        f.name
+                    );
+                } else {
+                    let e = result.expect_err(f.name);
+                    assert_eq!(names_a_real_field(&e), f.name, "{} = {v:?}: {e}", f.name);
+                }
+            }
+        }
+    }
+}
+
+#[test]
+fn every_below_rule_refuses_equality_and_accepts_just_below() {
+    // Strictly below: equal to the other field is refused, naming both;
+    // the next f32 under it is accepted.
+    for base in [Config::touch(), Config::field()] {
+        for f in FIELDS {
+            let Some(other) = f.below else { continue };
+            let FieldValue::Float(big) = (info(other).get)(&base) else {
+                panic!("{other}")
+            };
+            let mut c = base;
+            assert!((f.set)(&mut c, FieldValue::Float(big)));
+            assert_eq!(
+                refused(c),
+                ConfigError::NotBelow {
+                    field: f.name,
+                    other
+                }
+            );
+            assert!((f.set)(
+                &mut c,
+                FieldValue::Float(f32::from_bits(big.to_bits() - 1))
+            ));
+            assert!(Detector::<1, 0>::new(c).is_ok(), "{}", f.name);
+        }
+    }
 }
 
 #[test]
@@ -581,7 +436,7 @@ fn the_strategy_covers_every_field_and_both_outcomes() {
         }
     }
     for (k, d) in differs.iter().enumerate() {
-        assert!(d, "field {} never varies", FIELDS[k]);
+        assert!(d, "field {} never varies", FIELDS[k].name);
     }
     assert!(
         accepted >= 100 && refused >= 100,
@@ -620,7 +475,7 @@ proptest! {
         let c = with_field(base, &from, k);
         if let Err(e) = Detector::<1, 2>::new(c) {
             let named = names_a_real_field(&e);
-            let field = FIELDS[k];
+            let field = FIELDS[k].name;
             prop_assert!(
                 named == field || partners(field).contains(&named),
                 "changed {} but the error names {}: {}", field, named, e

@@ -8,6 +8,7 @@
 //! RMS) is applied to first order: the sample taken at `t + δ` reads
 //! `v(t) + δ · dv/dt`, the slope estimated from the previous sample.
 
+use crate::field_error::FieldError;
 use crate::rng::Rng;
 
 /// Converter configuration.
@@ -53,28 +54,37 @@ impl Default for Adc {
 }
 
 impl Adc {
-    /// Checks the configuration; the message names the field.
-    pub fn validate(&self) -> Result<(), String> {
+    /// Checks the configuration; the error names the field.
+    pub fn validate(&self) -> Result<(), FieldError> {
         if !(8..=16).contains(&self.bits) {
-            return Err(format!("bits: expected 8..=16, got {}", self.bits));
+            return Err(FieldError::new(
+                "bits",
+                format!("expected 8..=16, got {}", self.bits),
+            ));
         }
         if !(self.vref_v.is_finite() && self.vref_v > 0.0) {
-            return Err("vref_v: expected a reference voltage > 0".into());
+            return Err(FieldError::new(
+                "vref_v",
+                "expected a reference voltage > 0",
+            ));
         }
         if !(self.rate_hz.is_finite() && self.rate_hz >= 100.0 && self.rate_hz <= 1e6) {
-            return Err(format!(
-                "rate_hz: expected 100..=1000000 Hz, got {}",
-                self.rate_hz
+            return Err(FieldError::new(
+                "rate_hz",
+                format!("expected 100..=1000000 Hz, got {}", self.rate_hz),
             ));
         }
         if !(self.noise_v.is_finite() && self.noise_v >= 0.0) {
-            return Err("noise_v: expected >= 0 volts RMS".into());
+            return Err(FieldError::new("noise_v", "expected >= 0 volts RMS"));
         }
         if !(self.jitter_s.is_finite()
             && self.jitter_s >= 0.0
             && self.jitter_s < 0.5 / self.rate_hz)
         {
-            return Err("jitter_s: expected >= 0 and below half a sample period".into());
+            return Err(FieldError::new(
+                "jitter_s",
+                "expected >= 0 and below half a sample period",
+            ));
         }
         Ok(())
     }
@@ -118,6 +128,21 @@ impl Adc {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn each_refusal_names_its_field() {
+        let a = Adc::default();
+        let field = |b: Adc| b.validate().unwrap_err().field;
+        assert_eq!(field(Adc { bits: 17, ..a }), "bits");
+        assert_eq!(field(Adc { vref_v: 0.0, ..a }), "vref_v");
+        assert_eq!(field(Adc { rate_hz: 99.0, ..a }), "rate_hz");
+        assert_eq!(field(Adc { noise_v: -1.0, ..a }), "noise_v");
+        assert_eq!(field(Adc { jitter_s: 1.0, ..a }), "jitter_s");
+        assert_eq!(
+            Adc { bits: 7, ..a }.validate().unwrap_err().to_string(),
+            "bits: expected 8..=16, got 7"
+        );
+    }
 
     #[test]
     fn quantiser_clamps_and_rounds() {

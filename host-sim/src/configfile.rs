@@ -3,8 +3,12 @@
 //! A TOML table of [`humsense::Config`]'s fields, each optional, by the
 //! field's own name and in its own unit; enums as strings:
 //! `profile = "touch" | "field"`, `mains = "auto" | "50" | "60"`,
-//! `panel = "strongest-pad" | "independent"`. Unknown keys are errors that
-//! name the key, the line and the column.
+//! `panel = "strongest-pad" | "independent"`. The fields, their kinds and
+//! their names come from [`Config::FIELDS`] (the core crate's one table of
+//! them), so a new field of `Config` is read and written here without an
+//! edit. Unknown keys are errors that name the key, the line and the
+//! column; every message about a key points at it, from the spans the TOML
+//! parser records ([`toml::Spanned`]).
 //!
 //! How the final configuration is built, in this order:
 //! 1. the profile's defaults ([`Config::touch`] or [`Config::field`]), the
@@ -17,94 +21,122 @@
 //! 4. every other field the file gives replaces the default. The file's
 //!    `sample_rate_hz` and `adc_bits`, when present, must equal the input's
 //!    (a configuration tuned at one rate means something else at another);
-//! 5. validated by the core crate: a refused field is reported with the
-//!    file's line where the field was set.
+//! 5. validated by the core crate ([`Config::validate`]): a refused field
+//!    is reported at the line and column of its key, when the file sets it
+//!    (the error names the field: [`ConfigError::field`]).
 //!
 //! [`to_toml`] writes every field, so a file from `humsim tune` says
 //! everything; [`to_rust`] writes the same configuration as a `const` for
 //! firmware.
 
-use humsense::{Backend, Config, ConfigError, MainsMode, PanelMode, Profile};
-use serde::Deserialize;
+use crate::text::line_col;
+use humsense::{Config, ConfigError, FieldInfo, FieldKind, FieldValue, MainsMode, Profile};
+use std::collections::BTreeMap;
 use std::fmt::Write as _;
+use std::ops::Range;
 use std::path::Path;
+use toml::Spanned;
 
-/// The file's fields: [`Config`]'s, all optional. Integers are read wide
-/// and checked against the field's own type, so a value that does not fit
-/// is reported rather than wrapped.
-#[derive(Debug, Clone, Default, Deserialize)]
-#[serde(deny_unknown_fields)]
-#[allow(missing_docs)]
-pub struct ConfigToml {
-    pub profile: Option<String>,
-    pub mains: Option<String>,
-    pub panel: Option<String>,
-    pub sample_rate_hz: Option<i64>,
-    pub adc_bits: Option<i64>,
-    pub spike_max_len: Option<i64>,
-    pub spike_floor_codes: Option<i64>,
-    pub track_min_codes: Option<f64>,
-    pub avg_shift: Option<i64>,
-    pub startup_cycles: Option<i64>,
-    pub baseline_rise_shift: Option<i64>,
-    pub baseline_fall_shift: Option<i64>,
-    pub noise_shift: Option<i64>,
-    pub on_noise: Option<f64>,
-    pub off_noise: Option<f64>,
-    pub on_ratio: Option<f64>,
-    pub off_ratio: Option<f64>,
-    pub floor_codes: Option<f64>,
-    pub debounce_on: Option<i64>,
-    pub debounce_off: Option<i64>,
-    pub min_active_cycles: Option<i64>,
-    pub max_active_cycles: Option<i64>,
-    pub levels: Option<i64>,
-    pub level_step_db: Option<f64>,
-    pub level_hysteresis_db: Option<f64>,
-    pub ambient_ratio: Option<f64>,
-    pub fault_saturation_cycles: Option<i64>,
-    pub fault_stuck_cycles: Option<i64>,
-    pub nohum_codes: Option<f64>,
-    pub nohum_cycles: Option<i64>,
-    pub mains_lost_cycles: Option<i64>,
+/// A value the file gives for a field, already of the field's kind (the
+/// field's type and range are checked when the configuration is built).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Given {
+    /// An integer field's value, read wide so that one too large or
+    /// negative is reported rather than wrapped.
+    Int(i64),
+    /// An `f32` field's value as the file writes it.
+    Float(f64),
+    /// An enum field's value: its name.
+    Name(String),
 }
 
-/// A parsed configuration file with its text, for locating keys in errors.
+/// One key of the file: the field it sets, where the key is, and the value.
+#[derive(Debug, Clone)]
+pub struct Setting {
+    /// The field, from [`Config::FIELDS`].
+    pub field: &'static FieldInfo,
+    /// Byte range of the key in the file's text.
+    pub key_span: Range<usize>,
+    /// The value.
+    pub value: Given,
+}
+
+/// A parsed configuration file.
 #[derive(Debug, Clone)]
 pub struct ConfigFile {
     /// File name as given.
     pub name: String,
     /// Its text.
     pub text: String,
-    /// Its fields.
-    pub fields: ConfigToml,
+    /// Its settings, in the file's order.
+    pub settings: Vec<Setting>,
 }
 
-/// 1-based (line, column) of byte offset `at` in `text`.
-fn line_col(text: &str, at: usize) -> (usize, usize) {
-    let before = text.get(..at).unwrap_or(text);
-    let line = before.matches('\n').count() + 1;
-    let col = before.chars().rev().take_while(|c| *c != '\n').count() + 1;
-    (line, col)
+/// A serde error's message on one line.
+fn one_line(msg: &str) -> String {
+    msg.trim().lines().collect::<Vec<_>>().join("; ")
+}
+
+/// `value` read as the kind of `field` holds, or the message serde gives
+/// for the wrong type (`invalid type: string "high", expected f64`).
+fn given(field: &FieldInfo, value: toml::Value) -> Result<Given, String> {
+    use serde::Deserialize as _;
+    let wrong = |e: toml::de::Error| one_line(e.message());
+    Ok(match field.kind {
+        FieldKind::Int { .. } => Given::Int(i64::deserialize(value).map_err(wrong)?),
+        FieldKind::Float { .. } => Given::Float(f64::deserialize(value).map_err(wrong)?),
+        _ => Given::Name(String::deserialize(value).map_err(wrong)?),
+    })
 }
 
 impl ConfigFile {
-    /// Parses configuration TOML; `name` labels the source in errors.
+    /// Parses configuration TOML; `name` labels the source in errors. Keys
+    /// that are no field of [`Config`] and values of the wrong type are
+    /// refused here, the first in the file first.
     pub fn parse(text: &str, name: &str) -> Result<ConfigFile, String> {
-        let fields: ConfigToml = toml::from_str(text).map_err(|e| {
-            let msg = e.message().trim().lines().collect::<Vec<_>>().join("; ");
-            match e.span() {
-                Some(span) => {
-                    let (l, c) = line_col(text, span.start);
-                    format!("{name}:{l}:{c}: {msg}")
+        let at = |span: Range<usize>, msg: &str| {
+            let (l, c) = line_col(text, span.start);
+            format!("{name}:{l}:{c}: {msg}")
+        };
+        let table: BTreeMap<Spanned<String>, Spanned<toml::Value>> =
+            toml::from_str(text).map_err(|e| {
+                let msg = one_line(e.message());
+                match e.span() {
+                    Some(span) => at(span, &msg),
+                    None => format!("{name}: {msg}"),
                 }
-                None => format!("{name}: {msg}"),
-            }
-        })?;
+            })?;
+        let mut entries: Vec<_> = table.into_iter().collect();
+        entries.sort_by_key(|(k, _)| k.span().start);
+        let mut settings = Vec::with_capacity(entries.len());
+        for (key, value) in entries {
+            let key_span = key.span();
+            let Some(field) = Config::FIELDS.iter().find(|f| f.name == key.get_ref()) else {
+                let known: Vec<String> = Config::FIELDS
+                    .iter()
+                    .map(|f| format!("`{}`", f.name))
+                    .collect();
+                return Err(at(
+                    key_span,
+                    &format!(
+                        "unknown field `{}`, expected one of {}",
+                        key.get_ref(),
+                        known.join(", ")
+                    ),
+                ));
+            };
+            let value_span = value.span();
+            let value = given(field, value.into_inner()).map_err(|m| at(value_span, &m))?;
+            settings.push(Setting {
+                field,
+                key_span,
+                value,
+            });
+        }
         Ok(ConfigFile {
             name: name.to_string(),
             text: text.to_string(),
-            fields,
+            settings,
         })
     }
 
@@ -115,64 +147,95 @@ impl ConfigFile {
         Self::parse(&text, &name)
     }
 
-    /// `NAME:LINE:COL` of `key` (or just `NAME` when not found), written
-    /// bare (`key = …`) or quoted (`"key" = …`, `'key' = …`), as TOML allows.
-    pub fn locate(&self, key: &str) -> String {
-        let forms = [key.to_string(), format!("\"{key}\""), format!("'{key}'")];
-        for (i, line) in self.text.split_inclusive('\n').enumerate() {
-            let t = line.trim_start();
-            let found = forms.iter().any(|f| {
-                t.strip_prefix(f.as_str())
-                    .is_some_and(|rest| rest.trim_start().starts_with('='))
-            });
-            if found {
-                let col = line.len() - t.len() + 1;
-                return format!("{}:{}:{col}", self.name, i + 1);
+    /// The setting of field `name`, if the file gives one.
+    pub fn get(&self, name: &str) -> Option<&Setting> {
+        self.settings.iter().find(|s| s.field.name == name)
+    }
+
+    /// `NAME:LINE:COL` of field `name`'s key, or just `NAME` when the file
+    /// does not set it.
+    pub fn locate(&self, name: &str) -> String {
+        match self.get(name) {
+            Some(s) => {
+                let (l, c) = line_col(&self.text, s.key_span.start);
+                format!("{}:{l}:{c}", self.name)
             }
+            None => self.name.clone(),
         }
-        self.name.clone()
     }
 }
 
-/// Parses `touch` / `field`.
+/// The field named `name` of [`Config::FIELDS`].
+fn field(name: &str) -> Option<&'static FieldInfo> {
+    Config::FIELDS.iter().find(|f| f.name == name)
+}
+
+/// The names in files of an enum field's variants.
+fn choice_names(f: &FieldInfo) -> &'static [&'static str] {
+    match f.kind {
+        FieldKind::Choice { names, .. } => names,
+        _ => &[],
+    }
+}
+
+/// `"a"`, `"a" or "b"`, `"a", "b" or "c"`.
+fn alternatives(names: &[&str]) -> String {
+    let quoted: Vec<String> = names.iter().map(|n| format!("\"{n}\"")).collect();
+    match quoted.split_last() {
+        Some((last, [])) => last.clone(),
+        Some((last, rest)) => format!("{} or {last}", rest.join(", ")),
+        None => String::new(),
+    }
+}
+
+/// The position of the variant of enum field `name` whose name in files
+/// is `s`.
+fn choose(name: &str, s: &str) -> Option<usize> {
+    choice_names(field(name)?).iter().position(|n| *n == s)
+}
+
+/// The name in files of `c`'s value of enum field `name`.
+fn name_of(c: &Config, name: &str) -> &'static str {
+    match field(name).map(|f| ((f.get)(c), choice_names(f))) {
+        Some((FieldValue::Choice(i), names)) => names.get(i).copied().unwrap_or("?"),
+        _ => "?",
+    }
+}
+
+/// `c` with enum field `name` set to the variant named `s` in files.
+fn with_choice(mut c: Config, name: &str, s: &str) -> Option<Config> {
+    let f = field(name)?;
+    (f.set)(&mut c, FieldValue::Choice(choose(name, s)?)).then_some(c)
+}
+
+/// Parses `touch` / `field` (the names in [`Config::FIELDS`]).
 pub fn parse_profile(s: &str) -> Option<Profile> {
-    match s {
-        "touch" => Some(Profile::Touch),
-        "field" => Some(Profile::Field),
-        _ => None,
-    }
+    with_choice(Config::touch(), "profile", s).map(|c| c.profile)
 }
 
-/// Parses `auto` / `50` / `60`.
+/// Parses `auto` / `50` / `60` (the names in [`Config::FIELDS`]).
 pub fn parse_mains(s: &str) -> Option<MainsMode> {
-    match s {
-        "auto" => Some(MainsMode::Auto),
-        "50" => Some(MainsMode::Hz50),
-        "60" => Some(MainsMode::Hz60),
-        _ => None,
-    }
-}
-
-fn mains_name(m: MainsMode) -> &'static str {
-    match m {
-        MainsMode::Auto => "auto",
-        MainsMode::Hz50 => "50",
-        MainsMode::Hz60 => "60",
-    }
+    with_choice(Config::touch(), "mains", s).map(|c| c.mains)
 }
 
 fn profile_name(p: Profile) -> &'static str {
-    match p {
-        Profile::Touch => "touch",
-        Profile::Field => "field",
-    }
+    name_of(
+        &Config {
+            profile: p,
+            ..Config::touch()
+        },
+        "profile",
+    )
 }
 
-fn panel_name(p: PanelMode) -> &'static str {
-    match p {
-        PanelMode::StrongestPad => "strongest-pad",
-        PanelMode::Independent => "independent",
-    }
+fn mains_name(m: MainsMode) -> &'static str {
+    name_of(
+        &Config {
+            mains: m,
+            ..Config::touch()
+        },
+        "mains",
+    )
 }
 
 /// What the command line and the input fix.
@@ -188,37 +251,34 @@ pub struct ConfigRequest {
     pub rate_hz: u32,
 }
 
-/// The message for a refused configuration, located in `file` if the field
-/// was set there.
+/// The message for a refused configuration, located in `file` at the key
+/// of the field it names, if the file sets that field.
 pub fn config_error(e: &ConfigError, file: Option<&ConfigFile>) -> String {
-    let field = match e {
-        ConfigError::OutOfRange { field, .. }
-        | ConfigError::NotFinite { field }
-        | ConfigError::NotBelow { field, .. } => Some(*field),
-        ConfigError::TooFewSamplesPerCycle { .. } => Some("sample_rate_hz"),
-        _ => None,
-    };
-    match (file, field) {
-        (Some(f), Some(k)) if f.locate(k) != f.name => format!("{}: {e}", f.locate(k)),
-        (Some(f), _) => format!("{}: {e}", f.name),
-        (None, _) => e.to_string(),
+    match file {
+        Some(f) => format!("{}: {e}", f.locate(e.field())),
+        None => e.to_string(),
     }
 }
 
 /// Builds and validates the configuration (see the module docs).
 pub fn build(req: &ConfigRequest, file: Option<&ConfigFile>) -> Result<Config, String> {
-    let empty = ConfigToml::default();
-    let f = file.map_or(&empty, |c| &c.fields);
     let at = |key: &str| file.map_or_else(String::new, |c| c.locate(key));
-    let file_profile = match &f.profile {
-        Some(s) => Some(parse_profile(s).ok_or_else(|| {
-            format!(
-                "{}: profile `{s}`, expected \"touch\" or \"field\"",
-                at("profile")
-            )
-        })?),
-        None => None,
+    let given = |key: &str| file.and_then(|f| f.get(key)).map(|s| &s.value);
+    // An enum field's value from the file, by its name there, set on `c`.
+    let choice = |c: Config, key: &str| -> Result<Option<Config>, String> {
+        match given(key) {
+            Some(Given::Name(s)) => match with_choice(c, key, s) {
+                Some(c) => Ok(Some(c)),
+                None => Err(format!(
+                    "{}: {key} `{s}`, expected {}",
+                    at(key),
+                    alternatives(field(key).map_or(&[], choice_names))
+                )),
+            },
+            _ => Ok(None),
+        }
     };
+    let file_profile = choice(Config::touch(), "profile")?.map(|c| c.profile);
     let profile = match (req.profile, file_profile) {
         (Some(a), Some(b)) if a != b => {
             return Err(format!(
@@ -237,15 +297,7 @@ pub fn build(req: &ConfigRequest, file: Option<&ConfigFile>) -> Result<Config, S
         Profile::Field => Config::field(),
     };
     let mut c = base.with_adc_bits(req.bits).with_sample_rate(req.rate_hz);
-    let file_mains = match &f.mains {
-        Some(s) => Some(parse_mains(s).ok_or_else(|| {
-            format!(
-                "{}: mains `{s}`, expected \"auto\", \"50\" or \"60\"",
-                at("mains")
-            )
-        })?),
-        None => None,
-    };
+    let file_mains = choice(c, "mains")?.map(|c| c.mains);
     c.mains = match (req.mains, file_mains) {
         (Some(a), Some(b)) if a != b => {
             return Err(format!(
@@ -258,8 +310,8 @@ pub fn build(req: &ConfigRequest, file: Option<&ConfigFile>) -> Result<Config, S
         (Some(a), _) | (None, Some(a)) => a,
         (None, None) => MainsMode::Auto,
     };
-    if let Some(r) = f.sample_rate_hz {
-        if r != i64::from(req.rate_hz) {
+    if let Some(Given::Int(r)) = given("sample_rate_hz") {
+        if *r != i64::from(req.rate_hz) {
             return Err(format!(
                 "{}: sample_rate_hz = {r}, but the input is sampled at {} Hz",
                 at("sample_rate_hz"),
@@ -267,8 +319,8 @@ pub fn build(req: &ConfigRequest, file: Option<&ConfigFile>) -> Result<Config, S
             ));
         }
     }
-    if let Some(b) = f.adc_bits {
-        if b != i64::from(req.bits) {
+    if let Some(Given::Int(b)) = given("adc_bits") {
+        if *b != i64::from(req.bits) {
             return Err(format!(
                 "{}: adc_bits = {b}, but the input has {}-bit codes (see --bits)",
                 at("adc_bits"),
@@ -276,157 +328,94 @@ pub fn build(req: &ConfigRequest, file: Option<&ConfigFile>) -> Result<Config, S
             ));
         }
     }
-    if let Some(s) = &f.panel {
-        c.panel = match s.as_str() {
-            "strongest-pad" => PanelMode::StrongestPad,
-            "independent" => PanelMode::Independent,
-            _ => {
-                return Err(format!(
-                    "{}: panel `{s}`, expected \"strongest-pad\" or \"independent\"",
-                    at("panel")
-                ))
+    // Every other field the file gives, in `Config`'s order.
+    for f in Config::FIELDS {
+        if matches!(f.name, "profile" | "mains" | "sample_rate_hz" | "adc_bits") {
+            continue;
+        }
+        let set = match (given(f.name), f.kind) {
+            (None, _) => continue,
+            (Some(Given::Int(v)), FieldKind::Int { type_max, min, max }) => {
+                match u32::try_from(*v).ok().filter(|v| *v <= type_max) {
+                    Some(v) => (f.set)(&mut c, FieldValue::Int(v)),
+                    // Beyond the field's type: the message validation gives
+                    // for a value outside the range.
+                    None => {
+                        return Err(format!(
+                            "{}: config field `{}` is {v}, expected a value from {min} to {max}",
+                            at(f.name),
+                            f.name
+                        ))
+                    }
+                }
             }
+            (Some(Given::Float(v)), FieldKind::Float { .. }) => {
+                (f.set)(&mut c, FieldValue::Float(*v as f32))
+            }
+            (Some(Given::Name(_)), FieldKind::Choice { .. }) => match choice(c, f.name)? {
+                Some(with) => {
+                    c = with;
+                    true
+                }
+                None => false,
+            },
+            _ => false,
         };
+        if !set {
+            // `parse` gave the value the field's kind: cannot happen.
+            return Err(format!("{}: {} could not be set", at(f.name), f.name));
+        }
     }
-    macro_rules! set_int {
-        ($($field:ident),* $(,)?) => {
-            $(if let Some(v) = f.$field {
-                c.$field = v.try_into().map_err(|_| {
-                    format!(
-                        "{}: {} = {v} does not fit the field (see humsense::Config)",
-                        at(stringify!($field)),
-                        stringify!($field)
-                    )
-                })?;
-            })*
-        };
-    }
-    macro_rules! set_float {
-        ($($field:ident),* $(,)?) => {
-            $(if let Some(v) = f.$field { c.$field = v as f32; })*
-        };
-    }
-    set_int!(
-        spike_max_len,
-        spike_floor_codes,
-        avg_shift,
-        startup_cycles,
-        baseline_rise_shift,
-        baseline_fall_shift,
-        noise_shift,
-        debounce_on,
-        debounce_off,
-        min_active_cycles,
-        max_active_cycles,
-        levels,
-        fault_saturation_cycles,
-        fault_stuck_cycles,
-        nohum_cycles,
-        mains_lost_cycles,
-    );
-    set_float!(
-        track_min_codes,
-        on_noise,
-        off_noise,
-        on_ratio,
-        off_ratio,
-        floor_codes,
-        level_step_db,
-        level_hysteresis_db,
-        ambient_ratio,
-        nohum_codes,
-    );
     validate(&c).map_err(|e| config_error(&e, file))?;
     Ok(c)
 }
 
-/// Validates a configuration through the core crate's constructor.
+/// Validates a configuration as every detector's constructor does (one
+/// channel, no harmonic bins).
 pub fn validate(c: &Config) -> Result<(), ConfigError> {
-    Backend::<1, 0>::new(c).map(|_| ())
+    c.validate(0)
 }
 
-/// Every field of `c` as TOML, accepted by [`ConfigFile::parse`] and
-/// [`build`] (floats in their shortest round-trip form, so the file gives
-/// back the same bits).
+/// Writes `f`'s value in `c` as TOML (`true`) or Rust.
+fn value_text(c: &Config, f: &FieldInfo, toml: bool) -> String {
+    match ((f.get)(c), f.kind) {
+        (FieldValue::Int(v), _) => v.to_string(),
+        // Shortest round-trip form: the file gives back the same bits.
+        (FieldValue::Float(v), _) => format!("{v:?}"),
+        (
+            FieldValue::Choice(i),
+            FieldKind::Choice {
+                type_name,
+                variants,
+                names,
+            },
+        ) => {
+            if toml {
+                format!("\"{}\"", names.get(i).copied().unwrap_or("?"))
+            } else {
+                format!(
+                    "humsense::{type_name}::{}",
+                    variants.get(i).copied().unwrap_or("?")
+                )
+            }
+        }
+        (FieldValue::Choice(i), _) => i.to_string(),
+    }
+}
+
+/// Every field of `c` as TOML, in `Config`'s order, accepted by
+/// [`ConfigFile::parse`] and [`build`] (floats in their shortest round-trip
+/// form, so the file gives back the same bits). The same text is `Config`'s
+/// serde form (the core crate's `serde` feature).
 pub fn to_toml(c: &Config) -> String {
-    // Destructured so that a new field in the core crate fails to compile
-    // here instead of being left out silently.
-    let Config {
-        sample_rate_hz,
-        adc_bits,
-        mains,
-        profile,
-        spike_max_len,
-        spike_floor_codes,
-        track_min_codes,
-        avg_shift,
-        startup_cycles,
-        baseline_rise_shift,
-        baseline_fall_shift,
-        noise_shift,
-        on_noise,
-        off_noise,
-        on_ratio,
-        off_ratio,
-        floor_codes,
-        debounce_on,
-        debounce_off,
-        min_active_cycles,
-        max_active_cycles,
-        levels,
-        level_step_db,
-        level_hysteresis_db,
-        panel,
-        ambient_ratio,
-        fault_saturation_cycles,
-        fault_stuck_cycles,
-        nohum_codes,
-        nohum_cycles,
-        mains_lost_cycles,
-    } = *c;
     let mut s = String::new();
     let _ = writeln!(
         s,
         "# humsense detector configuration (humsim replay --config)"
     );
-    let _ = writeln!(s, "profile = \"{}\"", profile_name(profile));
-    let _ = writeln!(s, "mains = \"{}\"", mains_name(mains));
-    let _ = writeln!(s, "panel = \"{}\"", panel_name(panel));
-    macro_rules! put {
-        ($($field:ident),* $(,)?) => {
-            $(let _ = writeln!(s, "{} = {:?}", stringify!($field), $field);)*
-        };
+    for f in Config::FIELDS {
+        let _ = writeln!(s, "{} = {}", f.name, value_text(c, f, true));
     }
-    put!(
-        sample_rate_hz,
-        adc_bits,
-        spike_max_len,
-        spike_floor_codes,
-        track_min_codes,
-        avg_shift,
-        startup_cycles,
-        baseline_rise_shift,
-        baseline_fall_shift,
-        noise_shift,
-        on_noise,
-        off_noise,
-        on_ratio,
-        off_ratio,
-        floor_codes,
-        debounce_on,
-        debounce_off,
-        min_active_cycles,
-        max_active_cycles,
-        levels,
-        level_step_db,
-        level_hysteresis_db,
-        ambient_ratio,
-        fault_saturation_cycles,
-        fault_stuck_cycles,
-        nohum_codes,
-        nohum_cycles,
-        mains_lost_cycles,
-    );
     s
 }
 
@@ -434,80 +423,11 @@ pub fn to_toml(c: &Config) -> String {
 /// `const CONFIG: humsense::Config = humsense::Config { … };`, every field
 /// written out (floats in their shortest round-trip form).
 pub fn to_rust(c: &Config) -> String {
-    let Config {
-        sample_rate_hz,
-        adc_bits,
-        mains,
-        profile,
-        spike_max_len,
-        spike_floor_codes,
-        track_min_codes,
-        avg_shift,
-        startup_cycles,
-        baseline_rise_shift,
-        baseline_fall_shift,
-        noise_shift,
-        on_noise,
-        off_noise,
-        on_ratio,
-        off_ratio,
-        floor_codes,
-        debounce_on,
-        debounce_off,
-        min_active_cycles,
-        max_active_cycles,
-        levels,
-        level_step_db,
-        level_hysteresis_db,
-        panel,
-        ambient_ratio,
-        fault_saturation_cycles,
-        fault_stuck_cycles,
-        nohum_codes,
-        nohum_cycles,
-        mains_lost_cycles,
-    } = *c;
     let mut s = String::new();
     let _ = writeln!(s, "const CONFIG: humsense::Config = humsense::Config {{");
-    macro_rules! put {
-        ($($field:ident),* $(,)?) => {
-            $(let _ = writeln!(s, "    {}: {:?},", stringify!($field), $field);)*
-        };
+    for f in Config::FIELDS {
+        let _ = writeln!(s, "    {}: {},", f.name, value_text(c, f, false));
     }
-    put!(sample_rate_hz, adc_bits);
-    let _ = writeln!(s, "    mains: humsense::MainsMode::{mains:?},");
-    let _ = writeln!(s, "    profile: humsense::Profile::{profile:?},");
-    put!(
-        spike_max_len,
-        spike_floor_codes,
-        track_min_codes,
-        avg_shift,
-        startup_cycles,
-        baseline_rise_shift,
-        baseline_fall_shift,
-        noise_shift,
-        on_noise,
-        off_noise,
-        on_ratio,
-        off_ratio,
-        floor_codes,
-        debounce_on,
-        debounce_off,
-        min_active_cycles,
-        max_active_cycles,
-        levels,
-        level_step_db,
-        level_hysteresis_db,
-    );
-    let _ = writeln!(s, "    panel: humsense::PanelMode::{panel:?},");
-    put!(
-        ambient_ratio,
-        fault_saturation_cycles,
-        fault_stuck_cycles,
-        nohum_codes,
-        nohum_cycles,
-        mains_lost_cycles,
-    );
     let _ = writeln!(s, "}};");
     s
 }

@@ -14,6 +14,7 @@
 //! configurations; [`plot`] draws runs; [`demo`] is `humsim demo`; [`tune`]
 //! sweeps detector constants on a labelled log. Around them: [`outfile`]
 //! (outputs written beside and renamed into place, never over an input),
+//! [`field_error`] (a model's refused parameter, by name),
 //! [`console`] (stdout and stderr without panics) and [`text`] (bounds on
 //! lines and files, cells quoted short in messages).
 //!
@@ -35,6 +36,7 @@ pub mod configfile;
 pub mod console;
 pub mod coupling;
 pub mod demo;
+pub mod field_error;
 pub mod frontend;
 pub mod input;
 pub mod interference;

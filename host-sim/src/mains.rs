@@ -19,6 +19,7 @@
 //! 99.5 % of a year and +4 %/−6 % (47–52 Hz) always; the clamp `range_hz`
 //! defaults to that always-range.
 
+use crate::field_error::FieldError;
 use crate::rng::Rng;
 use std::f64::consts::{PI, SQRT_2, TAU};
 
@@ -87,45 +88,54 @@ impl MainsConfig {
         }
     }
 
-    /// Checks the configuration; the message names the offending field.
-    pub fn validate(&self) -> Result<(), String> {
+    /// Checks the configuration; the error names the offending field.
+    pub fn validate(&self) -> Result<(), FieldError> {
         let (lo, hi) = self.range_hz;
         if !(self.rms_v.is_finite() && self.rms_v >= 0.0) {
-            return Err("rms_v: expected a voltage >= 0".into());
+            return Err(FieldError::new("rms_v", "expected a voltage >= 0"));
         }
         if !(lo.is_finite() && hi.is_finite() && lo > 0.0 && lo < hi) {
-            return Err("range_hz: expected [low, high] with 0 < low < high".into());
+            return Err(FieldError::new(
+                "range_hz",
+                "expected [low, high] with 0 < low < high",
+            ));
         }
         if !(self.frequency_hz >= lo && self.frequency_hz <= hi) {
-            return Err(format!(
-                "frequency_hz: expected a value inside range_hz [{lo}, {hi}], got {}",
-                self.frequency_hz
+            return Err(FieldError::new(
+                "frequency_hz",
+                format!(
+                    "expected a value inside range_hz [{lo}, {hi}], got {}",
+                    self.frequency_hz
+                ),
             ));
         }
         if !(self.wander_hz.is_finite() && self.wander_hz >= 0.0) {
-            return Err("wander_hz: expected >= 0".into());
+            return Err(FieldError::new("wander_hz", "expected >= 0"));
         }
         if !(self.wander_tau_s.is_finite() && self.wander_tau_s > 0.0) {
-            return Err("wander_tau_s: expected > 0 seconds".into());
+            return Err(FieldError::new("wander_tau_s", "expected > 0 seconds"));
         }
         if !(self.sweep_hz.is_finite() && self.sweep_hz >= 0.0) {
-            return Err("sweep_hz: expected >= 0".into());
+            return Err(FieldError::new("sweep_hz", "expected >= 0"));
         }
         if !(self.sweep_period_s.is_finite() && self.sweep_period_s > 0.0) {
-            return Err("sweep_period_s: expected > 0 seconds".into());
+            return Err(FieldError::new("sweep_period_s", "expected > 0 seconds"));
         }
         for h in &self.harmonics {
             if h.order < 2 || h.order > 100 {
-                return Err(format!("harmonics: order {} outside 2..=100", h.order));
+                return Err(FieldError::new(
+                    "harmonics",
+                    format!("order {} outside 2..=100", h.order),
+                ));
             }
             if !(h.percent.is_finite() && (0.0..=100.0).contains(&h.percent)) {
-                return Err(format!(
-                    "harmonics: percent {} outside 0..=100 (order {})",
-                    h.percent, h.order
+                return Err(FieldError::new(
+                    "harmonics",
+                    format!("percent {} outside 0..=100 (order {})", h.percent, h.order),
                 ));
             }
             if !h.phase_deg.is_finite() {
-                return Err("harmonics: phase_deg must be finite".into());
+                return Err(FieldError::new("harmonics", "phase_deg must be finite"));
             }
         }
         Ok(())
@@ -292,7 +302,7 @@ impl MainsSource {
     /// A source at t = 0, phase 0. Fails with a message naming the field if
     /// the configuration is invalid.
     pub fn new(config: MainsConfig, events: &[MainsEvent], seed: u64) -> Result<Self, String> {
-        config.validate()?;
+        config.validate().map_err(|e| e.to_string())?;
         let harmonics = config
             .harmonics
             .iter()
@@ -397,6 +407,74 @@ impl MainsSource {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn each_refusal_names_its_field() {
+        let ok = MainsConfig::preset_230v_50hz();
+        assert!(ok.validate().is_ok());
+        let field = |c: MainsConfig| c.validate().unwrap_err().field;
+        assert_eq!(
+            field(MainsConfig {
+                rms_v: -1.0,
+                ..ok.clone()
+            }),
+            "rms_v"
+        );
+        assert_eq!(
+            field(MainsConfig {
+                range_hz: (50.0, 50.0),
+                ..ok.clone()
+            }),
+            "range_hz"
+        );
+        assert_eq!(
+            field(MainsConfig {
+                frequency_hz: 70.0,
+                ..ok.clone()
+            }),
+            "frequency_hz"
+        );
+        assert_eq!(
+            field(MainsConfig {
+                wander_hz: f64::NAN,
+                ..ok.clone()
+            }),
+            "wander_hz"
+        );
+        assert_eq!(
+            field(MainsConfig {
+                wander_tau_s: 0.0,
+                ..ok.clone()
+            }),
+            "wander_tau_s"
+        );
+        assert_eq!(
+            field(MainsConfig {
+                sweep_hz: -0.1,
+                ..ok.clone()
+            }),
+            "sweep_hz"
+        );
+        assert_eq!(
+            field(MainsConfig {
+                sweep_period_s: 0.0,
+                ..ok.clone()
+            }),
+            "sweep_period_s"
+        );
+        let bad_order = MainsConfig {
+            harmonics: vec![Harmonic {
+                order: 1,
+                percent: 1.0,
+                phase_deg: 0.0,
+            }],
+            ..ok.clone()
+        };
+        assert_eq!(
+            bad_order.validate().unwrap_err().to_string(),
+            "harmonics: order 1 outside 2..=100"
+        );
+    }
 
     fn quiet(f: f64) -> MainsConfig {
         MainsConfig {

@@ -309,10 +309,11 @@ impl Scenario {
         let reps = self.file.repeat_s.map_or(1.0, |p| (seconds / p).ceil());
         let expanded = reps * self.actions.len() as f64;
         if expanded > 5e6 {
+            let at = locate(&self.source, &KeyPath::top("repeat_s"));
             return Err(ScenarioError {
                 file: self.origin.clone(),
-                line: locate(&self.source, &KeyPath::top("repeat_s")),
-                column: None,
+                line: at.map(|(l, _)| l),
+                column: at.map(|(_, c)| c),
                 key: Some("repeat_s".into()),
                 message: format!(
                     "the timeline repeated over {seconds} s expands to {expanded:.0} events; expected at most 5000000 (use a longer repeat_s or a shorter run)"

@@ -67,6 +67,15 @@ pub fn num(v: f64) -> String {
     }
 }
 
+/// 1-based line and column (in characters) of byte offset `at` in `text`
+/// (its end when `at` lies past it).
+pub fn line_col(text: &str, at: usize) -> (usize, usize) {
+    let before = text.get(..at).unwrap_or(text);
+    let line = before.matches('\n').count() + 1;
+    let col = before.chars().rev().take_while(|c| *c != '\n').count() + 1;
+    (line, col)
+}
+
 /// Whether a line (its end already removed) holds a carriage return: the
 /// sign of a file with CR-only line ends, read as one line.
 pub fn has_inner_cr(line: &[u8]) -> bool {

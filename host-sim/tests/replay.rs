@@ -556,7 +556,10 @@ fn config_files_and_labels_are_checked() {
     let (code, _, err) = run(&["replay", p(&input), "--config", p(&cfg)]);
     assert_eq!(code, 1);
     assert!(
-        err.contains(&format!("{}:1:1: debounce_on = 300 does not fit", p(&cfg))),
+        err.contains(&format!(
+            "{}:1:1: config field `debounce_on` is 300, expected a value from 1 to 255",
+            p(&cfg)
+        )),
         "{err}"
     );
     // A valid one changes the result: on_ratio 30 is above a 20x touch.

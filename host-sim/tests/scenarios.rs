@@ -188,6 +188,93 @@ fn bad_files_name_key_and_line() {
 }
 
 #[test]
+fn keys_are_located_by_the_parsers_spans() {
+    // Line and column of the key (1-based, in characters), however the
+    // file writes it: indented, quoted either way, in an inline table, in
+    // a later array-of-tables element.
+    let at = |src: &str| {
+        let e = Scenario::from_toml_str(src, "bad.toml").unwrap_err();
+        (
+            e.key.clone().unwrap_or_default(),
+            e.line,
+            e.column,
+            e.to_string(),
+        )
+    };
+    let cases: [(&str, &str, usize, usize); 7] = [
+        (
+            "name = \"x\"\nduration_s = 1.0\n[adc]\n  bits = 20\n[[channel]]\nname = \"a\"\n",
+            "adc.bits",
+            4,
+            3,
+        ),
+        (
+            "name = \"x\"\nduration_s = 1.0\n[adc]\n'bits' = 20\n[[channel]]\nname = \"a\"\n",
+            "adc.bits",
+            4,
+            1,
+        ),
+        (
+            "name = \"x\"\nduration_s = 1.0\n[adc]\n\"rate_hz\" = 5.0\n[[channel]]\nname = \"a\"\n",
+            "adc.rate_hz",
+            4,
+            1,
+        ),
+        (
+            "name = \"x\"\nduration_s = 1.0\nadc = { noise_v = 0.0, bits = 20 }\n[[channel]]\nname = \"a\"\n",
+            "adc.bits",
+            3,
+            24,
+        ),
+        (
+            "name = \"x\"\nduration_s = 1.0\n[[channel]]\nname = \"a\"\n[[channel]]\nname = \"time_s\"\n",
+            "channel[1].name",
+            6,
+            1,
+        ),
+        // A parse error: the key from the error's span.
+        (
+            "name = \"x\"\nduration_s = 1.0\nadc = { bits = \"twelve\" }\n[[channel]]\nname = \"a\"\n",
+            "adc.bits",
+            3,
+            16,
+        ),
+        // A missing key: its table's header.
+        (
+            "name = \"x\"\nduration_s = 1.0\n[[channel]]\nname = \"a\"\n[[channel]]\nstray_pf = 1.0\n",
+            "channel[1].name",
+            5,
+            1,
+        ),
+    ];
+    for (src, key, line, column) in cases {
+        let (k, l, c, text) = at(src);
+        assert_eq!(
+            (k.as_str(), l, c),
+            (key, Some(line), Some(column)),
+            "{src:?}: {text}"
+        );
+        assert!(
+            text.starts_with(&format!("bad.toml:{line}:{column}: key `{key}`")),
+            "{text}"
+        );
+    }
+    // Dotted keys carry no spans in the parser's output: the error still
+    // names the key, without a line.
+    let (k, l, _, text) = at(
+        "name = \"x\"\nduration_s = 1.0\nmains.frequency_hz = 70.0\n[[channel]]\nname = \"a\"\n",
+    );
+    assert_eq!((k.as_str(), l), ("mains.frequency_hz", None), "{text}");
+    // A syntax error: line and column, no key.
+    let e = Scenario::from_toml_str("name = \"x\"\nduration_s = = 1.0\n", "bad.toml").unwrap_err();
+    assert_eq!(
+        (e.line, e.column, e.key.as_deref()),
+        (Some(2), Some(14), None),
+        "{e}"
+    );
+}
+
+#[test]
 fn unknown_builtin_and_missing_file_are_clear() {
     let e = Scenario::load("no-such-thing").unwrap_err();
     assert!(e.to_string().contains("no-such-thing"));

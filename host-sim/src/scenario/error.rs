@@ -1,6 +1,10 @@
-//! Scenario errors, and locating a key in the file's text for them.
+//! Scenario errors, and locating a key in the file for them from the spans
+//! the TOML parser records ([`toml::Spanned`]).
 
 use super::*;
+use crate::text::line_col;
+use std::ops::Range;
+use toml::Spanned;
 
 /// A problem with a scenario: where it is and what was expected.
 #[derive(Debug, Clone, PartialEq)]
@@ -77,66 +81,155 @@ impl KeyPath {
     }
 }
 
-pub(crate) fn header_of(line: &str) -> Option<(bool, &str)> {
-    let l = line.trim();
-    if let Some(rest) = l.strip_prefix("[[") {
-        let end = rest.find("]]")?;
-        return Some((true, rest.get(..end)?.trim()));
-    }
-    if let Some(rest) = l.strip_prefix('[') {
-        let end = rest.find(']')?;
-        return Some((false, rest.get(..end)?.trim()));
-    }
-    None
+/// The keys of a TOML document with the byte spans the parser records:
+/// every table's keys and values, and the elements of arrays (arrays of
+/// tables included).
+#[derive(Debug, Clone)]
+enum Node {
+    /// A table (also an inline table): its keys.
+    Table(Vec<(Spanned<String>, Spanned<Node>)>),
+    /// An array: its elements.
+    Array(Vec<Spanned<Node>>),
+    /// Any other value.
+    Leaf,
 }
 
-pub(crate) fn line_key(line: &str) -> Option<&str> {
-    let l = line.trim_start();
-    if l.starts_with('#') || l.starts_with('[') {
-        return None;
+impl<'de> Deserialize<'de> for Node {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct Visit;
+        impl<'de> serde::de::Visitor<'de> for Visit {
+            type Value = Node;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("a TOML value")
+            }
+            fn visit_bool<E>(self, _: bool) -> Result<Node, E> {
+                Ok(Node::Leaf)
+            }
+            fn visit_i64<E>(self, _: i64) -> Result<Node, E> {
+                Ok(Node::Leaf)
+            }
+            fn visit_u64<E>(self, _: u64) -> Result<Node, E> {
+                Ok(Node::Leaf)
+            }
+            fn visit_f64<E>(self, _: f64) -> Result<Node, E> {
+                Ok(Node::Leaf)
+            }
+            fn visit_str<E>(self, _: &str) -> Result<Node, E> {
+                Ok(Node::Leaf)
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut a: A) -> Result<Node, A::Error> {
+                let mut items = Vec::new();
+                while let Some(item) = a.next_element()? {
+                    items.push(item);
+                }
+                Ok(Node::Array(items))
+            }
+            fn visit_map<A: serde::de::MapAccess<'de>>(self, mut a: A) -> Result<Node, A::Error> {
+                let mut keys = Vec::new();
+                while let Some(entry) = a.next_entry()? {
+                    keys.push(entry);
+                }
+                Ok(Node::Table(keys))
+            }
+        }
+        d.deserialize_any(Visit)
     }
-    let eq = l.find('=')?;
-    Some(l.get(..eq)?.trim().trim_matches('"'))
 }
 
-/// Finds the 1-based line of a key (or of its table's header) in `src`.
-pub(crate) fn locate(src: &str, path: &KeyPath) -> Option<usize> {
-    let mut in_table = path.table.is_empty();
-    let mut header_line = None;
-    let mut count = 0usize;
-    for (i, line) in src.lines().enumerate() {
-        if let Some((array, name)) = header_of(line) {
-            if in_table && header_line.is_some() {
-                break;
+/// The document `src` as a tree of spanned keys: `None` if it is not valid
+/// TOML, or if it uses dotted keys or dotted table headers (`a.b = 1`,
+/// `[a.b]`), whose implicit tables the parser gives no spans.
+fn key_tree(src: &str) -> Option<Node> {
+    toml::from_str(src).ok()
+}
+
+/// The entry `key` of `node`, if it is a table that has one.
+fn entry<'a>(node: &'a Node, key: &str) -> Option<&'a (Spanned<String>, Spanned<Node>)> {
+    match node {
+        Node::Table(keys) => keys.iter().find(|(k, _)| k.get_ref() == key),
+        _ => None,
+    }
+}
+
+/// Whether `outer` holds all of `inner`.
+fn covers(outer: &Range<usize>, inner: &Range<usize>) -> bool {
+    outer.start <= inner.start && inner.end <= outer.end
+}
+
+/// The 1-based line and column of a key in `src`: of the key itself, or of
+/// its table (its header) when the key is not in the file (a missing key);
+/// `None` when neither is found.
+pub(crate) fn locate(src: &str, path: &KeyPath) -> Option<(usize, usize)> {
+    let tree = key_tree(src)?;
+    let (table, table_span) = if path.table.is_empty() {
+        (&tree, None)
+    } else {
+        let (_, value) = entry(&tree, path.table)?;
+        match (value.get_ref(), path.index) {
+            (Node::Array(items), Some(i)) => {
+                let item = items.get(i)?;
+                (item.get_ref(), Some(item.span()))
             }
-            if in_table && path.table.is_empty() {
-                break;
-            }
-            in_table = false;
-            if name == path.table {
-                let matches = if array {
-                    let m = Some(count) == path.index;
-                    count += 1;
-                    m
+            (node, None) => (node, Some(value.span())),
+            _ => return None,
+        }
+    };
+    let at = path
+        .key
+        .and_then(|k| entry(table, k))
+        .map(|(k, _)| k.span())
+        .or(table_span)?;
+    Some(line_col(src, at.start))
+}
+
+/// The key path (`adc.rate_hz`, `channel[0].name`; empty for the top
+/// level) of the innermost key, array element or table of `src` that holds
+/// all of `span` (a parse error's). `None` when `src` gives no key spans
+/// (see [`key_tree`]).
+pub(crate) fn path_at(src: &str, span: &Range<usize>) -> Option<String> {
+    let tree = key_tree(src)?;
+    let mut path = String::new();
+    let mut node = &tree;
+    loop {
+        let next = match node {
+            Node::Table(keys) => keys.iter().find_map(|(k, v)| {
+                if covers(&k.span(), span) {
+                    Some((k.get_ref().as_str(), None))
+                } else if covers(&v.span(), span) {
+                    Some((k.get_ref().as_str(), Some(v.get_ref())))
                 } else {
-                    path.index.is_none()
-                };
-                if matches {
-                    in_table = true;
-                    header_line = Some(i + 1);
+                    None
+                }
+            }),
+            Node::Array(items) => {
+                let found = items
+                    .iter()
+                    .enumerate()
+                    .find(|(_, v)| covers(&v.span(), span));
+                if let Some((i, v)) = found {
+                    path.push_str(&format!("[{i}]"));
+                    node = v.get_ref();
+                    continue;
+                }
+                None
+            }
+            Node::Leaf => None,
+        };
+        match next {
+            Some((key, inner)) => {
+                if !path.is_empty() {
+                    path.push('.');
+                }
+                path.push_str(key);
+                match inner {
+                    Some(n) => node = n,
+                    None => break,
                 }
             }
-            continue;
-        }
-        if in_table {
-            if let (Some(k), Some(want)) = (line_key(line), path.key) {
-                if k == want {
-                    return Some(i + 1);
-                }
-            }
+            None => break,
         }
     }
-    header_line
+    Some(path)
 }
 
 pub(crate) struct Ctx<'a> {
@@ -146,10 +239,11 @@ pub(crate) struct Ctx<'a> {
 
 impl Ctx<'_> {
     pub(crate) fn err(&self, path: KeyPath, message: impl Into<String>) -> ScenarioError {
+        let at = locate(self.src, &path);
         ScenarioError {
             file: self.file.to_string(),
-            line: locate(self.src, &path),
-            column: None,
+            line: at.map(|(l, _)| l),
+            column: at.map(|(_, c)| c),
             key: Some(path.display()),
             message: message.into(),
         }

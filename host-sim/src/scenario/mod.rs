@@ -24,8 +24,11 @@
 //! # Ok::<(), humsim::scenario::ScenarioError>(())
 //! ```
 //!
-//! Errors ([`ScenarioError`]) carry the file name, the line (and column where
-//! the TOML parser gives one), the key, and what was expected.
+//! Errors ([`ScenarioError`]) carry the file name, the line and column of
+//! the key (from the spans the TOML parser records; a key the file leaves
+//! out is placed at its table's header), the key, and what was expected.
+//! Dotted keys (`mains.frequency_hz = 50.0`, `[a.b]`) get no spans from
+//! the parser: errors about such a file name the key without a line.
 //!
 //! ## Detection range (field labels)
 //! A live conductor is *within detection range* of a channel while the hum
@@ -36,7 +39,7 @@
 //! `Σ C_conductor(t) / C_ambient`; the ambient's random drift is left out so
 //! the labels depend only on the schedule.
 //!
-//! The module's files: [`error`] (errors and locating keys in the text),
+//! The module's files: [`error`] (errors, and locating keys by the parser's spans),
 //! [`file`](mod@file) (the TOML schema), `validate` (from the file to the model, and
 //! the front end's keys), `events` (each timeline event's keys), and
 //! [`timeline`] (the expanded plan and its labels). Rendering is
@@ -60,7 +63,7 @@ use crate::frontend::{Amplifier, AnalogFrontEnd, Comparator, FollowerChain};
 use crate::interference::{burst, Discharge, Drift, Lamp};
 use crate::labels::{Label, LabelKind};
 use crate::mains::{Harmonic, MainsConfig, MainsEvent, MainsSchedule};
-use error::{header_of, line_key, KeyPath};
+use error::KeyPath;
 use serde::{Deserialize, Serialize};
 use std::fmt;
 
@@ -196,40 +199,21 @@ impl Scenario {
         let parsed: ScenarioFile = toml::from_str(src).map_err(|e| {
             let (line, column, key) = match e.span() {
                 Some(span) => {
-                    let before = src.get(..span.start).unwrap_or("");
-                    let line = before.matches('\n').count() + 1;
-                    let col = before.len() - before.rfind('\n').map_or(0, |i| i + 1) + 1;
-                    let text = src.lines().nth(line - 1).unwrap_or("");
-                    // The enclosing table, with its index for arrays of tables.
-                    let mut section: Option<String> = None;
-                    let mut counts: Vec<(String, usize)> = Vec::new();
-                    for l in src.lines().take(line) {
-                        if let Some((array, name)) = header_of(l) {
-                            section = Some(if array {
-                                let k = match counts.iter_mut().find(|(n, _)| n == name) {
-                                    Some((_, k)) => {
-                                        *k += 1;
-                                        *k
-                                    }
-                                    None => {
-                                        counts.push((name.to_string(), 0));
-                                        0
-                                    }
-                                };
-                                format!("{name}[{k}]")
-                            } else {
-                                name.to_string()
-                            });
-                        }
-                    }
+                    let (line, col) = crate::text::line_col(src, span.start);
+                    // The key the error is about, from the parser's spans: a
+                    // missing key in the innermost table holding the error,
+                    // else the innermost key holding it.
                     let missing = e
                         .message()
                         .strip_prefix("missing field `")
                         .and_then(|r| r.split('`').next());
-                    let key = missing.or_else(|| line_key(text)).map(|k| match &section {
-                        Some(s) => format!("{s}.{k}"),
-                        None => k.to_string(),
-                    });
+                    let at = error::path_at(src, &span);
+                    let key = match (missing, at) {
+                        (Some(m), Some(p)) if !p.is_empty() => Some(format!("{p}.{m}")),
+                        (Some(m), _) => Some(m.to_string()),
+                        (None, Some(p)) if !p.is_empty() => Some(p),
+                        (None, _) => None,
+                    };
                     (Some(line), Some(col), key)
                 }
                 None => (None, None, None),

@@ -98,20 +98,8 @@ impl Scenario {
                 phase_deg: h.phase_deg,
             })
             .collect();
-        if let Err(msg) = mains.validate() {
-            let key = msg.split(':').next().unwrap_or("");
-            let key: &'static str = match key {
-                "rms_v" => "rms_v",
-                "range_hz" => "range_hz",
-                "frequency_hz" => "frequency_hz",
-                "wander_hz" => "wander_hz",
-                "wander_tau_s" => "wander_tau_s",
-                "sweep_hz" => "sweep_hz",
-                "sweep_period_s" => "sweep_period_s",
-                _ => "harmonics",
-            };
-            let rest = msg.split_once(": ").map_or(msg.as_str(), |(_, r)| r);
-            return Err(ctx.err(KeyPath::table("mains", key), rest.to_string()));
+        if let Err(e) = mains.validate() {
+            return Err(ctx.err(KeyPath::table("mains", e.field), e.message));
         }
 
         // adc
@@ -123,16 +111,8 @@ impl Scenario {
             noise_v: a.noise_v,
             jitter_s: a.jitter_s,
         };
-        if let Err(msg) = adc.validate() {
-            let (key, rest) = msg.split_once(": ").unwrap_or(("bits", msg.as_str()));
-            let key: &'static str = match key {
-                "bits" => "bits",
-                "vref_v" => "vref_v",
-                "rate_hz" => "rate_hz",
-                "noise_v" => "noise_v",
-                _ => "jitter_s",
-            };
-            return Err(ctx.err(KeyPath::table("adc", key), rest.to_string()));
+        if let Err(e) = adc.validate() {
+            return Err(ctx.err(KeyPath::table("adc", e.field), e.message));
         }
         let nyquist = adc.rate_hz / 2.0;
         if mains.range_hz.1 >= nyquist {
