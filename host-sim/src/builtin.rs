@@ -46,6 +46,19 @@ pub const BUILTINS: &[(&str, &str)] = &[
         "supply-steps",
         include_str!("../scenarios/supply-steps.toml"),
     ),
+    (
+        "bedside-lamp",
+        include_str!("../scenarios/bedside-lamp.toml"),
+    ),
+    (
+        "hall-lamp-off",
+        include_str!("../scenarios/hall-lamp-off.toml"),
+    ),
+    (
+        "bench-lead-ramp",
+        include_str!("../scenarios/bench-lead-ramp.toml"),
+    ),
+    ("dock-touch", include_str!("../scenarios/dock-touch.toml")),
 ];
 
 /// The TOML source of a built-in, if `name` is one.

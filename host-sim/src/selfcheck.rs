@@ -42,6 +42,15 @@ pub fn score_builtin(
     adjust: &dyn Fn(&mut Config),
 ) -> Result<Option<Score>, String> {
     let s = Scenario::builtin(name).map_err(|e| e.to_string())?;
+    score_scenario(&s, kind, adjust)
+}
+
+/// [`score_builtin`] for any scenario.
+pub fn score_scenario(
+    s: &Scenario,
+    kind: LabelKind,
+    adjust: &dyn Fn(&mut Config),
+) -> Result<Option<Score>, String> {
     let seconds = s.duration_s().min(MAX_SECONDS);
     let (labels, other): (Vec<Label>, Vec<Label>) =
         s.labels(seconds).into_iter().partition(|l| l.kind == kind);

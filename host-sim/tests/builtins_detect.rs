@@ -36,6 +36,22 @@ fn check(name: &str, kind: LabelKind) -> String {
             problems.push_str(&format!("{name}: touch-on p95 {:.0} ms\n", on.p95_ms));
         }
     }
+    if kind == LabelKind::Touch {
+        // Every touch released, each within 100 ms of the finger lifting,
+        // also when the ambient changed during the touch (the project's
+        // bar, the same as for touch-on).
+        if score.off_missing() > 0 {
+            problems.push_str(&format!(
+                "{name}: {} touches never released\n",
+                score.off_missing()
+            ));
+        }
+        if let Some(off) = score.off_latency() {
+            if off.max_ms > 100.0 {
+                problems.push_str(&format!("{name}: touch-off max {:.0} ms\n", off.max_ms));
+            }
+        }
+    }
     problems
 }
 

@@ -172,10 +172,11 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                     });
                     w == Some(channel) && !others_active
                 };
-                // Steady: the mean moved by less than a quarter of the
-                // rise (an impulse raises the amplitude by at most twice
-                // its move of the mean; see `Cycle::dc_step`).
-                let steady = (u32::from(*dc_step) << 10) < amp.saturating_sub(b);
+                // Steady: the rise is more than twice the move of the
+                // mean, which no impulse alone gives (it raises the
+                // amplitude by at most twice its move of the mean; see
+                // `Cycle::dc_step`).
+                let steady = (u32::from(*dc_step) << 9) < amp.saturating_sub(b);
                 let (e, verdict) =
                     c.decision
                         .step_with(amp, b, n, steady, may_on, &self.decision_t);
