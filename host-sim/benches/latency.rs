@@ -11,8 +11,8 @@
 //! `cargo bench -p humsim --bench latency`
 
 use humsim::labels::LabelKind;
-use humsim::score::LatencyStats;
 use humsim::scenario::Scenario;
+use humsim::score::LatencyStats;
 use humsim::selfcheck::{score_builtin, score_scenario};
 
 fn stats(s: Option<LatencyStats>) -> (String, String) {
@@ -118,7 +118,13 @@ fn grid_scenario(mains_hz: u32, rate_hz: u32, overlay_mm: f64) -> String {
 fn grid() {
     println!(
         "\n{:>8} {:>7} {:>8} {:>6} {:>6}  {:>20}  {:>20}",
-        "mains_hz", "rate_hz", "overlay", "missed", "false", "on p50/p95/max ms", "off p50/p95/max ms"
+        "mains_hz",
+        "rate_hz",
+        "overlay",
+        "missed",
+        "false",
+        "on p50/p95/max ms",
+        "off p50/p95/max ms"
     );
     let mut lines = Vec::new();
     for mains_hz in [50u32, 60] {
