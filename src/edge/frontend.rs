@@ -9,7 +9,7 @@ use crate::error::ConfigError;
 use crate::fixed::div_rem_u32;
 use crate::mains::MainsHealth;
 
-use super::channel::{confirm, EdgeChannel, EdgeStats};
+use super::channel::{confirm, take, Accept, EdgeChannel, EdgeQueue, EdgeStats};
 use super::config::{EdgeConfig, EdgeInput};
 use super::divide::ratio_q16;
 use super::duty::{duty_to_amplitude_q8, MAX_AMPLITUDE_Q8};
@@ -24,29 +24,51 @@ pub const MAX_CATCH_UP: u32 = 8;
 
 /// The edge input's front end for `N` channels: edges or levels in,
 /// [`Cycle`]s out (no harmonic bins). See the [module docs](crate::edge).
+///
+/// `repr(C)`, the per-edge fields first, so that the per-edge path reaches
+/// each of them with one load or store on a Cortex-M0.
 #[derive(Clone, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[repr(C)]
 pub struct EdgeFrontend<const N: usize> {
-    mains: EdgeMains,
-    ch: [EdgeChannel; N],
+    // Per edge.
+    /// The timer's largest count.
     mask: u32,
-    glitch: u64,
-    eta_q16: u32,
+    /// Latest count seen.
+    last_count: u32,
+    /// Half the timer's range plus one (a step of this or more is a step
+    /// back); 0 before the first call, so that it takes the slow path.
+    limit: u32,
+    /// Latest time seen, ticks since the first call: the low word, and
+    /// the high word as of the low word `lo_mark` (the low word wraps at
+    /// most once between two calls that fold it in: see `fold`).
+    now_lo: u32,
+    /// Low word of the present window's end.
+    win_end_lo: u32,
+    /// Edges handed over, not yet taken.
+    queue: [EdgeQueue; N],
+    // Per edge taken, per window.
+    now_hi: u32,
+    lo_mark: u32,
+    /// Glitch filter, ticks.
+    glitch: u32,
+    /// The tracker's interval bounds and period, for the coherence check.
+    accept: Accept,
+    /// Pulse-centre intervals accepted in this window (all channels).
+    iv_sum: u32,
+    iv_n: u32,
+    /// The pin is low while active.
     active_low: bool,
     level_mode: bool,
-    stuck_after: u32,
-    started: bool,
-    last_count: u32,
-    /// Latest time seen, ticks since the first call.
-    now: u64,
     /// End of the present window, ticks, and its fraction (1/256 tick).
     win_end: u64,
     win_frac: u32,
-    /// Pulse-centre intervals accepted in this window (all channels).
-    iv_sum: u64,
-    iv_n: u32,
+    eta_q16: u32,
+    stuck_after: u32,
     /// Calls with a channel index past the last.
     bad_channel: u32,
+    mains: EdgeMains,
+    ch: [EdgeChannel; N],
 }
 
 /// What a channel's window amounted to.
@@ -74,54 +96,99 @@ impl<const N: usize> EdgeFrontend<N> {
             mains.period_q8 = period_q8_of(edge.tick_hz, mhz);
         }
         let period = mains.period_q8;
-        Ok(Self {
-            mains,
-            ch: [EdgeChannel::NEW; N],
+        let win_end = u64::from(period >> 8);
+        let mut f = Self {
             mask: edge.timer.mask(),
-            glitch: u64::from(edge.glitch_ticks),
-            // η = h / (2·Vt) in Q16: permille · 2^16 / 2000.
-            eta_q16: div_rem_u32(u32::from(edge.hysteresis_permille) << 16, 2_000).0,
-            active_low: edge.active_low,
-            level_mode,
-            stuck_after: edge.stuck_high_cycles.into(),
-            started: false,
             last_count: 0,
-            now: 0,
-            win_end: u64::from(period >> 8),
-            win_frac: period & 0xff,
+            limit: 0,
+            now_lo: 0,
+            win_end_lo: win_end as u32,
+            // At rest the pin is inactive: low, or high if active low.
+            queue: [EdgeQueue::new(edge.active_low); N],
+            now_hi: 0,
+            lo_mark: 0,
+            glitch: edge.glitch_ticks,
+            accept: Accept {
+                lo: 0,
+                span: 0,
+                period: 0,
+            },
             iv_sum: 0,
             iv_n: 0,
+            active_low: edge.active_low,
+            level_mode,
+            win_end,
+            win_frac: period & 0xff,
+            // η = h / (2·Vt) in Q16: permille · 2^16 / 2000.
+            eta_q16: div_rem_u32(u32::from(edge.hysteresis_permille) << 16, 2_000).0,
+            stuck_after: edge.stuck_high_cycles.into(),
             bad_channel: 0,
-        })
+            mains,
+            ch: [EdgeChannel::NEW; N],
+        };
+        f.sync_accept();
+        Ok(f)
     }
 
-    /// Ticks (since the first call) of timer count `count`: a wrapping
-    /// difference from the latest count; half the range or more is a step
-    /// back. Advances the clock when forward; `None` for a time before the
-    /// first call.
+    /// Copies the tracker's bounds for the per-edge checks.
+    fn sync_accept(&mut self) {
+        let (lo, hi) = self.mains.accept;
+        self.accept = Accept {
+            lo,
+            span: hi.saturating_sub(lo),
+            period: if self.mains.stage == Stage::Track && !self.level_mode {
+                self.mains.period_q8 >> 8
+            } else {
+                0
+            },
+        };
+    }
+
+    /// Folds a wrap of the low word since the last fold into the high
+    /// word. Every call but `push_edge`'s common path folds, and that path
+    /// moves the clock less than a period (it never crosses a window's
+    /// end), so the low word wraps at most once in between.
     #[inline]
-    fn time_of(&mut self, count: u32) -> Option<u64> {
-        let count = count & self.mask;
-        if !self.started {
-            self.started = true;
-            self.last_count = count;
-            return Some(self.now);
+    fn fold(&mut self) {
+        if self.now_lo < self.lo_mark {
+            self.now_hi = self.now_hi.wrapping_add(1);
         }
-        let ahead = count.wrapping_sub(self.last_count) & self.mask;
-        if ahead <= self.mask >> 1 {
-            self.last_count = count;
-            self.now += u64::from(ahead);
-            Some(self.now)
-        } else {
-            let back = self.last_count.wrapping_sub(count) & self.mask;
-            self.now.checked_sub(u64::from(back))
+        self.lo_mark = self.now_lo;
+    }
+
+    /// Moves the clock `ahead` ticks forward; the new low word.
+    fn step(&mut self, ahead: u32) -> u32 {
+        self.fold();
+        let (lo, carry) = self.now_lo.overflowing_add(ahead);
+        if carry {
+            self.now_hi = self.now_hi.wrapping_add(1);
         }
+        self.now_lo = lo;
+        self.lo_mark = lo;
+        lo
+    }
+
+    /// Whether the present window has ended at time `t` (the low word of
+    /// now: within 2^31 ticks of the window's end, so a wrapping
+    /// difference decides).
+    #[inline(always)]
+    fn window_ended(&self, t: u32) -> bool {
+        t.wrapping_sub(self.win_end_lo) as i32 >= 0
     }
 
     /// Takes one edge of channel `ch` (`rising`: the pin went high) at timer
     /// count `count`; calls `on_cycle` for each window it completes (at most
     /// [`MAX_CATCH_UP`]). Per edge O(1), integer, no division. A channel
     /// past the last is counted and ignored. Never panics.
+    ///
+    /// The count becomes a tick count by a wrapping difference from the
+    /// latest count, half the timer's range or more being a step back
+    /// ([module docs](crate::edge)). In the common case (a step forward
+    /// within the window, an edge to the other level, room in the
+    /// channel's queue of [`QUEUE`](super::channel) edges) the call only
+    /// queues the edge's time; the queued edges are taken (glitch filter,
+    /// pulses) when the queue is full or the window ends, with the same
+    /// result as taking each at once.
     #[inline]
     pub fn push_edge(
         &mut self,
@@ -130,15 +197,129 @@ impl<const N: usize> EdgeFrontend<N> {
         count: u32,
         on_cycle: impl FnMut(&Cycle<N, 0>),
     ) {
-        let t = self.time_of(count);
-        self.close_windows(on_cycle);
-        match t {
-            Some(t) => self.take(ch, rising != self.active_low, t),
-            None => {
-                if let Some(c) = self.ch.get_mut(ch) {
-                    c.stats.out_of_order = c.stats.out_of_order.saturating_add(1);
+        let count = count & self.mask;
+        let ahead = count.wrapping_sub(self.last_count) & self.mask;
+        let t = self.now_lo.wrapping_add(ahead);
+        if ahead < self.limit && !self.window_ended(t) {
+            if let Some(q) = self.queue.get_mut(ch) {
+                if q.push(rising, t) {
+                    self.last_count = count;
+                    self.now_lo = t;
+                    return;
                 }
             }
+        }
+        self.push_edge_slow(ch, rising, count, on_cycle);
+    }
+
+    /// [`push_edge`](Self::push_edge) for everything but its common case:
+    /// the first call, the end of a window, a full queue, an edge to the
+    /// same level, a step back, a channel past the last.
+    #[cold]
+    #[inline(never)]
+    fn push_edge_slow(
+        &mut self,
+        ch: usize,
+        rising: bool,
+        count: u32,
+        on_cycle: impl FnMut(&Cycle<N, 0>),
+    ) {
+        let active = rising != self.active_low;
+        if self.limit == 0 {
+            self.start(count);
+            self.close_windows(on_cycle);
+            self.take_now(ch, active, self.now_lo);
+            return;
+        }
+        let ahead = count.wrapping_sub(self.last_count) & self.mask;
+        if ahead < self.limit {
+            self.last_count = count;
+            let t = self.step(ahead);
+            if self.window_ended(t) {
+                self.close_windows(on_cycle);
+            } else {
+                self.drain(ch);
+            }
+            self.take_now(ch, active, t);
+            return;
+        }
+        // A step back of `back` ticks: no time passes.
+        self.fold();
+        let back = self.last_count.wrapping_sub(count) & self.mask;
+        self.drain(ch);
+        if self.now() < u64::from(back) {
+            // Before the first call.
+            if let Some(c) = self.ch.get_mut(ch) {
+                c.stats.out_of_order = c.stats.out_of_order.saturating_add(1);
+            }
+            return;
+        }
+        let now = self.now_lo;
+        if let Some(c) = self.ch.get_mut(ch) {
+            // Behind the channel's latest edge: its age is less than `back`.
+            if now.wrapping_sub(c.last_t) < back {
+                c.stats.out_of_order = c.stats.out_of_order.saturating_add(1);
+                return;
+            }
+        }
+        self.take_now(ch, active, now.wrapping_sub(back));
+    }
+
+    /// The first call: the clock starts at `count`.
+    fn start(&mut self, count: u32) {
+        self.limit = (self.mask >> 1) + 1;
+        self.last_count = count;
+    }
+
+    /// Takes channel `ch`'s queued edges, in order.
+    fn drain(&mut self, ch: usize) {
+        let (Some(q), Some(c)) = (self.queue.get_mut(ch), self.ch.get_mut(ch)) else {
+            return;
+        };
+        for i in 0..q.len() {
+            let (high, t) = q.get(i);
+            if let Some((sum, n)) = take(c, high != self.active_low, t, self.glitch, &self.accept) {
+                self.iv_sum = self.iv_sum.wrapping_add(sum);
+                self.iv_n = self.iv_n.wrapping_add(n);
+            }
+        }
+        q.reset(c.level() != self.active_low);
+    }
+
+    /// Takes every channel's queued edges.
+    fn drain_all(&mut self) {
+        for ch in 0..N {
+            self.drain(ch);
+        }
+    }
+
+    /// Takes one edge of channel `ch` at `t` (its queue empty); a channel
+    /// past the last is counted.
+    fn take_now(&mut self, ch: usize, active: bool, t: u32) {
+        let (Some(q), Some(c)) = (self.queue.get_mut(ch), self.ch.get_mut(ch)) else {
+            self.bad_channel = self.bad_channel.saturating_add(1);
+            return;
+        };
+        if let Some((sum, n)) = take(c, active, t, self.glitch, &self.accept) {
+            self.iv_sum = self.iv_sum.wrapping_add(sum);
+            self.iv_n = self.iv_n.wrapping_add(n);
+        }
+        q.reset(c.level() != self.active_low);
+    }
+
+    /// The timer count `count` as a time: forward (the clock moves), or a
+    /// step back (nothing changes).
+    fn advance_to(&mut self, count: u32) {
+        let count = count & self.mask;
+        self.fold();
+        if self.limit == 0 {
+            self.start(count);
+            return;
+        }
+        let ahead = count.wrapping_sub(self.last_count) & self.mask;
+        if ahead < self.limit {
+            self.last_count = count;
+            self.step(ahead);
         }
     }
 
@@ -147,7 +328,7 @@ impl<const N: usize> EdgeFrontend<N> {
     /// filter has cleared. Call it at least every half timer
     /// wrap while pins are quiet ([module docs](crate::edge)). Never panics.
     pub fn advance(&mut self, count: u32, on_cycle: impl FnMut(&Cycle<N, 0>)) {
-        self.time_of(count);
+        self.advance_to(count);
         self.close_windows(on_cycle);
         self.confirm_due();
     }
@@ -155,70 +336,28 @@ impl<const N: usize> EdgeFrontend<N> {
     /// Takes one read of every pin (`true`: high), one tick after the
     /// previous read; changes become edges at this tick. Never panics.
     pub fn push_levels(&mut self, levels: &[bool; N], on_cycle: impl FnMut(&Cycle<N, 0>)) {
-        if self.started {
-            self.now += 1;
+        if self.limit != 0 {
+            self.step(1);
         }
-        self.started = true;
+        self.limit = (self.mask >> 1) + 1;
         self.close_windows(on_cycle);
-        let t = self.now;
+        let t = self.now_lo;
         for (i, &high) in levels.iter().enumerate() {
             let active = high != self.active_low;
-            if let Some(c) = self.ch.get(i) {
-                let level = c.active != c.pending;
-                if active != level {
-                    self.take(i, active, t);
-                }
+            if self.ch.get(i).is_some_and(|c| c.level() != active) {
+                self.take_now(i, active, t);
             }
         }
-    }
-
-    /// The per-edge path: order and level checks, the glitch filter, then
-    /// the edge before this one confirmed.
-    #[inline]
-    fn take(&mut self, ch: usize, active: bool, t: u64) {
-        let (glitch, accept, period) = (self.glitch, self.mains.accept, self.mains.period_q8 >> 8);
-        let tracking = self.mains.stage == Stage::Track && !self.level_mode;
-        let Some(c) = self.ch.get_mut(ch) else {
-            self.bad_channel = self.bad_channel.saturating_add(1);
-            return;
-        };
-        if t < c.last_t {
-            c.stats.out_of_order = c.stats.out_of_order.saturating_add(1);
-            return;
-        }
-        let level = c.active != c.pending;
-        if active == level {
-            c.stats.same_level = c.stats.same_level.saturating_add(1);
-            c.bad = true;
-            return;
-        }
-        c.last_t = t;
-        if c.pending {
-            if t.saturating_sub(c.pending_t) < glitch {
-                c.pending = false;
-                c.stats.glitches = c.stats.glitches.saturating_add(1);
-                return;
-            }
-            let pt = c.pending_t;
-            if let Some((sum, n)) = confirm(c, pt, accept, period, tracking) {
-                self.iv_sum += sum;
-                self.iv_n += n;
-            }
-        }
-        c.pending = true;
-        c.pending_t = t;
     }
 
     /// Confirms the pending edges the glitch filter has cleared by now.
     fn confirm_due(&mut self) {
-        let (glitch, accept, period) = (self.glitch, self.mains.accept, self.mains.period_q8 >> 8);
-        let tracking = self.mains.stage == Stage::Track && !self.level_mode;
+        let (glitch, now) = (self.glitch, self.now_lo);
         for c in self.ch.iter_mut() {
-            if c.pending && self.now.saturating_sub(c.pending_t) >= glitch {
-                let pt = c.pending_t;
-                if let Some((sum, n)) = confirm(c, pt, accept, period, tracking) {
-                    self.iv_sum += sum;
-                    self.iv_n += n;
+            if c.pending() && now.wrapping_sub(c.last_t) >= glitch {
+                if let Some((sum, n)) = confirm(c, c.last_t, &self.accept) {
+                    self.iv_sum = self.iv_sum.wrapping_add(sum);
+                    self.iv_n = self.iv_n.wrapping_add(n);
                 }
             }
         }
@@ -226,17 +365,20 @@ impl<const N: usize> EdgeFrontend<N> {
 
     /// Closes every window that has ended by now (at most
     /// [`MAX_CATCH_UP`]; the rest are skipped).
+    #[inline(never)]
     fn close_windows(&mut self, mut on_cycle: impl FnMut(&Cycle<N, 0>)) {
+        self.fold();
+        self.drain_all();
         let mut closed = 0;
-        while self.now >= self.win_end {
+        while self.now() >= self.win_end {
             if closed == MAX_CATCH_UP {
                 // Too long without a call: restart the windows now.
                 let p = u64::from((self.mains.period_q8 >> 8).max(1));
-                self.win_end = self.now + p;
+                self.win_end = self.now() + p;
                 for c in self.ch.iter_mut() {
                     c.edges = 0;
                     c.width_sum = 0;
-                    c.widths = 0;
+                    c.count_pulses();
                     c.bad = true;
                 }
                 self.iv_sum = 0;
@@ -248,6 +390,11 @@ impl<const N: usize> EdgeFrontend<N> {
             self.end_window(&mut cycle);
             on_cycle(&cycle);
         }
+        let now = self.now_lo;
+        for c in self.ch.iter_mut() {
+            c.cap_ages(now);
+        }
+        self.win_end_lo = self.win_end as u32;
     }
 
     /// Ends the present window: per-channel amplitudes, the tracker, and the
@@ -259,30 +406,30 @@ impl<const N: usize> EdgeFrontend<N> {
         let mut any = false;
         let outs = cycle.fund.iter_mut().zip(cycle.dc.iter_mut());
         for (c, ((f, dc), flat)) in self.ch.iter_mut().zip(outs.zip(cycle.flat.iter_mut())) {
-            let quiet = c.edges == 0 && !c.pending && !c.bad;
+            let quiet = c.edges == 0 && !c.pending() && !c.bad;
             any |= !quiet;
             let w = if self.level_mode || quiet {
                 Window::Constant
             } else if tracking && c.widths > 0 && !c.bad {
                 let den = (u64::from(c.widths) * u64::from(period)) >> 8;
-                Window::Measured(ratio_q16(c.width_sum, den))
+                Window::Measured(ratio_q16(u64::from(c.width_sum), den))
             } else {
                 Window::Held
             };
             match w {
                 Window::Measured(d) => c.amp_q8 = duty_to_amplitude_q8(d, self.eta_q16),
                 Window::Constant => {
-                    c.amp_q8 = if c.active { MAX_AMPLITUDE_Q8 } else { 0 };
+                    c.amp_q8 = if c.active() { MAX_AMPLITUDE_Q8 } else { 0 };
                 }
                 Window::Held => c.stats.held_windows = c.stats.held_windows.saturating_add(1),
             }
-            c.active_run = if (quiet || self.level_mode) && c.active {
+            c.active_run = if (quiet || self.level_mode) && c.active() {
                 c.active_run.saturating_add(1)
             } else {
                 0
             };
             *flat = c.active_run > self.stuck_after;
-            *dc = if c.edges >= CHATTER_EDGES {
+            *dc = if u16::from(c.edges) >= CHATTER_EDGES {
                 u16::MAX
             } else {
                 1 << 15
@@ -293,14 +440,16 @@ impl<const N: usize> EdgeFrontend<N> {
             };
             c.edges = 0;
             c.width_sum = 0;
-            c.widths = 0;
+            c.count_pulses();
             c.bad = false;
         }
         cycle.end_sample = self.win_end;
         cycle.samples = period >> 8;
         cycle.rails = (0, u16::MAX);
         if !self.level_mode {
-            self.mains.end_window(self.iv_sum, self.iv_n, any);
+            self.mains
+                .end_window(u64::from(self.iv_sum), self.iv_n, any);
+            self.sync_accept();
         }
         self.iv_sum = 0;
         self.iv_n = 0;
@@ -317,7 +466,21 @@ impl<const N: usize> EdgeFrontend<N> {
 
     /// Counts of channel `ch`'s input, or `None` past the last channel.
     pub fn stats(&self, ch: usize) -> Option<EdgeStats> {
-        self.ch.get(ch).map(|c| c.stats)
+        let mut c = *self.ch.get(ch)?;
+        // The queued edges, taken on a copy.
+        if let Some(q) = self.queue.get(ch) {
+            for i in 0..q.len() {
+                let (high, t) = q.get(i);
+                let _ = take(
+                    &mut c,
+                    high != self.active_low,
+                    t,
+                    self.glitch,
+                    &self.accept,
+                );
+            }
+        }
+        Some(c.stats())
     }
 
     /// Calls with a channel index past the last, since construction.
@@ -332,7 +495,8 @@ impl<const N: usize> EdgeFrontend<N> {
 
     /// Ticks since the first call.
     pub const fn now(&self) -> u64 {
-        self.now
+        let wrapped = (self.now_lo < self.lo_mark) as u64;
+        (self.now_hi as u64 + wrapped) << 32 | self.now_lo as u64
     }
 }
 
@@ -397,7 +561,7 @@ mod tests {
         f.advance(9_000, |_| {});
         let c = f.ch[0];
         assert_eq!(c.stats.glitches, 2);
-        assert!(!c.active);
+        assert!(!c.active());
         // Both confirmed edges of the ring's pulse, none of the spike's.
         assert_eq!(c.edges, 2);
     }
