@@ -40,6 +40,36 @@
 //!   with `CORTEXM_FLASH_PROBE=0|1|4|8`) and passes the figures in at build
 //!   time as `CORTEXM_FLASH="1=…,4=…,8=…"`; without it the field reads `na`.
 //!
+//! For the edge input (`humsense::edge`, a comparator or GPIO pin timed by
+//! a 16-bit timer at 1 MHz), one line per case:
+//!
+//! ```text
+//! cortexm: target=<triple> input=edges profile=<touch|field> channels=<n> insn_per_edge=<f> insn_per_cycle=<f> ram_bytes=<n> flash_bytes=<n|na>
+//! ```
+//!
+//! over 4 s of a representative train (after 3 s of warm-up): per pin
+//! ambient pulses, a burst of chatter (100 ms of five pulses a cycle), one
+//! edge in 37 pulses lost, and on pin 0 a touch of 0.5 s every 2 s.
+//! Every `EdgeDetector::push_edge` call is timed on its own (the call
+//! overhead, measured on an empty function of the same signature,
+//! subtracted); a copy of the front end, fed outside the timed region,
+//! tells which calls ended a window.
+//!
+//! - `insn_per_edge`: the interrupt-side call, the mean of the calls that
+//!   ended no window (the common path only queues the edge; the calls that
+//!   take a full queue, an edge to the same level or chatter are in the
+//!   mean).
+//! - `insn_per_cycle`: everything else, per window and channel: all calls
+//!   less `insn_per_edge` each, divided by windows × channels.
+//! - `ram_bytes`: `size_of::<EdgeDetector<N>>()` (front end and back end).
+//! - `flash_bytes`: one channel only (probes `CORTEXM_FLASH_PROBE=201`,
+//!   a firmware whose loop hands SysTick counts to `push_edge` and calls
+//!   `advance`, minus 200 without the detector), `na` for more channels.
+//!
+//! `cortexm-stage: … input=edges …` adds the edge calls, the least and most
+//! instructions of one that ended no window, and the calls that ended
+//! windows with their mean and most.
+//!
 //! Further lines are for diagnosis: `cortexm-calib:`, and `cortexm-stage:`
 //! with per-call counts from the split pipeline (call overhead subtracted):
 //! `sample_path_insn_per_sample` (`Frontend::push_frame` on frames that end
@@ -597,7 +627,7 @@ mod target {
     const EDGE_WARM_MS: u32 = 3_000;
     const EDGE_MS: u32 = 4_000;
     /// Edges generated before each run of timed calls.
-    const EDGE_BATCH: usize = 128;
+    const EDGE_BATCH: usize = 32;
 
     /// The representative train, per pin: ambient pulses (duty 0.22 of a
     /// period: a hum of 1.3 Vt), a burst of chatter (five pulses a cycle
@@ -671,6 +701,7 @@ mod target {
         /// Calls that ended no window: count, instructions, most in one.
         plain: u64,
         plain_insn: u64,
+        plain_min: u64,
         plain_max: u64,
         /// Calls that ended one or more windows: count, instructions, most.
         ending: u64,
@@ -683,6 +714,7 @@ mod target {
     /// Times every `push_edge` of the measured part of the train, one call
     /// at a time (call overhead subtracted); a shadow front end, outside
     /// the timed region, tells which calls ended windows.
+    #[inline(never)]
     fn edge_costs<const N: usize>(
         det: &mut EdgeDetector<N>,
         src: &mut EdgeSource<N>,
@@ -701,6 +733,7 @@ mod target {
         let mut r = EdgeCost {
             plain: 0,
             plain_insn: 0,
+            plain_min: u64::MAX,
             plain_max: 0,
             ending: 0,
             ending_insn: 0,
@@ -728,6 +761,7 @@ mod target {
                 if windows == 0 {
                     r.plain += 1;
                     r.plain_insn += cost;
+                    r.plain_min = r.plain_min.min(cost);
                     r.plain_max = r.plain_max.max(cost);
                 } else {
                     r.ending += 1;
@@ -746,6 +780,36 @@ mod target {
         option_env!("CORTEXM_EDGE_FLASH")?.trim().parse().ok()
     }
 
+    /// One run: a fresh detector on a fresh train, warmed up, then every
+    /// edge of the measured part timed. The detector's size comes back
+    /// with the cost.
+    #[inline(never)]
+    fn edge_run<const N: usize>(cfg: Config, edge: EdgeConfig) -> Result<(EdgeCost, u32), ()> {
+        let Ok(mut det) = EdgeDetector::<N>::new(cfg, edge) else {
+            hprintln!("cortexm-error: edge configuration rejected");
+            return Err(());
+        };
+        let mut src = edge_source::<N>();
+        let mut events = 0u32;
+        let warm_end = u64::from(EDGE_WARM_MS) * u64::from(EDGE_TICK_HZ) / 1000;
+        let mask = TimerWidth::Bits16.mask();
+        // Warm-up: every edge before `warm_end`, and the first after it.
+        while let Some(e) = src.next() {
+            det.push_edge(usize::from(e.ch), e.active, (e.tick as u32) & mask, |_| {
+                events += 1
+            });
+            if e.tick >= warm_end {
+                break;
+            }
+        }
+        let cost = edge_costs(&mut det, &mut src, &mut events);
+        Ok((cost, events))
+    }
+
+    // Out of line, and each run in a call of its own, so that no more than
+    // one source and detector of up to 8 channels is on the stack at a time
+    // (the M0 has 16 KiB of RAM).
+    #[inline(never)]
     fn edge_bench<const N: usize>(profile: Profile) -> Result<(), ()> {
         let (cfg, name) = match profile {
             Profile::Touch => (Config::touch(), "touch"),
@@ -756,29 +820,9 @@ mod target {
             stuck_high_cycles: cfg.max_active_cycles.saturating_add(1).max(12_000),
             ..EdgeConfig::new(EDGE_TICK_HZ, TimerWidth::Bits16)
         };
-        let Ok(mut det) = EdgeDetector::<N>::new(cfg, edge) else {
-            hprintln!("cortexm-error: edge configuration rejected");
-            return Err(());
-        };
-        let mut src = edge_source::<N>();
-        let mut events = 0u32;
-        let warm_end = u64::from(EDGE_WARM_MS) * u64::from(EDGE_TICK_HZ) / 1000;
-        let mask = TimerWidth::Bits16.mask();
-        loop {
-            let before = src;
-            let Some(e) = src.next() else { break };
-            if e.tick >= warm_end {
-                src = before;
-                break;
-            }
-            det.push_edge(usize::from(e.ch), e.active, (e.tick as u32) & mask, |_| {
-                events += 1
-            });
-        }
-        let (det_start, src_start) = (det.clone(), src);
-        let cost = edge_costs(&mut det, &mut src, &mut events);
-        let (mut det2, mut src2) = (det_start, src_start);
-        let again = edge_costs(&mut det2, &mut src2, &mut events);
+        // Same start, same input: the count must repeat exactly.
+        let (cost, events) = edge_run::<N>(cfg, edge)?;
+        let (again, _) = edge_run::<N>(cfg, edge)?;
         if cost != again {
             hprintln!(
                 "cortexm-error: repeated edge runs counted {} then {} instructions (no -icount?)",
@@ -816,8 +860,8 @@ mod target {
         }
         let (ew, ewf) = ratio(cost.ending_insn, cost.ending);
         hprintln!(
-            "cortexm-stage: target={} input=edges profile={} channels={} edges={} plain_edges={} insn_per_edge_max={} window_calls={} windows={} insn_per_window_call={}.{:02} insn_per_window_call_max={} frontend_ram_bytes={} events={}",
-            TRIPLE, name, N, calls, cost.plain, cost.plain_max, cost.ending, cost.windows,
+            "cortexm-stage: target={} input=edges profile={} channels={} edges={} plain_edges={} insn_per_edge_min={} insn_per_edge_max={} window_calls={} windows={} insn_per_window_call={}.{:02} insn_per_window_call_max={} frontend_ram_bytes={} events={}",
+            TRIPLE, name, N, calls, cost.plain, cost.plain_min, cost.plain_max, cost.ending, cost.windows,
             ew, ewf, cost.ending_max, front_ram, events
         );
         Ok(())

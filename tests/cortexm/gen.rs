@@ -386,7 +386,9 @@ pub struct TrainEdge {
 
 /// Most edges one pin's pulse can make (chatter of 6 pulses, or one
 /// ringing pulse).
-const PIN_BUF: usize = 16;
+const PIN_BUF: usize = 12;
+/// The bit of a buffered edge that marks it activating.
+const ACTIVE_BIT: u32 = 63;
 
 /// The state of one pin's train.
 #[derive(Clone, Copy, Debug)]
@@ -396,8 +398,10 @@ struct Pin {
     k: u64,
     /// Whether a stuck span is holding the pin.
     stuck: bool,
-    /// Edges of the present pulse, in time order, and how many are left.
-    buf: [(u64, bool); PIN_BUF],
+    /// Edges of the present pulse, in time order (tick, and the activating
+    /// ones with bit 63 set: a tick never reaches it), and how many are
+    /// left.
+    buf: [u64; PIN_BUF],
     len: u8,
     at: u8,
     /// Pulses counted for `drop_every`, and which edge the next drop takes.
@@ -442,7 +446,7 @@ impl<const N: usize> EdgeSource<N> {
                 },
                 k: 0,
                 stuck: false,
-                buf: [(0, false); PIN_BUF],
+                buf: [0; PIN_BUF],
                 len: 0,
                 at: 0,
                 since_drop: 0,
@@ -510,11 +514,11 @@ impl<const N: usize> EdgeSource<N> {
             .iter()
             .find(|s| ms >= s.from_ms && ms < s.to_ms)
             .map(|s| (s.what, s.to_ms));
-        let mut buf = [(0u64, false); PIN_BUF];
+        let mut buf = [0u64; PIN_BUF];
         let mut len = 0usize;
         let mut put = |t: u64, a: bool| {
             if let Some(slot) = buf.get_mut(len) {
-                *slot = (t, a);
+                *slot = t | u64::from(a) << ACTIVE_BIT;
                 len += 1;
             }
         };
@@ -600,11 +604,12 @@ impl<const N: usize> EdgeSource<N> {
                 continue;
             };
             if pin.at < pin.len {
-                let (t, _) = pin
+                let t = pin
                     .buf
                     .get(usize::from(pin.at))
                     .copied()
-                    .unwrap_or((u64::MAX, false));
+                    .unwrap_or(u64::MAX)
+                    & !(1 << ACTIVE_BIT);
                 if best.is_none_or(|(bt, _)| t < bt) {
                     best = Some((t, c));
                 }
@@ -612,7 +617,7 @@ impl<const N: usize> EdgeSource<N> {
         }
         let (t, c) = best?;
         let pin = self.pins.get_mut(c)?;
-        let (_, active) = pin.buf.get(usize::from(pin.at)).copied()?;
+        let active = pin.buf.get(usize::from(pin.at)).copied()? >> ACTIVE_BIT != 0;
         pin.at += 1;
         Some(TrainEdge {
             tick: t,
