@@ -185,7 +185,7 @@ impl<const N: usize> EdgeFrontend<N> {
     /// latest count, half the timer's range or more being a step back
     /// ([module docs](crate::edge)). In the common case (a step forward
     /// within the window, an edge to the other level, room in the
-    /// channel's queue of [`QUEUE`](super::channel) edges) the call only
+    /// channel's queue of three edges) the call only
     /// queues the edge's time; the queued edges are taken (glitch filter,
     /// pulses) when the queue is full or the window ends, with the same
     /// result as taking each at once.

@@ -43,7 +43,19 @@
 //!
 //! # Per edge
 //!
-//! Integer only, no division, no loop, no allocation, no panic:
+//! Integer only, no division, no allocation, no panic. The interrupt-side
+//! call ([`EdgeFrontend::push_edge`]) turns the count into a time and, in
+//! the common case (a step forward inside the window, an edge to the other
+//! level), only stores the time in the channel's queue of three edges.
+//! Times are kept as the low 32 bits of the tick count and compared by
+//! wrapping differences, exact because every stored time's age is held at
+//! 2^31 ticks or less at each window end. The queued edges are taken, in
+//! order, when the queue is full, when the window ends, or before anything
+//! else reads or changes the channel (`advance`, `push_levels`, an edge to
+//! the same level, a step back, [`EdgeFrontend::stats`]). Taking an edge
+//! depends only on the channel's state, the edge's time and the tracker's
+//! bounds, which change only at a window's end, so the result is the same
+//! as taking every edge as it comes. Taking an edge:
 //!
 //! - **order**: an edge earlier than the channel's previous one is
 //!   rejected and counted ([`EdgeStats::out_of_order`]);
