@@ -40,6 +40,36 @@
 //!   with `CORTEXM_FLASH_PROBE=0|1|4|8`) and passes the figures in at build
 //!   time as `CORTEXM_FLASH="1=…,4=…,8=…"`; without it the field reads `na`.
 //!
+//! For the edge input (`humsense::edge`, a comparator or GPIO pin timed by
+//! a 16-bit timer at 1 MHz), one line per case:
+//!
+//! ```text
+//! cortexm: target=<triple> input=edges profile=<touch|field> channels=<n> insn_per_edge=<f> insn_per_cycle=<f> ram_bytes=<n> flash_bytes=<n|na>
+//! ```
+//!
+//! over 4 s of a representative train (after 3 s of warm-up): per pin
+//! ambient pulses, a burst of chatter (100 ms of five pulses a cycle), one
+//! edge in 37 pulses lost, and on pin 0 a touch of 0.5 s every 2 s.
+//! Every `EdgeDetector::push_edge` call is timed on its own (the call
+//! overhead, measured on an empty function of the same signature,
+//! subtracted); a copy of the front end, fed outside the timed region,
+//! tells which calls ended a window.
+//!
+//! - `insn_per_edge`: the interrupt-side call, the mean of the calls that
+//!   ended no window (the common path only queues the edge; the calls that
+//!   take a full queue, an edge to the same level or chatter are in the
+//!   mean).
+//! - `insn_per_cycle`: everything else, per window and channel: all calls
+//!   less `insn_per_edge` each, divided by windows × channels.
+//! - `ram_bytes`: `size_of::<EdgeDetector<N>>()` (front end and back end).
+//! - `flash_bytes`: one channel only (probes `CORTEXM_FLASH_PROBE=201`,
+//!   a firmware whose loop hands SysTick counts to `push_edge` and calls
+//!   `advance`, minus 200 without the detector), `na` for more channels.
+//!
+//! `cortexm-stage: … input=edges …` adds the edge calls, the least and most
+//! instructions of one that ended no window, and the calls that ended
+//! windows with their mean and most.
+//!
 //! Further lines are for diagnosis: `cortexm-calib:`, and `cortexm-stage:`
 //! with per-call counts from the split pipeline (call overhead subtracted):
 //! `sample_path_insn_per_sample` (`Frontend::push_frame` on frames that end
@@ -140,8 +170,10 @@ fn main() {
 /// `CORTEXM_FLASH_PROBE` at build time: 0 builds the flash probe without the
 /// detector, 1, 4 or 8 with a `Detector` of that many channels fed frame by
 /// frame (`push_frame`); 100 the block-path probe without the detector and
-/// 101 with a one-channel `Detector` fed blocks (`push_block`); unset (255)
-/// builds the benchmark.
+/// 101 with a one-channel `Detector` fed blocks (`push_block`); 200 the
+/// edge-only probe without the detector and 201 with a one-channel
+/// `EdgeDetector` (`push_edge` and `advance`); unset (255) builds the
+/// benchmark.
 #[cfg_attr(not(target_os = "none"), allow(dead_code))]
 const PROBE: u8 = match option_env!("CORTEXM_FLASH_PROBE") {
     Some(s) => parse_u8(s),
@@ -176,9 +208,13 @@ mod target {
     use cortex_m::peripheral::{syst::SystClkSource, SYST};
     use cortex_m_rt::entry;
     use cortex_m_semihosting::{debug, hprintln};
+    use humsense::edge::{EdgeConfig, EdgeDetector, EdgeFrontend, TimerWidth};
     use humsense::{Backend, Config, Cycle, Detector, Frontend, Profile};
 
-    use super::gen::{k, ChannelSpec, Knot, SignalSpec, Source};
+    use super::gen::{
+        k, span, ChannelSpec, Disturb, EdgeSource, EdgeSpec, Knot, PinSpec, SignalSpec, Source,
+        Span,
+    };
     use super::PROBE;
 
     /// Must match `-icount shift=` in `.cargo/config.toml`.
@@ -582,12 +618,271 @@ mod target {
         Ok(())
     }
 
+    // -----------------------------------------------------------------
+    // The edge input (`humsense::edge`): per edge and per window.
+
+    /// Timer of the edge benchmark: 16 bits at 1 MHz (wraps every 65.5 ms).
+    const EDGE_TICK_HZ: u32 = 1_000_000;
+    /// Edge train of the benchmark: warm-up, then the measured part.
+    const EDGE_WARM_MS: u32 = 3_000;
+    const EDGE_MS: u32 = 4_000;
+    /// Edges generated before each run of timed calls.
+    const EDGE_BATCH: usize = 32;
+
+    /// The representative train, per pin: ambient pulses (duty 0.22 of a
+    /// period: a hum of 1.3 Vt), a burst of chatter (five pulses a cycle
+    /// for 100 ms, once in the measured 4 s), one edge in 37 pulses lost;
+    /// pin 0 also has a touch of 0.5 s every 2 s (duty 0.45), the other
+    /// pins only ambient (so that the strongest-pad rule finds touches
+    /// there too). Pin c's pulses are shifted by c/8 of a period.
+    const EDGE_TOUCHED: &[Knot] = &[
+        k(0, 220),
+        k(1000, 220),
+        k(1020, 450),
+        k(1500, 450),
+        k(1520, 220),
+        k(3000, 220),
+        k(3020, 450),
+        k(3500, 450),
+        k(3520, 220),
+        k(5000, 220),
+        k(5020, 450),
+        k(5500, 450),
+        k(5520, 220),
+    ];
+    const EDGE_AMBIENT: &[Knot] = &[k(0, 220)];
+    const EDGE_SPANS: &[Span] = &[span(4200, 4300, Disturb::Chatter(5))];
+
+    fn edge_source<const N: usize>() -> EdgeSource<N> {
+        let spec = EdgeSpec {
+            tick_hz: EDGE_TICK_HZ,
+            mains_mhz: 50_000,
+            jitter: 2,
+            ring_ticks: 0,
+            seed: 0x5eed,
+        };
+        let pins: [PinSpec; 8] = core::array::from_fn(|c| PinSpec {
+            phase: (c as u32) << 29,
+            knots: if c == 0 { EDGE_TOUCHED } else { EDGE_AMBIENT },
+            spans: EDGE_SPANS,
+            drop_every: 37,
+        });
+        EdgeSource::new(spec, &pins[..N], EDGE_WARM_MS + EDGE_MS)
+    }
+
+    #[inline(never)]
+    fn edge_call<const N: usize>(
+        det: &mut EdgeDetector<N>,
+        ch: usize,
+        rising: bool,
+        count: u32,
+        events: &mut u32,
+    ) {
+        det.push_edge(ch, rising, count, |_| *events += 1);
+    }
+
+    /// The call overhead `edge_call` adds: the same signature, doing
+    /// nothing (its body is a return: `black_box(())` emits no
+    /// instruction).
+    #[inline(never)]
+    fn empty_edge_call<const N: usize>(
+        _det: &mut EdgeDetector<N>,
+        _ch: usize,
+        _rising: bool,
+        _count: u32,
+        _events: &mut u32,
+    ) {
+        black_box(());
+    }
+
+    /// What the timed calls of one run of the train added up to.
+    #[derive(Clone, Copy, PartialEq, Eq)]
+    struct EdgeCost {
+        /// Calls that ended no window: count, instructions, most in one.
+        plain: u64,
+        plain_insn: u64,
+        plain_min: u64,
+        plain_max: u64,
+        /// Calls that ended one or more windows: count, instructions, most.
+        ending: u64,
+        ending_insn: u64,
+        ending_max: u64,
+        /// Windows ended.
+        windows: u64,
+    }
+
+    /// Times every `push_edge` of the measured part of the train, one call
+    /// at a time (call overhead subtracted); a shadow front end, outside
+    /// the timed region, tells which calls ended windows.
+    #[inline(never)]
+    fn edge_costs<const N: usize>(
+        det: &mut EdgeDetector<N>,
+        src: &mut EdgeSource<N>,
+        events: &mut u32,
+    ) -> EdgeCost {
+        let mask = TimerWidth::Bits16.mask();
+        let mut shadow = det.frontend().clone();
+        let (mut d, mut e) = (black_box(0usize), black_box(false));
+        let t0 = now();
+        empty_edge_call(det, d, e, 0, events);
+        let t1 = now();
+        let overhead = black_box(insns(t0, t1));
+        d = black_box(d);
+        e = black_box(e);
+        let _ = (d, e);
+        let mut r = EdgeCost {
+            plain: 0,
+            plain_insn: 0,
+            plain_min: u64::MAX,
+            plain_max: 0,
+            ending: 0,
+            ending_insn: 0,
+            ending_max: 0,
+            windows: 0,
+        };
+        let mut buf = [(0u32, 0usize, false); EDGE_BATCH];
+        loop {
+            let mut n = 0;
+            for slot in buf.iter_mut() {
+                let Some(edge) = src.next() else { break };
+                *slot = ((edge.tick as u32) & mask, usize::from(edge.ch), edge.active);
+                n += 1;
+            }
+            if n == 0 {
+                break;
+            }
+            for &(count, ch, rising) in black_box(&buf[..n]) {
+                let t0 = now();
+                edge_call(det, ch, rising, count, events);
+                let t1 = now();
+                let cost = black_box(insns(t0, t1).saturating_sub(overhead));
+                let mut windows = 0u64;
+                shadow.push_edge(ch, rising, count, |_| windows += 1);
+                if windows == 0 {
+                    r.plain += 1;
+                    r.plain_insn += cost;
+                    r.plain_min = r.plain_min.min(cost);
+                    r.plain_max = r.plain_max.max(cost);
+                } else {
+                    r.ending += 1;
+                    r.ending_insn += cost;
+                    r.ending_max = r.ending_max.max(cost);
+                    r.windows += windows;
+                }
+            }
+        }
+        r
+    }
+
+    /// The figure handed in by `.ci/cortexm` for the one-channel edge-only
+    /// firmware, if any.
+    fn edge_flash() -> Option<u32> {
+        option_env!("CORTEXM_EDGE_FLASH")?.trim().parse().ok()
+    }
+
+    /// One run: a fresh detector on a fresh train, warmed up, then every
+    /// edge of the measured part timed. The detector's size comes back
+    /// with the cost.
+    #[inline(never)]
+    fn edge_run<const N: usize>(cfg: Config, edge: EdgeConfig) -> Result<(EdgeCost, u32), ()> {
+        let Ok(mut det) = EdgeDetector::<N>::new(cfg, edge) else {
+            hprintln!("cortexm-error: edge configuration rejected");
+            return Err(());
+        };
+        let mut src = edge_source::<N>();
+        let mut events = 0u32;
+        let warm_end = u64::from(EDGE_WARM_MS) * u64::from(EDGE_TICK_HZ) / 1000;
+        let mask = TimerWidth::Bits16.mask();
+        // Warm-up: every edge before `warm_end`, and the first after it.
+        while let Some(e) = src.next() {
+            det.push_edge(usize::from(e.ch), e.active, (e.tick as u32) & mask, |_| {
+                events += 1
+            });
+            if e.tick >= warm_end {
+                break;
+            }
+        }
+        let cost = edge_costs(&mut det, &mut src, &mut events);
+        Ok((cost, events))
+    }
+
+    // Out of line, and each run in a call of its own, so that no more than
+    // one source and detector of up to 8 channels is on the stack at a time
+    // (the M0 has 16 KiB of RAM).
+    #[inline(never)]
+    fn edge_bench<const N: usize>(profile: Profile) -> Result<(), ()> {
+        let (cfg, name) = match profile {
+            Profile::Touch => (Config::touch(), "touch"),
+            Profile::Field => (Config::field(), "field"),
+        };
+        // stuck_high_cycles above the profile's max_active_cycles.
+        let edge = EdgeConfig {
+            stuck_high_cycles: cfg.max_active_cycles.saturating_add(1).max(12_000),
+            ..EdgeConfig::new(EDGE_TICK_HZ, TimerWidth::Bits16)
+        };
+        // Same start, same input: the count must repeat exactly.
+        let (cost, events) = edge_run::<N>(cfg, edge)?;
+        let (again, _) = edge_run::<N>(cfg, edge)?;
+        if cost != again {
+            hprintln!(
+                "cortexm-error: repeated edge runs counted {} then {} instructions (no -icount?)",
+                cost.plain_insn + cost.ending_insn,
+                again.plain_insn + again.ending_insn
+            );
+            return Err(());
+        }
+        if cost.plain == 0 || cost.windows == 0 {
+            hprintln!("cortexm-error: the edge train ended no window or had no plain edge");
+            return Err(());
+        }
+        // Per edge: the mean of the calls that ended no window. Per cycle:
+        // everything else (all calls less that per-edge cost each), per
+        // window and channel.
+        let calls = cost.plain + cost.ending;
+        let total = cost.plain_insn + cost.ending_insn;
+        let per_edge_x100 = (cost.plain_insn * 100 + cost.plain / 2) / cost.plain;
+        let rest_x100 = (total * 100).saturating_sub(calls * per_edge_x100);
+        let den = cost.windows * N as u64;
+        let per_cycle_x100 = (rest_x100 + den / 2) / den;
+        let ram = core::mem::size_of::<EdgeDetector<N>>();
+        let front_ram = core::mem::size_of::<EdgeFrontend<N>>();
+        match edge_flash().filter(|_| N == 1) {
+            Some(flash) => hprintln!(
+                "cortexm: target={} input=edges profile={} channels={} insn_per_edge={}.{:02} insn_per_cycle={}.{:02} ram_bytes={} flash_bytes={}",
+                TRIPLE, name, N, per_edge_x100 / 100, per_edge_x100 % 100,
+                per_cycle_x100 / 100, per_cycle_x100 % 100, ram, flash
+            ),
+            None => hprintln!(
+                "cortexm: target={} input=edges profile={} channels={} insn_per_edge={}.{:02} insn_per_cycle={}.{:02} ram_bytes={} flash_bytes=na",
+                TRIPLE, name, N, per_edge_x100 / 100, per_edge_x100 % 100,
+                per_cycle_x100 / 100, per_cycle_x100 % 100, ram
+            ),
+        }
+        let (ew, ewf) = ratio(cost.ending_insn, cost.ending);
+        hprintln!(
+            "cortexm-stage: target={} input=edges profile={} channels={} edges={} plain_edges={} insn_per_edge_min={} insn_per_edge_max={} window_calls={} windows={} insn_per_window_call={}.{:02} insn_per_window_call_max={} frontend_ram_bytes={} events={}",
+            TRIPLE, name, N, calls, cost.plain, cost.plain_min, cost.plain_max, cost.ending, cost.windows,
+            ew, ewf, cost.ending_max, front_ram, events
+        );
+        Ok(())
+    }
+
     fn run() -> Result<(), ()> {
         calibrate()?;
+        // `CORTEXM_BENCH=edges` at build time: the edge input's lines only.
+        let adc = !matches!(option_env!("CORTEXM_BENCH"), Some("edges"));
         for profile in [Profile::Touch, Profile::Field] {
+            if !adc {
+                break;
+            }
             bench::<1>(profile)?;
             bench::<4>(profile)?;
             bench::<8>(profile)?;
+        }
+        for profile in [Profile::Touch, Profile::Field] {
+            edge_bench::<1>(profile)?;
+            edge_bench::<4>(profile)?;
+            edge_bench::<8>(profile)?;
         }
         Ok(())
     }
@@ -653,6 +948,41 @@ mod target {
         }
     }
 
+    /// Edge-only flash probe: a minimal firmware whose pin interrupt hands
+    /// the timer count (SysTick stands in for the timer) to a one-channel
+    /// `EdgeDetector`, and whose main loop calls `advance`; events out.
+    /// The configurations go through `black_box`, as a firmware that loads
+    /// its settings would.
+    fn probe_edges() -> ! {
+        let cfg = black_box(Config::touch());
+        let edge = black_box(EdgeConfig::new(1_000_000, TimerWidth::Bits16));
+        let Ok(mut det) = EdgeDetector::<1>::new(cfg, edge) else {
+            loop {
+                nop();
+            }
+        };
+        let mut rising = true;
+        loop {
+            det.push_edge(0, rising, now(), |e| {
+                black_box(e);
+            });
+            rising = !rising;
+            det.advance(now(), |e| {
+                black_box(e);
+            });
+        }
+    }
+
+    /// The same firmware without the detector.
+    fn probe_edges_without() -> ! {
+        let mut rising = true;
+        loop {
+            black_box((0usize, rising, now()));
+            rising = !rising;
+            black_box(now());
+        }
+    }
+
     /// `CORTEXM_TRACE=1` at build time: only the touch profile, one
     /// channel, through `Detector::push_block` for `TRACE_FRAMES` frames
     /// (warm-up included), and no output: a steady workload for an
@@ -676,6 +1006,32 @@ mod target {
         Ok(())
     }
 
+    /// `CORTEXM_TRACE=edges` at build time: the edge benchmark's train
+    /// (7 s: 350 windows) through a one-channel `EdgeDetector` (touch
+    /// profile), no output: the edge input's workload for the instruction
+    /// profile (`PROFILE_INPUT=edges .ci/profile`).
+    fn trace_edges() -> Result<(), ()> {
+        let cfg = Config::touch();
+        let edge = EdgeConfig::new(EDGE_TICK_HZ, TimerWidth::Bits16);
+        let Ok(mut det) = EdgeDetector::<1>::new(cfg, edge) else {
+            return Err(());
+        };
+        let mut src = edge_source::<1>();
+        let mut events = 0u32;
+        let mask = TimerWidth::Bits16.mask();
+        while let Some(e) = src.next() {
+            edge_call(
+                &mut det,
+                usize::from(e.ch),
+                e.active,
+                (e.tick as u32) & mask,
+                &mut events,
+            );
+        }
+        black_box(events);
+        Ok(())
+    }
+
     #[entry]
     fn main() -> ! {
         let Some(mut p) = cortex_m::Peripherals::take() else {
@@ -694,9 +1050,13 @@ mod target {
             8 => probe::<8>(),
             100 => probe_block_without(),
             101 => probe_block(),
+            200 => probe_edges_without(),
+            201 => probe_edges(),
             _ => {}
         }
-        let status = if option_env!("CORTEXM_TRACE").is_some() {
+        let status = if option_env!("CORTEXM_TRACE") == Some("edges") {
+            trace_edges()
+        } else if option_env!("CORTEXM_TRACE").is_some() {
             trace_one()
         } else {
             run()

@@ -7,6 +7,11 @@
 //! and a hash of its per-cycle diagnostics with `tests/cortexm/golden.rs`,
 //! bit for bit.
 //!
+//! The edge input's cases (`tests/cortexm/edge_cases.rs`: comparator edge
+//! trains from `gen.rs` on 16- and 32-bit timers that wrap, ringing,
+//! chatter, lost edges, a stuck pin, and polled pins) do the same through
+//! `EdgeDetector` and an `EdgeFrontend` + `Backend` pair.
+//!
 //! - Host (part of `cargo test --workspace`): compares with the golden file;
 //!   `HUMSENSE_BLESS=1 cargo test --test on_target` rewrites it.
 //! - Target: `cargo test --profile firmware --test on_target --target
@@ -19,6 +24,8 @@
 
 #[path = "cortexm/cases.rs"]
 mod cases;
+#[path = "cortexm/edge_cases.rs"]
+mod edge_cases;
 #[path = "cortexm/gen.rs"]
 #[allow(dead_code)]
 mod gen;

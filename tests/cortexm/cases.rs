@@ -59,7 +59,8 @@ pub const fn ev(ch: u8, kind: u8, arg: u32, sample: u64, amp: u32, base: u32) ->
 }
 
 impl Ev {
-    const ZERO: Self = ev(0, 0, 0, 0, 0, 0);
+    /// No event.
+    pub const ZERO: Self = ev(0, 0, 0, 0, 0, 0);
 
     fn from_event(e: &Event) -> Self {
         let (kind, arg) = match e.kind {
@@ -104,7 +105,8 @@ impl fmt::Display for Ev {
 pub struct Golden {
     /// Case name.
     pub name: &'static str,
-    /// Samples per channel fed.
+    /// Samples per channel fed (edge cases: edges fed, all channels; polled
+    /// cases: reads of the pins).
     pub samples: u32,
     /// Mains cycles completed.
     pub cycles: u32,
@@ -121,7 +123,8 @@ pub struct Golden {
 /// What one run of a case produced.
 #[derive(Clone, Debug)]
 pub struct Outcome {
-    /// Samples per channel fed.
+    /// Samples per channel fed (edge cases: edges fed, all channels; polled
+    /// cases: reads of the pins).
     pub samples: u32,
     /// Mains cycles completed.
     pub cycles: u32,
@@ -145,7 +148,8 @@ pub struct Outcome {
 }
 
 impl Outcome {
-    fn new() -> Self {
+    /// A fresh outcome: nothing fed, hashes at their offset.
+    pub fn new() -> Self {
         Self {
             samples: 0,
             cycles: 0,
@@ -171,23 +175,24 @@ impl Outcome {
     }
 }
 
-const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
+pub const FNV_OFFSET: u64 = 0xcbf2_9ce4_8422_2325;
 const FNV_PRIME: u64 = 0x0000_0100_0000_01b3;
 
 /// FNV-1a over 32-bit words.
 #[inline]
-fn mix(h: &mut u64, w: u32) {
+pub fn mix(h: &mut u64, w: u32) {
     *h = (*h ^ u64::from(w)).wrapping_mul(FNV_PRIME);
 }
 
-fn mix64(h: &mut u64, w: u64) {
+/// FNV-1a over a 64-bit word, low half first.
+pub fn mix64(h: &mut u64, w: u64) {
     mix(h, w as u32);
     mix(h, (w >> 32) as u32);
 }
 
 /// The per-channel decision state of a snapshot (what `Detector` and a bare
 /// `Backend` report alike).
-fn channel_fields(s: &ChannelSnapshot) -> [u32; 8] {
+pub fn channel_fields(s: &ChannelSnapshot) -> [u32; 8] {
     [
         s.amplitude_q8,
         s.baseline_q8,
@@ -242,7 +247,8 @@ pub enum Feed<const N: usize, const H: usize, S> {
 
 const BLOCK_MAX: usize = 64;
 
-fn keep(out: &mut [Ev; MAX_EVENTS], n: &mut usize, overflow: &mut bool, e: &Event) {
+/// Keeps `e` in `out` (or flags the overflow).
+pub fn keep(out: &mut [Ev; MAX_EVENTS], n: &mut usize, overflow: &mut bool, e: &Event) {
     match out.get_mut(*n) {
         Some(slot) => {
             *slot = Ev::from_event(e);
@@ -736,7 +742,8 @@ fn touch8_drift() -> Outcome {
     )
 }
 
-/// Every case, in golden-file order.
+/// Every case, in golden-file order: the ADC cases, then the edge input's
+/// (`edge_cases.rs`).
 pub const CASES: &[Case] = &[
     Case {
         name: "touch50",
@@ -777,5 +784,35 @@ pub const CASES: &[Case] = &[
         name: "touch8_drift",
         expect_on: 8,
         run: touch8_drift,
+    },
+    Case {
+        name: "edges_t16_touch50",
+        expect_on: 3,
+        run: crate::edge_cases::edges_t16_touch50,
+    },
+    Case {
+        name: "edges_t32_touch60x2",
+        expect_on: 2,
+        run: crate::edge_cases::edges_t32_touch60x2,
+    },
+    Case {
+        name: "edges_t16_faults",
+        expect_on: 2,
+        run: crate::edge_cases::edges_t16_faults,
+    },
+    Case {
+        name: "edges_t32_field4",
+        expect_on: 1,
+        run: crate::edge_cases::edges_t32_field4,
+    },
+    Case {
+        name: "poll_touch50",
+        expect_on: 1,
+        run: crate::edge_cases::poll_touch50,
+    },
+    Case {
+        name: "poll_level2",
+        expect_on: 3,
+        run: crate::edge_cases::poll_level2,
     },
 ];

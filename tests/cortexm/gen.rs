@@ -301,3 +301,328 @@ impl<const N: usize> Source<N> {
         out
     }
 }
+
+// ---------------------------------------------------------------------------
+// Edge trains: what a comparator or GPIO input sees.
+
+/// What disturbs a pin's pulse train during a [`Span`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Disturb {
+    /// Every edge rings: two transitions `ring_ticks` apart come before
+    /// it (to the new level, back, and to the new level again), inside the
+    /// glitch filter, so the front end must take the ring for one edge at
+    /// the time of its last transition.
+    Ring,
+    /// Chatter: each cycle's pulse is replaced by this many short pulses
+    /// (a quarter of their spacing wide) spread over the cycle.
+    Chatter(u8),
+    /// The pin is held active: one activating edge at the span's start,
+    /// none inside it, the release at its end.
+    Stuck,
+}
+
+/// A disturbance of one pin from `from_ms` to `to_ms` (by pulse centre).
+#[derive(Clone, Copy, Debug)]
+pub struct Span {
+    /// Start, milliseconds.
+    pub from_ms: u32,
+    /// End, milliseconds.
+    pub to_ms: u32,
+    /// What happens.
+    pub what: Disturb,
+}
+
+/// Shorthand for a [`Span`].
+pub const fn span(from_ms: u32, to_ms: u32, what: Disturb) -> Span {
+    Span {
+        from_ms,
+        to_ms,
+        what,
+    }
+}
+
+/// One pin: a pulse a mains cycle, centred at the hum's crest, whose
+/// width follows a duty envelope.
+#[derive(Clone, Copy, Debug)]
+pub struct PinSpec {
+    /// Offset of the pulse centres, 2^32 = one mains period.
+    pub phase: u32,
+    /// Duty envelope: [`Knot::amp`] is the active fraction of the period
+    /// in thousandths (0: no pulse, the hum below the threshold), linear
+    /// between knots. Must not be empty.
+    pub knots: &'static [Knot],
+    /// Disturbances (spans in time order, not overlapping).
+    pub spans: &'static [Span],
+    /// Every `drop_every`-th pulse loses one edge, alternately its
+    /// deactivating and its activating edge (0: none): a lost interrupt.
+    pub drop_every: u32,
+}
+
+/// A whole edge train.
+#[derive(Clone, Copy, Debug)]
+pub struct EdgeSpec {
+    /// Timer ticks (or pin reads) per second.
+    pub tick_hz: u32,
+    /// Mains frequency in millihertz.
+    pub mains_mhz: u32,
+    /// Timing noise of each edge: uniform in `−jitter..=jitter` ticks.
+    pub jitter: u32,
+    /// Spacing of a ring's transitions, ticks.
+    pub ring_ticks: u32,
+    /// PRNG seed.
+    pub seed: u32,
+}
+
+/// One edge: tick (from 0), channel, and whether the pin became active.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct TrainEdge {
+    /// Ticks since the start of the train.
+    pub tick: u64,
+    /// Channel.
+    pub ch: u8,
+    /// The pin became active (the hum rose past the threshold).
+    pub active: bool,
+}
+
+/// Most edges one pin's pulse can make (chatter of 6 pulses, or one
+/// ringing pulse).
+const PIN_BUF: usize = 12;
+/// The bit of a buffered edge that marks it activating.
+const ACTIVE_BIT: u32 = 63;
+
+/// The state of one pin's train.
+#[derive(Clone, Copy, Debug)]
+struct Pin {
+    spec: PinSpec,
+    /// Index of the next pulse.
+    k: u64,
+    /// Whether a stuck span is holding the pin.
+    stuck: bool,
+    /// Edges of the present pulse, in time order (tick, and the activating
+    /// ones with bit 63 set: a tick never reaches it), and how many are
+    /// left.
+    buf: [u64; PIN_BUF],
+    len: u8,
+    at: u8,
+    /// Pulses counted for `drop_every`, and which edge the next drop takes.
+    since_drop: u32,
+    drop_rise: bool,
+}
+
+/// The generator of an edge train for `N` pins, in time order: call
+/// [`EdgeSource::next`] until it returns `None`. Integers only: every
+/// build gives the same edges.
+#[derive(Clone, Copy, Debug)]
+pub struct EdgeSource<const N: usize> {
+    spec: EdgeSpec,
+    /// Mains period, ticks · 2^16.
+    period_q16: u64,
+    end: u64,
+    rng: Rng,
+    pins: [Pin; N],
+}
+
+impl<const N: usize> EdgeSource<N> {
+    /// A train of `ms` milliseconds of `spec` on `pins` (channel c uses
+    /// `pins[c % len]`; `pins` must not be empty).
+    pub fn new(spec: EdgeSpec, pins: &[PinSpec], ms: u32) -> Self {
+        let none = PinSpec {
+            phase: 0,
+            knots: &[],
+            spans: &[],
+            drop_every: 0,
+        };
+        let period_q16 =
+            ((u64::from(spec.tick_hz) * 1000) << 16) / u64::from(spec.mains_mhz.max(1));
+        Self {
+            spec,
+            period_q16,
+            end: u64::from(ms) * u64::from(spec.tick_hz) / 1000,
+            rng: Rng::new(spec.seed),
+            pins: core::array::from_fn(|c| Pin {
+                spec: match pins.len() {
+                    0 => none,
+                    len => pins.get(c % len).copied().unwrap_or(none),
+                },
+                k: 0,
+                stuck: false,
+                buf: [0; PIN_BUF],
+                len: 0,
+                at: 0,
+                since_drop: 0,
+                drop_rise: false,
+            }),
+        }
+    }
+
+    /// Ticks of the whole train.
+    pub const fn end(&self) -> u64 {
+        self.end
+    }
+
+    /// Milliseconds at tick `t`.
+    fn ms_of(&self, t: u64) -> u32 {
+        (t * 1000 / u64::from(self.spec.tick_hz.max(1))) as u32
+    }
+
+    /// Duty (thousandths) of `knots` at `ms`, linear between knots.
+    fn duty(knots: &[Knot], ms: u32) -> u32 {
+        let mut prev = match knots.first() {
+            Some(k) => *k,
+            None => return 0,
+        };
+        for k in knots {
+            if ms < k.at_ms {
+                let span = u64::from(k.at_ms - prev.at_ms).max(1);
+                let along = u64::from(ms.saturating_sub(prev.at_ms));
+                let (a, b) = (i64::from(prev.amp), i64::from(k.amp));
+                return (a + (b - a) * along as i64 / span as i64) as u32;
+            }
+            prev = *k;
+        }
+        prev.amp
+    }
+
+    /// A tick of timing noise added to `t`.
+    fn jit(&mut self, t: u64) -> u64 {
+        let j = u64::from(self.spec.jitter);
+        if j == 0 {
+            return t;
+        }
+        let r = u64::from(self.rng.next_u32()) % (2 * j + 1);
+        (t + r).saturating_sub(j)
+    }
+
+    /// Fills pin `c`'s buffer with its next pulse (or nothing, for a pulse
+    /// the hum does not make); false past the end of the train.
+    fn refill(&mut self, c: usize) -> bool {
+        let Some(pin) = self.pins.get(c).copied() else {
+            return false;
+        };
+        // Centre of pulse k: one period in, plus the pin's phase.
+        let p = self.period_q16;
+        let offset = ((p >> 8) * u64::from(pin.spec.phase >> 8)) >> 16;
+        let centre = (p * (pin.k + 1) + offset) >> 16;
+        if centre > self.end {
+            return false;
+        }
+        let period = p >> 16;
+        let ms = self.ms_of(centre);
+        let what = pin
+            .spec
+            .spans
+            .iter()
+            .find(|s| ms >= s.from_ms && ms < s.to_ms)
+            .map(|s| (s.what, s.to_ms));
+        let mut buf = [0u64; PIN_BUF];
+        let mut len = 0usize;
+        let mut put = |t: u64, a: bool| {
+            if let Some(slot) = buf.get_mut(len) {
+                *slot = t | u64::from(a) << ACTIVE_BIT;
+                len += 1;
+            }
+        };
+        let mut stuck = pin.stuck;
+        let mut since_drop = pin.since_drop;
+        let mut drop_rise = pin.drop_rise;
+        match what {
+            Some((Disturb::Stuck, _)) => {
+                if !stuck {
+                    put(centre - period / 2, true);
+                    stuck = true;
+                }
+            }
+            Some((Disturb::Chatter(n), _)) if n > 0 => {
+                let n = u64::from(n.min(6));
+                let step = period / n;
+                for j in 0..n {
+                    let c0 = centre - period / 2 + j * step + step / 2;
+                    let r = self.jit(c0 - step / 8);
+                    let f = self.jit(c0 + step / 8);
+                    put(r, true);
+                    put(f.max(r + 1), false);
+                }
+            }
+            _ => {
+                if stuck {
+                    // The release, half a period before this pulse.
+                    put(centre - period / 2, false);
+                    stuck = false;
+                }
+                let duty = u64::from(Self::duty(pin.spec.knots, ms).min(999));
+                let width = period * duty / 1000;
+                if width > 2 * u64::from(self.spec.jitter) + 2 {
+                    let mut r = Some(self.jit(centre - width / 2));
+                    let mut f = Some(self.jit(centre + width / 2));
+                    if pin.spec.drop_every > 0 {
+                        since_drop += 1;
+                        if since_drop >= pin.spec.drop_every {
+                            since_drop = 0;
+                            if drop_rise {
+                                r = None;
+                            } else {
+                                f = None;
+                            }
+                            drop_rise = !drop_rise;
+                        }
+                    }
+                    let ring = matches!(what, Some((Disturb::Ring, _)));
+                    let g = u64::from(self.spec.ring_ticks);
+                    for (t, a) in [(r, true), (f, false)] {
+                        let Some(t) = t else { continue };
+                        if ring {
+                            put(t - 2 * g, a);
+                            put(t - g, !a);
+                        }
+                        put(t, a);
+                    }
+                }
+            }
+        }
+        if let Some(pin) = self.pins.get_mut(c) {
+            pin.buf = buf;
+            pin.len = len as u8;
+            pin.at = 0;
+            pin.k += 1;
+            pin.stuck = stuck;
+            pin.since_drop = since_drop;
+            pin.drop_rise = drop_rise;
+        }
+        true
+    }
+
+    /// The next edge of any pin, in time order; `None` at the end.
+    pub fn next(&mut self) -> Option<TrainEdge> {
+        let mut best: Option<(u64, usize)> = None;
+        for c in 0..N {
+            while self.pins.get(c).is_some_and(|p| p.at >= p.len) {
+                if !self.refill(c) {
+                    break;
+                }
+            }
+            let Some(pin) = self.pins.get(c) else {
+                continue;
+            };
+            if pin.at < pin.len {
+                let t = pin
+                    .buf
+                    .get(usize::from(pin.at))
+                    .copied()
+                    .unwrap_or(u64::MAX)
+                    & !(1 << ACTIVE_BIT);
+                if best.is_none_or(|(bt, _)| t < bt) {
+                    best = Some((t, c));
+                }
+            }
+        }
+        let (t, c) = best?;
+        let pin = self.pins.get_mut(c)?;
+        let active = pin.buf.get(usize::from(pin.at)).copied()? >> ACTIVE_BIT != 0;
+        pin.at += 1;
+        Some(TrainEdge {
+            tick: t,
+            ch: c as u8,
+            active,
+        })
+    }
+}
