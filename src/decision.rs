@@ -125,6 +125,21 @@ impl DecisionTuning {
     }
 }
 
+/// What the cycles around this one say, beside its amplitude.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Evidence {
+    /// Whether the cycle's mean level stayed put (see
+    /// [`Cycle::dc_step`](crate::Cycle::dc_step)): only a steady cycle may
+    /// turn a channel on by itself.
+    pub steady: bool,
+    /// The lower of this cycle's amplitude and the previous one's (Q8
+    /// codes): the most a channel's own level rises to, so one cycle's
+    /// outlier (a front end's reading of a transition, an impulse) does not
+    /// set the level a release is measured from.
+    pub sustained: u32,
+}
+
 /// What one cycle's decision asks of the caller.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -144,7 +159,8 @@ pub enum Verdict {
 pub struct DecisionState {
     active_cycles: u16,
     /// While active: the touch's (or field's) own level in whole codes,
-    /// saturating: raised to each higher amplitude at once, followed down
+    /// saturating: raised at once to what two cycles in a row reached
+    /// (see [`Evidence::sustained`]), followed down
     /// by 1/8 of the gap a cycle (so a slow change of the whole signal, a
     /// board's ground or an ambient ramp, moves it along).
     level_q0: u16,
@@ -223,21 +239,23 @@ impl DecisionState {
         may_turn_on: bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
-        self.step_with(a, b, n, true, || may_turn_on, t)
+        let evidence = Evidence {
+            steady: true,
+            sustained: a,
+        };
+        self.step_with(a, b, n, evidence, || may_turn_on, t)
     }
 
     /// [`step`](Self::step) with the panel's permission asked only when
     /// it matters (an idle channel above its on threshold), so a costly
     /// permission (the strongest-pad rule) is mostly never computed, and
-    /// with `steady`: whether the cycle's mean level stayed put (see
-    /// [`Cycle::dc_step`](crate::Cycle::dc_step)); only a steady cycle may
-    /// turn a channel on by itself.
+    /// with what the cycles around this one say ([`Evidence`]).
     pub fn step_with(
         &mut self,
         a: u32,
         b: u32,
         n: u32,
-        steady: bool,
+        evidence: Evidence,
         may_turn_on: impl FnOnce() -> bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
@@ -253,7 +271,7 @@ impl DecisionState {
                 // Strong evidence (the excess over the baseline twice what
                 // the on threshold asks, in a cycle whose mean did not
                 // move: no impulse behind it) confirms at once.
-                let strong = steady && a - on > on - b;
+                let strong = evidence.steady && a - on > on - b;
                 let add = if strong { t.debounce_on } else { 1 };
                 self.count = self.count.saturating_add(add);
                 if self.count >= t.debounce_on {
@@ -261,7 +279,7 @@ impl DecisionState {
                     self.count = 0;
                     self.active_cycles = 0;
                     self.level = 1;
-                    self.level_q0 = whole_codes(a);
+                    self.level_q0 = whole_codes(evidence.sustained);
                     let k = if touch {
                         EventKind::TouchOn
                     } else {
@@ -297,11 +315,16 @@ impl DecisionState {
         let a0 = whole_codes(a);
         let fall = u32::from(a0);
         let dropped = fall * DROP < own;
-        // The level follows: up at once, down by 1/8 of the gap.
-        self.level_q0 = if a0 > self.level_q0 {
-            a0
+        // The level follows: up at once to what two cycles in a row
+        // reached, down by 1/8 of the gap.
+        let up = whole_codes(evidence.sustained);
+        let l = self.level_q0;
+        self.level_q0 = if up > l {
+            up
+        } else if a0 < l {
+            l - ((l - a0) >> 3)
         } else {
-            self.level_q0 - ((self.level_q0 - a0) >> 3)
+            l
         };
         if below || dropped {
             // Strong evidence: halfway from the off threshold down to the

@@ -31,9 +31,11 @@ pub(super) fn diff_gain_q8(avg_shift: u8) -> u32 {
 
 /// Takes one cycle's fundamental `f` and harmonics `h` into a channel's
 /// coherent averages `avg` and `avg_h` (shift `k`), updates its amplitude
-/// `amp_q8` (Q8 codes) and returns the noise sample: the change of
-/// amplitude times `gain` (Q8 codes). The state lives in the back end's
-/// per-channel record.
+/// `amp_q8` (Q8 codes) and returns the noise sample (the change of
+/// amplitude times `gain`, Q8 codes) and the lower of this cycle's
+/// amplitude and the previous one's (what a touch's own level may rise
+/// to: a single cycle's outlier does not raise it). The state lives in the
+/// back end's per-channel record.
 #[inline(always)]
 pub(super) fn update<const H: usize>(
     avg: &mut Iq,
@@ -42,7 +44,7 @@ pub(super) fn update<const H: usize>(
     (f, h): (&Iq, &[Iq; H]),
     k: u8,
     gain: u32,
-) -> u32 {
+) -> (u32, u32) {
     average(avg, f, k);
     let mut power = avg.power();
     for (a, z) in avg_h.iter_mut().zip(h.iter()) {
@@ -58,8 +60,9 @@ pub(super) fn update<const H: usize>(
     // Noise sample: the change since the last cycle, scaled to a mean
     // absolute deviation (see `diff_gain_q8`).
     let d = mul_q8(amp.abs_diff(*amp_q8), gain);
+    let sustained = amp.min(*amp_q8);
     *amp_q8 = amp;
-    d
+    (d, sustained)
 }
 
 /// Complex exponential average `a += (z − a) >> k` (k = 0: `a = z`).

@@ -6,7 +6,7 @@ use super::amplitude::{self, diff_gain_q8};
 use super::cycle::Cycle;
 use crate::baseline::{BaselineState, BaselineTuning};
 use crate::config::{Config, MAX_CHANNELS, MAX_HARMONICS};
-use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Verdict};
+use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Evidence, Verdict};
 use crate::demod::Iq;
 use crate::error::ConfigError;
 use crate::event::Event;
@@ -97,9 +97,9 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             .ch
             .iter_mut()
             .zip(cycle.fund.iter().zip(cycle.harm.iter()));
-        let noise: [u32; N] = core::array::from_fn(|_| {
+        let noise: [(u32, u32); N] = core::array::from_fn(|_| {
             let Some((c, (f, h))) = inputs.next() else {
-                return 0;
+                return (0, 0);
             };
             amplitude::update(&mut c.avg, &mut c.avg_h, &mut c.amp_q8, (f, h), k, gain)
         });
@@ -126,7 +126,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             .iter()
             .zip(cycle.flat.iter())
             .zip(noise.iter().zip(cycle.dc_step.iter()));
-        for (channel, (c, ((dc, flat), (d, dc_step)))) in
+        for (channel, (c, ((dc, flat), ((d, sustained), dc_step)))) in
             (0u8..).zip(self.ch.iter_mut().zip(extras))
         {
             let amp = c.amp_q8;
@@ -177,9 +177,13 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                 // amplitude by at most twice its move of the mean; see
                 // `Cycle::dc_step`).
                 let steady = (u32::from(*dc_step) << 9) < amp.saturating_sub(b);
+                let evidence = Evidence {
+                    steady,
+                    sustained: *sustained,
+                };
                 let (e, verdict) =
                     c.decision
-                        .step_with(amp, b, n, steady, may_on, &self.decision_t);
+                        .step_with(amp, b, n, evidence, may_on, &self.decision_t);
                 match verdict {
                     // A cycle without hum (a supply interruption, a dropout
                     // shorter than the no-hum fault) says nothing about the
