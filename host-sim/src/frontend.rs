@@ -105,6 +105,14 @@ pub struct Comparator {
     pub supply_v: f64,
     /// RC low-pass `(R ohms, C farads)` before the pin, if any.
     pub rc: Option<(f64, f64)>,
+    /// Logic threshold of the MCU input that reads the pin, volts (used by
+    /// `humsim simulate --digital`; default `supply_v / 2`). It matters
+    /// only behind an RC, whose output moves between the rails slowly.
+    pub pin_threshold_v: f64,
+    /// Hysteresis of that input (a Schmitt trigger), total width in volts:
+    /// high above `pin_threshold_v + pin_hysteresis_v / 2`, low below
+    /// `pin_threshold_v − pin_hysteresis_v / 2`.
+    pub pin_hysteresis_v: f64,
 }
 
 impl Comparator {
@@ -112,6 +120,93 @@ impl Comparator {
     pub fn rc_corner_hz(&self) -> Option<f64> {
         self.rc.map(|(r, c)| 1.0 / (std::f64::consts::TAU * r * c))
     }
+
+    /// Time constant of the RC filter, seconds (0 without one).
+    pub fn rc_tau_s(&self) -> f64 {
+        self.rc.map_or(0.0, |(r, c)| r * c)
+    }
+
+    /// The logic level the MCU reads on the pin after a step of `dt`
+    /// seconds ending at `t_end`, and the time of its change within the
+    /// step if it changed.
+    ///
+    /// - Without an RC the pin is the comparator's output: it changes when
+    ///   the input crosses `threshold ± hysteresis/2`, placed between the
+    ///   step's two input voltages `v0` → `v1` by linear interpolation.
+    /// - Behind an RC the pin voltage `p1` (the RC's output) is read by an
+    ///   input with threshold `pin_threshold_v` and hysteresis
+    ///   `pin_hysteresis_v`; the crossing is interpolated between `p0` and
+    ///   `p1`.
+    ///
+    /// `s` holds the level read so far; `high` is the comparator's state
+    /// after the step (from [`AnalogFrontEndState::comparator_high`]).
+    #[allow(clippy::too_many_arguments)]
+    pub fn pin_step(
+        &self,
+        s: &mut PinState,
+        v0: f64,
+        v1: f64,
+        p0: f64,
+        p1: f64,
+        high: bool,
+        t_end: f64,
+        dt: f64,
+    ) -> Option<f64> {
+        let frac = |a: f64, b: f64, x: f64| {
+            if b == a {
+                1.0
+            } else {
+                ((x - a) / (b - a)).clamp(0.0, 1.0)
+            }
+        };
+        let (level, f) = match self.rc {
+            None => {
+                let half = 0.5 * self.hysteresis_v;
+                let at = if high {
+                    self.threshold_v + half
+                } else {
+                    self.threshold_v - half
+                };
+                (high, frac(v0, v1, at))
+            }
+            Some(_) => {
+                let half = 0.5 * self.pin_hysteresis_v;
+                let up = self.pin_threshold_v + half;
+                let down = self.pin_threshold_v - half;
+                if !s.high && p1 > up {
+                    (true, frac(p0, p1, up))
+                } else if s.high && p1 < down {
+                    (false, frac(p0, p1, down))
+                } else {
+                    (s.high, 1.0)
+                }
+            }
+        };
+        if level == s.high {
+            return None;
+        }
+        s.high = level;
+        Some(t_end - dt + f * dt)
+    }
+
+    /// The level the MCU reads at the start, from the first step's pin
+    /// voltage and comparator state.
+    pub fn pin_start(&self, pin_v: f64, high: bool) -> PinState {
+        PinState {
+            high: match self.rc {
+                None => high,
+                Some(_) => pin_v > self.pin_threshold_v,
+            },
+        }
+    }
+}
+
+/// The logic level an MCU input reads on a comparator's pin (see
+/// [`Comparator::pin_step`]).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct PinState {
+    /// The level read: true while high.
+    pub high: bool,
 }
 
 /// One of the front ends.
@@ -131,6 +226,18 @@ pub struct AnalogFrontEndState {
     high: bool,
     rc_out: f64,
     last_in: f64,
+}
+
+impl AnalogFrontEndState {
+    /// The comparator's output state (true while high).
+    pub fn comparator_high(&self) -> bool {
+        self.high
+    }
+
+    /// The latest input voltage seen, volts.
+    pub fn last_input(&self) -> f64 {
+        self.last_in
+    }
 }
 
 impl AnalogFrontEnd {
@@ -218,6 +325,8 @@ mod tests {
             hysteresis_v: 0.2,
             supply_v: 3.3,
             rc: None,
+            pin_threshold_v: 1.65,
+            pin_hysteresis_v: 0.0,
         };
         let fe = AnalogFrontEnd::Comparator(c);
         let mut s = AnalogFrontEndState::default();

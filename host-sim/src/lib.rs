@@ -35,6 +35,8 @@ pub mod configfile;
 pub mod console;
 pub mod coupling;
 pub mod demo;
+pub mod digital;
+pub mod edgeinput;
 pub mod frontend;
 pub mod input;
 pub mod interference;

@@ -520,7 +520,7 @@ impl Scenario {
         s: &FrontEndSection,
     ) -> Result<AnalogFrontEnd, ScenarioError> {
         let p = |k: &'static str| KeyPath::table("frontend", k);
-        let given: [(&'static str, bool); 15] = [
+        let given: [(&'static str, bool); 17] = [
             ("supply_v", s.supply_v.is_some()),
             ("rf_ohm", s.rf_ohm.is_some()),
             ("rg_ohm", s.rg_ohm.is_some()),
@@ -536,6 +536,8 @@ impl Scenario {
             ("hysteresis_v", s.hysteresis_v.is_some()),
             ("rc_ohm", s.rc_ohm.is_some()),
             ("rc_nf", s.rc_nf.is_some()),
+            ("pin_threshold_v", s.pin_threshold_v.is_some()),
+            ("pin_hysteresis_v", s.pin_hysteresis_v.is_some()),
         ];
         let allowed: &[&str] = match s.kind {
             FrontEndKind::Amplifier => &[
@@ -555,7 +557,15 @@ impl Scenario {
                 "load_ohm",
             ],
             FrontEndKind::Comparator => {
-                &["supply_v", "threshold_v", "hysteresis_v", "rc_ohm", "rc_nf"]
+                &[
+                    "supply_v",
+                    "threshold_v",
+                    "hysteresis_v",
+                    "rc_ohm",
+                    "rc_nf",
+                    "pin_threshold_v",
+                    "pin_hysteresis_v",
+                ]
             }
         };
         for (k, g) in given {
@@ -676,6 +686,22 @@ impl Scenario {
                     )?,
                     supply_v: supply,
                     rc,
+                    pin_threshold_v: {
+                        let v = s.pin_threshold_v.unwrap_or(supply / 2.0);
+                        if !(v.is_finite() && v > 0.0 && v < supply) {
+                            return Err(ctx.err(
+                                p("pin_threshold_v"),
+                                format!("expected a logic threshold above 0 V and below supply_v ({supply} V)"),
+                            ));
+                        }
+                        v
+                    },
+                    pin_hysteresis_v: non_negative(
+                        ctx,
+                        p("pin_hysteresis_v"),
+                        s.pin_hysteresis_v.unwrap_or(0.0),
+                        "a width in volts",
+                    )?,
                 })
             }
         })
