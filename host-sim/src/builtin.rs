@@ -46,6 +46,39 @@ pub const BUILTINS: &[(&str, &str)] = &[
         "supply-steps",
         include_str!("../scenarios/supply-steps.toml"),
     ),
+    (
+        "comparator-ambient",
+        include_str!("../scenarios/comparator-ambient.toml"),
+    ),
+    (
+        "comparator-silent",
+        include_str!("../scenarios/comparator-silent.toml"),
+    ),
+    (
+        "comparator-light-rc",
+        include_str!("../scenarios/comparator-light-rc.toml"),
+    ),
+    (
+        "comparator-heavy-rc",
+        include_str!("../scenarios/comparator-heavy-rc.toml"),
+    ),
+    (
+        "comparator-chatter",
+        include_str!("../scenarios/comparator-chatter.toml"),
+    ),
+    ("comparator-esd", include_str!("../scenarios/comparator-esd.toml")),
+];
+
+/// The built-ins made for the comparator input (`humsim simulate
+/// --digital`): rendered in 20 µs steps, checked through their edge logs
+/// (`tests/builtins_detect.rs`) rather than as ADC input.
+pub const DIGITAL: &[&str] = &[
+    "comparator-ambient",
+    "comparator-silent",
+    "comparator-light-rc",
+    "comparator-heavy-rc",
+    "comparator-chatter",
+    "comparator-esd",
 ];
 
 /// The TOML source of a built-in, if `name` is one.
