@@ -542,12 +542,13 @@ pub fn build_edge(
         32 => TimerWidth::Bits32,
         other => {
             return Err(format!(
-                "{}timer_bits {other}: expected 16 or 32",
+                "{}timer{}bits {other}: expected 16 or 32",
                 if file_bits.is_some() {
                     format!("{}: ", at("timer_bits"))
                 } else {
                     "--".into()
-                }
+                },
+                if file_bits.is_some() { "_" } else { "-" }
             ))
         }
     };

@@ -298,7 +298,7 @@ pub fn open_any(spec: &InputSpec) -> Result<Input, String> {
                 ];
                 if let Some((flag, _)) = given.iter().find(|(_, g)| *g) {
                     return Err(format!(
-                        "{name}: {flag} does not apply to an edge log (header                          `{}`), whose rows are timed changes of 0/1 levels; see --tick-hz",
+                        "{name}: {flag} does not apply to an edge log (header `{}`), whose rows are timed changes of 0/1 levels; see --tick-hz",
                         edges::EDGE_HEADER
                     ));
                 }
