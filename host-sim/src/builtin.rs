@@ -66,7 +66,10 @@ pub const BUILTINS: &[(&str, &str)] = &[
         "comparator-chatter",
         include_str!("../scenarios/comparator-chatter.toml"),
     ),
-    ("comparator-esd", include_str!("../scenarios/comparator-esd.toml")),
+    (
+        "comparator-esd",
+        include_str!("../scenarios/comparator-esd.toml"),
+    ),
 ];
 
 /// The built-ins made for the comparator input (`humsim simulate

@@ -525,8 +525,9 @@ pub fn build_edge(
             }
             rate
         }
-        None => pick(req.tick_hz, file_tick, "--tick-hz", &at, "tick_hz")?
-            .unwrap_or(DEFAULT_TICK_HZ),
+        None => {
+            pick(req.tick_hz, file_tick, "--tick-hz", &at, "tick_hz")?.unwrap_or(DEFAULT_TICK_HZ)
+        }
     };
     let file_bits = int("timer_bits", f.timer_bits, 255)?;
     let bits = pick(
@@ -574,7 +575,11 @@ pub fn build_edge(
         (Some(a), _) | (None, Some(a)) => a,
         (None, None) => EdgeInput::Pulses,
     };
-    let file_h = int("hysteresis_permille", f.hysteresis_permille, i64::from(u16::MAX))?;
+    let file_h = int(
+        "hysteresis_permille",
+        f.hysteresis_permille,
+        i64::from(u16::MAX),
+    )?;
     let h = pick(
         req.hysteresis_permille.map(u32::from),
         file_h,
@@ -606,7 +611,11 @@ pub fn build_edge(
     if let Some(a) = f.active_low {
         e.active_low = a;
     }
-    if let Some(s) = int("stuck_high_cycles", f.stuck_high_cycles, i64::from(u16::MAX))? {
+    if let Some(s) = int(
+        "stuck_high_cycles",
+        f.stuck_high_cycles,
+        i64::from(u16::MAX),
+    )? {
         e.stuck_high_cycles = s as u16;
     }
     EdgeFrontend::<1>::new(&e, back).map_err(|err| config_error(&err, file))?;

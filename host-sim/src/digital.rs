@@ -205,26 +205,23 @@ pub fn write_levels_csv<W: Write>(
     let mut levels = start_levels(r);
     let mut k = 0u64;
     let mut line = Vec::with_capacity(1 << 16);
-    let write_until = |line: &mut Vec<u8>,
-                           levels: &[bool],
-                           k: &mut u64,
-                           until: f64|
-     -> io::Result<()> {
-        while *k < total && (*k as f64) / poll_hz < until {
-            if time_column {
-                write!(line, "{:.6},", *k as f64 / poll_hz)?;
-            }
-            for (i, l) in levels.iter().enumerate() {
-                if i > 0 {
-                    line.push(b',');
+    let write_until =
+        |line: &mut Vec<u8>, levels: &[bool], k: &mut u64, until: f64| -> io::Result<()> {
+            while *k < total && (*k as f64) / poll_hz < until {
+                if time_column {
+                    write!(line, "{:.6},", *k as f64 / poll_hz)?;
                 }
-                line.push(if *l { b'1' } else { b'0' });
+                for (i, l) in levels.iter().enumerate() {
+                    if i > 0 {
+                        line.push(b',');
+                    }
+                    line.push(if *l { b'1' } else { b'0' });
+                }
+                line.push(b'\n');
+                *k += 1;
             }
-            line.push(b'\n');
-            *k += 1;
-        }
-        Ok(())
-    };
+            Ok(())
+        };
     render_changes(
         r,
         |changes, reached| {
@@ -328,9 +325,16 @@ pub fn command(cmd: &DigitalCommand) -> Result<(), CliError> {
     crate::outfile::commit_all([out, labels_file])?;
     let what = match cmd.poll_hz {
         None => format!("{written} pin changes (edge log)"),
-        Some(p) => format!("{written} reads at {} Hz (polled-level log)", crate::text::num(p)),
+        Some(p) => format!(
+            "{written} reads at {} Hz (polled-level log)",
+            crate::text::num(p)
+        ),
     };
-    let bits = if cmd.poll_hz.is_some() { " --bits 1" } else { "" };
+    let bits = if cmd.poll_hz.is_some() {
+        " --bits 1"
+    } else {
+        ""
+    };
     console::err(&format!(
         "humsim: wrote {what} of {} channels over {seconds:.1} s to {} and labels to {}\n\
          humsim: replay it with: humsim replay {}{bits} {}\n",

@@ -366,7 +366,9 @@ mod tests {
             let t = f64::from(n) * dt;
             let v0 = s.last_input();
             let p = fe.output(&mut s, v(t), dt);
-            if let Some(tc) = c.pin_step(&mut pin, v0, v(t), last_pin, p, s.comparator_high(), t, dt) {
+            if let Some(tc) =
+                c.pin_step(&mut pin, v0, v(t), last_pin, p, s.comparator_high(), t, dt)
+            {
                 out.push((tc, pin.high));
             }
             last_pin = p;
@@ -394,11 +396,23 @@ mod tests {
         let fall = (std::f64::consts::PI - 0.45f64.asin()) / w;
         let got = pin_changes(c, 2.0);
         assert_eq!(got.len(), 2, "{got:?}");
-        assert!((got[0].0 - rise).abs() < 1e-7 && got[0].1, "{got:?} vs {rise}");
-        assert!((got[1].0 - fall).abs() < 1e-7 && !got[1].1, "{got:?} vs {fall}");
+        assert!(
+            (got[0].0 - rise).abs() < 1e-7 && got[0].1,
+            "{got:?} vs {rise}"
+        );
+        assert!(
+            (got[1].0 - fall).abs() < 1e-7 && !got[1].1,
+            "{got:?} vs {fall}"
+        );
         // The duty without hysteresis: acos(Vt/A)/π = 1/3 at A = 2 Vt
         // (REFERENCES.md, comparator on a sine).
-        let got = pin_changes(Comparator { hysteresis_v: 0.0, ..c }, 2.0);
+        let got = pin_changes(
+            Comparator {
+                hysteresis_v: 0.0,
+                ..c
+            },
+            2.0,
+        );
         let duty = (got[1].0 - got[0].0) * 50.0;
         assert!((duty - 1.0 / 3.0).abs() < 1e-5, "{duty}");
     }
@@ -431,6 +445,9 @@ mod tests {
         // steps (the RC discharges to 1.32 V in the same 0.9163 τ).
         let width = got[1].0 - got[0].0;
         let sine_width = (std::f64::consts::PI - 2.0 * 0.5f64.asin()) / w;
-        assert!((width - sine_width).abs() < 40e-6, "{width} vs {sine_width}");
+        assert!(
+            (width - sine_width).abs() < 40e-6,
+            "{width} vs {sine_width}"
+        );
     }
 }

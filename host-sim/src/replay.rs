@@ -257,30 +257,30 @@ impl ChannelTask for ReplayTask<'_, '_> {
             }
         };
         let on_cycle = |cycle: &Cycle<N, 0>| {
-                back.process(cycle, |e| {
-                    if failed.is_none() {
-                        if let Err(m) = sink(&e) {
-                            failed = Some(m);
-                        }
+            back.process(cycle, |e| {
+                if failed.is_none() {
+                    if let Err(m) = sink(&e) {
+                        failed = Some(m);
                     }
-                    if keep {
-                        events.push(e);
-                    }
-                    if let Some(p) = cell.borrow_mut().as_mut() {
-                        p.event(&e);
-                    }
-                });
-                if let Some(m) = failed.take() {
-                    return Err(m);
+                }
+                if keep {
+                    events.push(e);
                 }
                 if let Some(p) = cell.borrow_mut().as_mut() {
-                    for ch in 0..N {
-                        if let Some(s) = back.snapshot(ch) {
-                            p.cycle(cycle.end_sample, ch, &s);
-                        }
+                    p.event(&e);
+                }
+            });
+            if let Some(m) = failed.take() {
+                return Err(m);
+            }
+            if let Some(p) = cell.borrow_mut().as_mut() {
+                for ch in 0..N {
+                    if let Some(s) = back.snapshot(ch) {
+                        p.cycle(cycle.end_sample, ch, &s);
                     }
                 }
-                Ok(())
+            }
+            Ok(())
         };
         let frames = match self.src {
             Feed::Frames(src) => drive::<N>(src, self.cfg, on_frame, on_cycle)?,
@@ -393,7 +393,8 @@ pub fn prepare(
             })
         }
         Input::Levels(_) | Input::Edges(_) => {
-            let cfg = crate::configfile::build_digital(profile, mains, file.as_ref()).map_err(lead)?;
+            let cfg =
+                crate::configfile::build_digital(profile, mains, file.as_ref()).map_err(lead)?;
             let polled_hz = match &input {
                 Input::Levels(src) => {
                     let r = src.rate_hz().round();

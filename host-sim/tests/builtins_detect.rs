@@ -23,8 +23,8 @@
 
 use humsense::{Event, EventKind, Profile};
 use humsim::input::RenderSource;
-use humsim::labels::{Label, LabelKind};
 use humsim::input::{EdgeLog, Input};
+use humsim::labels::{Label, LabelKind};
 use humsim::replay::{config_for, replay, replay_input};
 use humsim::scenario::{RenderOptions, Scenario};
 use humsim::score::{score_events, ScoreOptions};
@@ -163,7 +163,10 @@ fn check_digital(name: &str) -> (String, String) {
             l.median_ms, l.p95_ms, l.max_ms
         )
     });
-    (problems, format!("{name:<22} {} touches, {on}", score.labels()))
+    (
+        problems,
+        format!("{name:<22} {} touches, {on}", score.labels()),
+    )
 }
 
 #[test]

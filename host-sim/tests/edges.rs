@@ -78,10 +78,7 @@ fn an_edge_log_round_trips_through_simulate_and_replay() {
     assert_eq!(code, 0, "{err}");
     // The summary says how to replay it: the scenario's h/Vt is
     // 0.2 mV / 1.2 mV = 0.1667 (computed).
-    assert!(
-        err.contains("--hysteresis-permille 167"),
-        "{err}"
-    );
+    assert!(err.contains("--hysteresis-permille 167"), "{err}");
     // The contract: header, start rows at 0 for each channel, rows in time
     // order with 6 decimals, levels 0/1 changing at every row but the end
     // rows.
@@ -93,7 +90,11 @@ fn an_edge_log_round_trips_through_simulate_and_replay() {
             let c: Vec<&str> = l.split(',').collect();
             assert_eq!(c.len(), 3, "{l}");
             assert_eq!(c[0].split('.').nth(1).unwrap().len(), 6, "{l}");
-            (c[0].parse().unwrap(), c[1].to_string(), c[2].parse().unwrap())
+            (
+                c[0].parse().unwrap(),
+                c[1].to_string(),
+                c[2].parse().unwrap(),
+            )
         })
         .collect();
     assert_eq!(rows[0], (0.0, "hob".into(), 0));
@@ -132,7 +133,10 @@ fn an_edge_log_round_trips_through_simulate_and_replay() {
     // hob, held 2 s: its off comes after the log's end).
     assert_eq!(all_row(&err), ["3", "3", "0", "0"], "{err}");
     let ev = events(&out);
-    let kinds: Vec<(&str, &str)> = ev.iter().map(|(c, e, _)| (c.as_str(), e.as_str())).collect();
+    let kinds: Vec<(&str, &str)> = ev
+        .iter()
+        .map(|(c, e, _)| (c.as_str(), e.as_str()))
+        .collect();
     assert_eq!(
         kinds,
         [
@@ -186,7 +190,13 @@ fn a_polled_level_log_round_trips_with_bits_1() {
     // The same scenario as an edge log: the same events, each within a
     // mains window (20 ms) of the polled log's.
     let edges = tmp("silent-edges.csv");
-    let (code, _, err) = run(&["simulate", "comparator-silent", "--digital", "-o", p(&edges)]);
+    let (code, _, err) = run(&[
+        "simulate",
+        "comparator-silent",
+        "--digital",
+        "-o",
+        p(&edges),
+    ]);
     assert_eq!(code, 0, "{err}");
     let (code, out2, err) = run(&["replay", p(&edges), "--hysteresis-permille", "167"]);
     assert_eq!(code, 0, "{err}");
@@ -282,7 +292,13 @@ fn tune_on_an_edge_log_writes_a_config_that_replays() {
     let log = tmp("lrc.csv");
     let labels = tmp("lrc.csv.labels.csv");
     let toml = tmp("lrc-tuned.toml");
-    let (code, _, err) = run(&["simulate", "comparator-light-rc", "--digital", "-o", p(&log)]);
+    let (code, _, err) = run(&[
+        "simulate",
+        "comparator-light-rc",
+        "--digital",
+        "-o",
+        p(&log),
+    ]);
     assert_eq!(code, 0, "{err}");
     let (code, out, err) = run(&[
         "tune",
@@ -298,7 +314,10 @@ fn tune_on_an_edge_log_writes_a_config_that_replays() {
     ]);
     assert_eq!(code, 0, "{err}\n{out}");
     assert!(out.contains("a full replay reproduced its"), "{out}");
-    assert!(out.contains("const EDGE: humsense::edge::EdgeConfig"), "{out}");
+    assert!(
+        out.contains("const EDGE: humsense::edge::EdgeConfig"),
+        "{out}"
+    );
     let text = std::fs::read_to_string(&toml).unwrap();
     assert!(text.contains("\n[edge]\n"), "{text}");
     assert!(text.contains("hysteresis_permille = 167\n"), "{text}");
@@ -325,7 +344,9 @@ fn tune_on_an_edge_log_writes_a_config_that_replays() {
     ]);
     assert_eq!(code, 1);
     assert!(
-        err.contains("the file's hysteresis_permille is 167 but --hysteresis-permille 100 was given"),
+        err.contains(
+            "the file's hysteresis_permille is 167 but --hysteresis-permille 100 was given"
+        ),
         "{err}"
     );
 }
@@ -335,7 +356,13 @@ fn the_plot_of_an_edge_log_is_a_png() {
     let log = tmp("heavy.csv");
     let labels = tmp("heavy.csv.labels.csv");
     let png = tmp("heavy.png");
-    let (code, _, err) = run(&["simulate", "comparator-heavy-rc", "--digital", "-o", p(&log)]);
+    let (code, _, err) = run(&[
+        "simulate",
+        "comparator-heavy-rc",
+        "--digital",
+        "-o",
+        p(&log),
+    ]);
     assert_eq!(code, 0, "{err}");
     assert!(err.contains("--edge-input level"), "{err}");
     let (code, _, err) = run(&[

@@ -50,7 +50,11 @@ pub fn is_edge_header(line: &[u8]) -> bool {
         return false;
     };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let cells: Vec<&str> = text.trim_end_matches(['\r', '\n']).split(',').map(str::trim).collect();
+    let cells: Vec<&str> = text
+        .trim_end_matches(['\r', '\n'])
+        .split(',')
+        .map(str::trim)
+        .collect();
     cells == ["time_s", "channel", "level"]
 }
 
@@ -454,8 +458,10 @@ mod tests {
         assert_eq!(l.start_levels(), [false, true]);
         assert_eq!(l.start_s(), 0.5);
         assert_eq!(l.end_s(), 0.9);
-        let got: Vec<(f64, usize, bool)> =
-            rows.iter().map(|r| (r.time_s, r.channel, r.level)).collect();
+        let got: Vec<(f64, usize, bool)> = rows
+            .iter()
+            .map(|r| (r.time_s, r.channel, r.level))
+            .collect();
         assert_eq!(
             got,
             [(0.501, 0, true), (0.501, 1, false), (0.5025, 0, false)]
@@ -469,15 +475,42 @@ mod tests {
     fn refusals_name_line_and_column() {
         let h = "time_s,channel,level\n0.000000,a,0\n0.000000,b,0\n";
         let cases = [
-            (format!("{h}0.100000,a,2\n"), "t.csv:4:12: level `2` of channel `a`: expected 0 or 1"),
-            (format!("{h}0.100000,a,1\n0.050000,b,1\n"), "t.csv:5:1: time_s 0.050000 s comes before 0.100000 s on line 4"),
-            (format!("{h}0.100000,c,1\n"), "t.csv:4:10: channel `c` has no start row"),
-            (format!("{h}0.000000,a,1\n"), "t.csv:4:10: channel `a` has a second start row (its first is on line 2)"),
-            (format!("{h}0.1,a,1\n"), "t.csv:4:1: time_s `0.1` has 1 decimals"),
-            (format!("{h}0.100000,a\n"), "t.csv:4:1: expected 3 cells (time_s,channel,level), found 2"),
-            (format!("{h}0.100000,a,0\n0.200000,a,1\n"), "t.csv:5:1: a row after the end rows: line 4 repeats"),
-            ("time_s,channel,level\n".to_string(), "t.csv: no rows after the header"),
-            ("time_s,pad\n".to_string(), "t.csv:1:1: expected the header `time_s,channel,level`"),
+            (
+                format!("{h}0.100000,a,2\n"),
+                "t.csv:4:12: level `2` of channel `a`: expected 0 or 1",
+            ),
+            (
+                format!("{h}0.100000,a,1\n0.050000,b,1\n"),
+                "t.csv:5:1: time_s 0.050000 s comes before 0.100000 s on line 4",
+            ),
+            (
+                format!("{h}0.100000,c,1\n"),
+                "t.csv:4:10: channel `c` has no start row",
+            ),
+            (
+                format!("{h}0.000000,a,1\n"),
+                "t.csv:4:10: channel `a` has a second start row (its first is on line 2)",
+            ),
+            (
+                format!("{h}0.1,a,1\n"),
+                "t.csv:4:1: time_s `0.1` has 1 decimals",
+            ),
+            (
+                format!("{h}0.100000,a\n"),
+                "t.csv:4:1: expected 3 cells (time_s,channel,level), found 2",
+            ),
+            (
+                format!("{h}0.100000,a,0\n0.200000,a,1\n"),
+                "t.csv:5:1: a row after the end rows: line 4 repeats",
+            ),
+            (
+                "time_s,channel,level\n".to_string(),
+                "t.csv: no rows after the header",
+            ),
+            (
+                "time_s,pad\n".to_string(),
+                "t.csv:1:1: expected the header `time_s,channel,level`",
+            ),
         ];
         for (text, want) in cases {
             match log(&text) {

@@ -556,17 +556,15 @@ impl Scenario {
                 "vce_sat_v",
                 "load_ohm",
             ],
-            FrontEndKind::Comparator => {
-                &[
-                    "supply_v",
-                    "threshold_v",
-                    "hysteresis_v",
-                    "rc_ohm",
-                    "rc_nf",
-                    "pin_threshold_v",
-                    "pin_hysteresis_v",
-                ]
-            }
+            FrontEndKind::Comparator => &[
+                "supply_v",
+                "threshold_v",
+                "hysteresis_v",
+                "rc_ohm",
+                "rc_nf",
+                "pin_threshold_v",
+                "pin_hysteresis_v",
+            ],
         };
         for (k, g) in given {
             if g && !allowed.contains(&k) {
