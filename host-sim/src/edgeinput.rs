@@ -79,7 +79,7 @@ fn schedule<const N: usize>(
     }
     on_level(0, &levels);
     let mut next = step;
-    while let Some(row) = log.next()? {
+    while let Some(row) = log.next_change()? {
         let tick = to_tick(row.time_s);
         while next < tick {
             target.advance(count(next));

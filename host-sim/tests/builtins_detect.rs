@@ -134,9 +134,9 @@ fn check_digital(name: &str) -> (String, String) {
     humsim::digital::write_edge_log(&mut render, &mut log, |_| {}).unwrap();
     let board = humsim::digital::board_settings(&s).unwrap();
     let edge = board.edge_config(1_000_000);
-    let mut input = Input::Edges(
+    let mut input = Input::Edges(Box::new(
         EdgeLog::from_reader(name.into(), Box::new(std::io::Cursor::new(log))).unwrap(),
-    );
+    ));
     let cfg = humsim::configfile::build_digital(Some(Profile::Touch), None, None).unwrap();
     let out = replay_input(&mut input, &cfg, Some(&edge), &mut |_| Ok(()), None, true).unwrap();
     let names = s.channel_names();

@@ -244,7 +244,7 @@ fn replay_of_an_edge_log_equals_the_edge_detector_itself() {
     let cfg = build_digital(None, None, None).unwrap();
     let edge = humsense::edge::EdgeConfig::new(1_000_000, humsense::edge::TimerWidth::Bits32)
         .with_hysteresis_permille(167);
-    let mut input = Input::Edges(EdgeLog::open(&log).unwrap());
+    let mut input = Input::Edges(Box::new(EdgeLog::open(&log).unwrap()));
     let out = replay_input(&mut input, &cfg, Some(&edge), &mut |_| Ok(()), None, true).unwrap();
     let mut again = EdgeLog::open(&log).unwrap();
     let full: Vec<Event> = full_edge_events::<2>(&mut again, &cfg, &edge).unwrap();

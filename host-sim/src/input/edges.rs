@@ -141,8 +141,7 @@ impl EdgeLog {
             ));
         }
         // Start rows: every row at the first row's time.
-        loop {
-            let Some(p) = log.parse_row()? else { break };
+        while let Some(p) = log.parse_row()? {
             let ln = log.line_no;
             if log.start_line == 0 {
                 log.start_line = ln;
@@ -210,7 +209,7 @@ impl EdgeLog {
         self.start_s
     }
 
-    /// The latest time read so far: once [`EdgeLog::next`] has returned
+    /// The latest time read so far: once [`EdgeLog::next_change`] has returned
     /// `None`, the log's end (its end rows' time, or its last row's).
     pub fn end_s(&self) -> f64 {
         match &self.ending {
@@ -220,7 +219,7 @@ impl EdgeLog {
     }
 
     /// The next change, `None` at the end. Errors name the line and column.
-    pub fn next(&mut self) -> Result<Option<EdgeRow>, String> {
+    pub fn next_change(&mut self) -> Result<Option<EdgeRow>, String> {
         loop {
             let p = match self.ahead.take() {
                 Some(p) => p,
@@ -441,7 +440,7 @@ mod tests {
             Box::new(std::io::Cursor::new(text.as_bytes().to_vec())),
         )?;
         let mut rows = Vec::new();
-        while let Some(r) = l.next()? {
+        while let Some(r) = l.next_change()? {
             rows.push(r);
         }
         Ok((l, rows))

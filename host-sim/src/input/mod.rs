@@ -225,7 +225,7 @@ pub enum Input {
     /// Pin reads `0`/`1` at a fixed rate (a CSV with `--bits 1`).
     Levels(Box<dyn FrameSource>),
     /// Timed changes of pins (an edge log).
-    Edges(EdgeLog),
+    Edges(Box<EdgeLog>),
 }
 
 impl Input {
@@ -302,7 +302,7 @@ pub fn open_any(spec: &InputSpec) -> Result<Input, String> {
                         edges::EDGE_HEADER
                     ));
                 }
-                return Ok(Input::Edges(EdgeLog::open(&spec.path)?));
+                return Ok(Input::Edges(Box::new(EdgeLog::open(&spec.path)?)));
             }
         }
     }
