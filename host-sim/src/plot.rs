@@ -231,6 +231,7 @@ impl PlotRecorder {
         let t0 = self.start_s;
         let t_end = self.seconds(self.frames).max(t0 + 1e-3);
         let (top, bottom) = area.split_vertically(185);
+        let digital = self.digital;
         // Raw signal.
         let raw = self.raw.get(ch).map_or(&[][..], |s| &s.items[..]);
         let lo = raw.iter().map(|b| b.min[0]).fold(f32::INFINITY, f32::min);
@@ -266,7 +267,17 @@ impl PlotRecorder {
             .y_desc(if self.digital { "level" } else { "ADC code" })
             .y_labels(5)
             .x_label_formatter(&|v| format!("{v:.1}"))
-            .y_label_formatter(&|v| format!("{v:.0}"))
+            .y_label_formatter(&|v| {
+                if !digital {
+                    format!("{v:.0}")
+                } else if v.abs() < 0.01 {
+                    "0".into()
+                } else if (v - 1.0).abs() < 0.01 {
+                    "1".into()
+                } else {
+                    String::new()
+                }
+            })
             .label_style(("sans-serif", 13))
             .axis_desc_style(("sans-serif", 14))
             .light_line_style(WHITE.mix(0.0))
