@@ -20,7 +20,7 @@
 //! [`EdgeFrontend::push_levels`] at the log's rate (`tick_hz` is the rate).
 //!
 //! ## The back end
-//! The cycles go to the same [`Backend`] as the ADC path's, built from the
+//! The cycles go to the same [`Backend`](humsense::Backend) as the ADC path's, built from the
 //! configuration with `nohum_codes = 0` ([`backend_config`]), as
 //! [`EdgeDetector::new`] builds it: a comparator at rest reads 0. Events
 //! count ticks since the start ([`Event::sample`]), so their times are
