@@ -159,6 +159,7 @@ fn stats(lat: &[f64]) -> (f64, f64, f64) {
 
 fn edge_figures(dir: &std::path::Path) {
     use humsim::input::{EdgeLog, Input};
+    std::fs::create_dir_all(dir).unwrap();
     // One hour of the two-pad ESD keypad (its discharges and touches in
     // the first 30 s, pulses at rest after) as an edge log.
     let log = dir.join("comparator-esd-1h.csv");
@@ -195,6 +196,7 @@ fn edge_figures(dir: &std::path::Path) {
         rows as f64 / rep_s
     );
     let _ = std::fs::remove_file(&log);
+    let _ = std::fs::remove_dir(dir);
 
     // Touch-on latency over the comparator built-ins, through their edge
     // logs (default touch settings, the board's own hysteresis and input).

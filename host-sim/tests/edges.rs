@@ -226,6 +226,28 @@ fn a_polled_level_log_round_trips_with_bits_1() {
     ]);
     assert_eq!(code, 0, "{err}");
     assert_eq!(out3, out);
+    // Tune records the polled log's cycles once and checks its choice by
+    // a full run through EdgeDetector; the [edge] table it writes has the
+    // read rate as tick_hz.
+    let toml = tmp("silent-polled.toml");
+    let (code, tuned, err) = run(&[
+        "tune",
+        p(&log),
+        "--bits",
+        "1",
+        "--labels",
+        p(&labels),
+        "--hysteresis-permille",
+        "167",
+        "--points",
+        "30",
+        "--out",
+        p(&toml),
+    ]);
+    assert_eq!(code, 0, "{err}\n{tuned}");
+    assert!(tuned.contains("a full replay reproduced its"), "{tuned}");
+    let text = std::fs::read_to_string(&toml).unwrap();
+    assert!(text.contains("tick_hz = 10000\n"), "{text}");
 }
 
 #[test]
