@@ -330,10 +330,10 @@ pub fn command(cmd: &DigitalCommand) -> Result<(), CliError> {
             crate::text::num(p)
         ),
     };
-    let bits = if cmd.poll_hz.is_some() {
-        " --bits 1"
-    } else {
-        ""
+    let bits = match (cmd.poll_hz, cmd.time_column) {
+        (None, _) => String::new(),
+        (Some(_), true) => " --bits 1".to_string(),
+        (Some(p), false) => format!(" --bits 1 --rate {}", crate::text::num(p)),
     };
     console::err(&format!(
         "humsim: wrote {what} of {} channels over {seconds:.1} s to {} and labels to {}\n\
