@@ -65,7 +65,8 @@
 //!   centre lies one, two or three tracked periods after the last coherent
 //!   pulse's centre, within 1/16 of a period, and its width is less than
 //!   the period (see `confirm`); a pulse that is not marks the window
-//!   incoherent and does not move the reference.
+//!   incoherent and does not move the reference, unless no coherent pulse
+//!   has confirmed the reference yet (the first pulse of a train).
 //!
 //! # Per window (one mains cycle)
 //!
@@ -663,6 +664,10 @@ struct EdgeChannel {
     rise: Option<u64>,
     /// Centre of the previous pulse, if any.
     centre: Option<u64>,
+    /// Whether `centre` is a coherent pulse's (or, while acquiring, one
+    /// that a fitting interval followed); an unconfirmed reference gives way
+    /// to the next pulse.
+    confirmed: bool,
     /// This window: confirmed edges, coherent widths and their count,
     /// and whether anything incoherent happened.
     edges: u16,
@@ -684,6 +689,7 @@ impl EdgeChannel {
         last_t: 0,
         rise: None,
         centre: None,
+        confirmed: false,
         edges: 0,
         width_sum: 0,
         widths: 0,
@@ -1030,7 +1036,11 @@ impl<const N: usize> EdgeFrontend<N> {
 /// holding the pin past its falling edge two cycles in a row) is not taken
 /// for a train of its own; once the reference is more than three periods
 /// old, an incoherent pulse becomes the new reference (a train that
-/// started, or whose phase moved, is followed after one more pulse).
+/// started, or whose phase moved, is followed after one more pulse). A
+/// reference that no coherent pulse has confirmed (the first pulse of a
+/// train, which a touch's rising hum often clips short and off the crest)
+/// gives way to the next pulse at once, so a misshapen first pulse does not
+/// hold a new train off for three periods.
 #[inline]
 fn confirm(
     c: &mut EdgeChannel,
@@ -1052,11 +1062,13 @@ fn confirm(
     let (lo, hi) = (u64::from(accept.0), u64::from(accept.1));
     let fits = |iv: u64| iv >= lo && iv <= hi;
     if !tracking {
+        c.confirmed = false;
         let interval = centre.saturating_sub(c.centre.replace(centre)?);
         return fits(interval).then_some((interval, 1));
     }
     let Some(reference) = c.centre else {
         c.centre = Some(centre);
+        c.confirmed = false;
         return None;
     };
     let p = u64::from(period);
@@ -1072,6 +1084,7 @@ fn confirm(
     };
     if k != 0 && width < p {
         c.centre = Some(centre);
+        c.confirmed = true;
         c.width_sum += width;
         c.widths = c.widths.saturating_add(1);
         c.stats.pulses = c.stats.pulses.saturating_add(1);
@@ -1083,8 +1096,9 @@ fn confirm(
     } else {
         c.bad = true;
         c.stats.incoherent_pulses = c.stats.incoherent_pulses.saturating_add(1);
-        if interval > 2 * p + hi {
+        if interval > 2 * p + hi || !c.confirmed {
             c.centre = Some(centre);
+            c.confirmed = false;
         }
         None
     }
