@@ -129,9 +129,11 @@ impl DecisionTuning {
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Evidence {
-    /// Whether the cycle's mean level stayed put (see
-    /// [`Cycle::dc_step`](crate::Cycle::dc_step)): only a steady cycle may
-    /// turn a channel on by itself.
+    /// Whether the cycle's mean level stayed put against its rise (see
+    /// [`Cycle::dc_step`](crate::Cycle::dc_step); the edge input marks
+    /// windows whose amplitude is not their own measurement as unsteady):
+    /// only a steady cycle may turn a channel on by itself or raise its own
+    /// level.
     pub steady: bool,
     /// The lower of this cycle's amplitude and the previous one's (Q8
     /// codes): the most a channel's own level rises to, so one cycle's
@@ -279,7 +281,14 @@ impl DecisionState {
                     self.count = 0;
                     self.active_cycles = 0;
                     self.level = 1;
-                    self.level_q0 = whole_codes(evidence.sustained);
+                    // From a steady cycle, what two cycles reached; else
+                    // no more than the on threshold (the level then rises
+                    // on the steady cycles that follow).
+                    self.level_q0 = whole_codes(if evidence.steady {
+                        evidence.sustained
+                    } else {
+                        evidence.sustained.min(on)
+                    });
                     let k = if touch {
                         EventKind::TouchOn
                     } else {
@@ -317,7 +326,11 @@ impl DecisionState {
         let dropped = fall * DROP < own;
         // The level follows: up at once to what two cycles in a row
         // reached, down by 1/8 of the gap.
-        let up = whole_codes(evidence.sustained);
+        let up = if evidence.steady {
+            whole_codes(evidence.sustained)
+        } else {
+            0
+        };
         let l = self.level_q0;
         self.level_q0 = if up > l {
             up

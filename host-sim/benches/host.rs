@@ -1,7 +1,10 @@
 //! Host figures, printed as `bench: key=value …` lines (DESIGN.md §3):
 //! simulation and replay throughput on a one-hour four-channel log, the
 //! detector's own throughput, and touch latency over the built-in
-//! scenarios. Figures only: nothing here asserts a time.
+//! scenarios; for the comparator input, simulation and replay of a
+//! one-hour two-channel edge log and touch latency over the comparator
+//! built-ins through their edge logs. Figures only: nothing here asserts a
+//! time.
 //!
 //! `cargo bench -p humsim --bench host`
 #![allow(
@@ -101,6 +104,9 @@ fn main() {
     // Touch-on latency over every built-in touch label (default config).
     let mut lat = Vec::new();
     for name in humsim::builtin::names() {
+        if humsim::builtin::DIGITAL.contains(&name) {
+            continue;
+        }
         let s = Scenario::builtin(name).unwrap();
         let seconds = s.duration_s().min(120.0);
         let labels: Vec<_> = s
@@ -140,6 +146,120 @@ fn main() {
             lat.len(),
             p(0.5),
             p(0.95)
+        );
+    }
+    edge_figures(&dir);
+}
+
+/// Median, 95th percentile (nearest rank) and maximum of sorted values.
+fn stats(lat: &[f64]) -> (f64, f64, f64) {
+    let p = |q: f64| lat[((q * lat.len() as f64).ceil() as usize).clamp(1, lat.len()) - 1];
+    (p(0.5), p(0.95), lat[lat.len() - 1])
+}
+
+fn edge_figures(dir: &std::path::Path) {
+    use humsim::input::{EdgeLog, Input};
+    std::fs::create_dir_all(dir).unwrap();
+    // One hour of the two-pad ESD keypad (its discharges and touches in
+    // the first 30 s, pulses at rest after) as an edge log.
+    let log = dir.join("comparator-esd-1h.csv");
+    let s = Scenario::builtin("comparator-esd").unwrap();
+    let mut r = s
+        .render(&RenderOptions {
+            seconds: Some(3600.0),
+            seed: None,
+        })
+        .unwrap();
+    let t0 = Instant::now();
+    let rows = {
+        let mut w = BufWriter::new(std::fs::File::create(&log).unwrap());
+        humsim::digital::write_edge_log(&mut r, &mut w, |_| {}).unwrap()
+    };
+    let sim_s = t0.elapsed().as_secs_f64();
+    let bytes = std::fs::metadata(&log).map(|m| m.len()).unwrap_or(0);
+    println!(
+        "bench: what=simulate_edge_log scenario=comparator-esd channels=2 signal_s=3600 step_hz=50000 changes={rows} wall_s={sim_s:.3} file_mb={:.1}",
+        bytes as f64 / 1e6
+    );
+    let board = humsim::digital::board_settings(&s).unwrap();
+    let edge = board.edge_config(1_000_000);
+    let cfg = humsim::configfile::build_digital(None, None, None).unwrap();
+    let mut input = Input::Edges(Box::new(EdgeLog::open(&log).unwrap()));
+    let t0 = Instant::now();
+    let out =
+        humsim::replay::replay_input(&mut input, &cfg, Some(&edge), &mut |_| Ok(()), None, true)
+            .unwrap();
+    let rep_s = t0.elapsed().as_secs_f64();
+    println!(
+        "bench: what=replay_edge_log channels=2 signal_s=3600 changes={rows} events={} wall_s={rep_s:.3} changes_per_s={:.0}",
+        out.events.len(),
+        rows as f64 / rep_s
+    );
+    let _ = std::fs::remove_file(&log);
+    let _ = std::fs::remove_dir(dir);
+
+    // Touch-on latency over the comparator built-ins, through their edge
+    // logs (default touch settings, the board's own hysteresis and input).
+    let mut lat = Vec::new();
+    let mut per = String::new();
+    for name in humsim::builtin::DIGITAL {
+        let s = Scenario::builtin(name).unwrap();
+        let seconds = s.duration_s();
+        let labels = s.labels(seconds);
+        let mut r = s
+            .render(&RenderOptions {
+                seconds: Some(seconds),
+                seed: None,
+            })
+            .unwrap();
+        let mut bytes = Vec::new();
+        humsim::digital::write_edge_log(&mut r, &mut bytes, |_| {}).unwrap();
+        let edge = humsim::digital::board_settings(&s)
+            .unwrap()
+            .edge_config(1_000_000);
+        let mut input = Input::Edges(Box::new(
+            EdgeLog::from_reader((*name).into(), Box::new(std::io::Cursor::new(bytes))).unwrap(),
+        ));
+        let out = humsim::replay::replay_input(
+            &mut input,
+            &cfg,
+            Some(&edge),
+            &mut |_| Ok(()),
+            None,
+            true,
+        )
+        .unwrap();
+        let score = score_events(
+            &out.events,
+            1e6,
+            &s.channel_names(),
+            &labels,
+            &ScoreOptions::TOUCH,
+        )
+        .unwrap();
+        let mut mine = Vec::new();
+        for c in &score.channels {
+            mine.extend_from_slice(&c.on_latency_ms);
+        }
+        mine.sort_by(f64::total_cmp);
+        if !mine.is_empty() {
+            let (m, p95, max) = stats(&mine);
+            per.push_str(&format!(
+                "bench: what=touch_on_latency_edges scenario={name} touches={} missed={} false={} median_ms={m:.1} p95_ms={p95:.1} max_ms={max:.1}\n",
+                mine.len(),
+                score.missed(),
+                score.false_events()
+            ));
+        }
+        lat.extend(mine);
+    }
+    lat.sort_by(f64::total_cmp);
+    print!("{per}");
+    if !lat.is_empty() {
+        let (m, p95, max) = stats(&lat);
+        println!(
+            "bench: what=touch_on_latency_edges scenario=all touches={} median_ms={m:.1} p95_ms={p95:.1} max_ms={max:.1}",
+            lat.len()
         );
     }
 }

@@ -59,6 +59,42 @@ pub const BUILTINS: &[(&str, &str)] = &[
         include_str!("../scenarios/bench-lead-ramp.toml"),
     ),
     ("dock-touch", include_str!("../scenarios/dock-touch.toml")),
+    (
+        "comparator-ambient",
+        include_str!("../scenarios/comparator-ambient.toml"),
+    ),
+    (
+        "comparator-silent",
+        include_str!("../scenarios/comparator-silent.toml"),
+    ),
+    (
+        "comparator-light-rc",
+        include_str!("../scenarios/comparator-light-rc.toml"),
+    ),
+    (
+        "comparator-heavy-rc",
+        include_str!("../scenarios/comparator-heavy-rc.toml"),
+    ),
+    (
+        "comparator-chatter",
+        include_str!("../scenarios/comparator-chatter.toml"),
+    ),
+    (
+        "comparator-esd",
+        include_str!("../scenarios/comparator-esd.toml"),
+    ),
+];
+
+/// The built-ins made for the comparator input (`humsim simulate
+/// --digital`): rendered in 20 µs steps, checked through their edge logs
+/// (`tests/builtins_detect.rs`) rather than as ADC input.
+pub const DIGITAL: &[&str] = &[
+    "comparator-ambient",
+    "comparator-silent",
+    "comparator-light-rc",
+    "comparator-heavy-rc",
+    "comparator-chatter",
+    "comparator-esd",
 ];
 
 /// The TOML source of a built-in, if `name` is one.

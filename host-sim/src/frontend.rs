@@ -105,6 +105,14 @@ pub struct Comparator {
     pub supply_v: f64,
     /// RC low-pass `(R ohms, C farads)` before the pin, if any.
     pub rc: Option<(f64, f64)>,
+    /// Logic threshold of the MCU input that reads the pin, volts (used by
+    /// `humsim simulate --digital`; default `supply_v / 2`). It matters
+    /// only behind an RC, whose output moves between the rails slowly.
+    pub pin_threshold_v: f64,
+    /// Hysteresis of that input (a Schmitt trigger), total width in volts:
+    /// high above `pin_threshold_v + pin_hysteresis_v / 2`, low below
+    /// `pin_threshold_v − pin_hysteresis_v / 2`.
+    pub pin_hysteresis_v: f64,
 }
 
 impl Comparator {
@@ -112,6 +120,93 @@ impl Comparator {
     pub fn rc_corner_hz(&self) -> Option<f64> {
         self.rc.map(|(r, c)| 1.0 / (std::f64::consts::TAU * r * c))
     }
+
+    /// Time constant of the RC filter, seconds (0 without one).
+    pub fn rc_tau_s(&self) -> f64 {
+        self.rc.map_or(0.0, |(r, c)| r * c)
+    }
+
+    /// The logic level the MCU reads on the pin after a step of `dt`
+    /// seconds ending at `t_end`, and the time of its change within the
+    /// step if it changed.
+    ///
+    /// - Without an RC the pin is the comparator's output: it changes when
+    ///   the input crosses `threshold ± hysteresis/2`, placed between the
+    ///   step's two input voltages `v0` → `v1` by linear interpolation.
+    /// - Behind an RC the pin voltage `p1` (the RC's output) is read by an
+    ///   input with threshold `pin_threshold_v` and hysteresis
+    ///   `pin_hysteresis_v`; the crossing is interpolated between `p0` and
+    ///   `p1`.
+    ///
+    /// `s` holds the level read so far; `high` is the comparator's state
+    /// after the step (from [`AnalogFrontEndState::comparator_high`]).
+    #[allow(clippy::too_many_arguments)]
+    pub fn pin_step(
+        &self,
+        s: &mut PinState,
+        v0: f64,
+        v1: f64,
+        p0: f64,
+        p1: f64,
+        high: bool,
+        t_end: f64,
+        dt: f64,
+    ) -> Option<f64> {
+        let frac = |a: f64, b: f64, x: f64| {
+            if b == a {
+                1.0
+            } else {
+                ((x - a) / (b - a)).clamp(0.0, 1.0)
+            }
+        };
+        let (level, f) = match self.rc {
+            None => {
+                let half = 0.5 * self.hysteresis_v;
+                let at = if high {
+                    self.threshold_v + half
+                } else {
+                    self.threshold_v - half
+                };
+                (high, frac(v0, v1, at))
+            }
+            Some(_) => {
+                let half = 0.5 * self.pin_hysteresis_v;
+                let up = self.pin_threshold_v + half;
+                let down = self.pin_threshold_v - half;
+                if !s.high && p1 > up {
+                    (true, frac(p0, p1, up))
+                } else if s.high && p1 < down {
+                    (false, frac(p0, p1, down))
+                } else {
+                    (s.high, 1.0)
+                }
+            }
+        };
+        if level == s.high {
+            return None;
+        }
+        s.high = level;
+        Some(t_end - dt + f * dt)
+    }
+
+    /// The level the MCU reads at the start, from the first step's pin
+    /// voltage and comparator state.
+    pub fn pin_start(&self, pin_v: f64, high: bool) -> PinState {
+        PinState {
+            high: match self.rc {
+                None => high,
+                Some(_) => pin_v > self.pin_threshold_v,
+            },
+        }
+    }
+}
+
+/// The logic level an MCU input reads on a comparator's pin (see
+/// [`Comparator::pin_step`]).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct PinState {
+    /// The level read: true while high.
+    pub high: bool,
 }
 
 /// One of the front ends.
@@ -131,6 +226,18 @@ pub struct AnalogFrontEndState {
     high: bool,
     rc_out: f64,
     last_in: f64,
+}
+
+impl AnalogFrontEndState {
+    /// The comparator's output state (true while high).
+    pub fn comparator_high(&self) -> bool {
+        self.high
+    }
+
+    /// The latest input voltage seen, volts.
+    pub fn last_input(&self) -> f64 {
+        self.last_in
+    }
 }
 
 impl AnalogFrontEnd {
@@ -218,6 +325,8 @@ mod tests {
             hysteresis_v: 0.2,
             supply_v: 3.3,
             rc: None,
+            pin_threshold_v: 1.65,
+            pin_hysteresis_v: 0.0,
         };
         let fe = AnalogFrontEnd::Comparator(c);
         let mut s = AnalogFrontEndState::default();
@@ -240,5 +349,105 @@ mod tests {
             y = fe2.output(&mut s2, 1.0, 1e-3);
         }
         assert!((y - 3.3 * (1.0 - (-1.0f64).exp())).abs() < 1e-9, "{y}");
+    }
+
+    /// Steps a sine `a·sin(2π·50·t)` through `c` at 20 µs and returns the
+    /// pin's changes (time, level) over one mains cycle.
+    fn pin_changes(c: Comparator, a: f64) -> Vec<(f64, bool)> {
+        let fe = AnalogFrontEnd::Comparator(c);
+        let mut s = AnalogFrontEndState::default();
+        let dt = 20e-6;
+        let v = |t: f64| a * (std::f64::consts::TAU * 50.0 * t).sin();
+        let p0 = fe.output(&mut s, v(0.0), dt);
+        let mut pin = c.pin_start(p0, s.comparator_high());
+        let mut last_pin = p0;
+        let mut out = Vec::new();
+        for n in 1..=1000 {
+            let t = f64::from(n) * dt;
+            let v0 = s.last_input();
+            let p = fe.output(&mut s, v(t), dt);
+            if let Some(tc) =
+                c.pin_step(&mut pin, v0, v(t), last_pin, p, s.comparator_high(), t, dt)
+            {
+                out.push((tc, pin.high));
+            }
+            last_pin = p;
+        }
+        out
+    }
+
+    #[test]
+    fn pin_edges_fall_where_the_sine_crosses_the_thresholds() {
+        // A sine of amplitude 2 against a threshold of 1 with 0.2 of
+        // hysteresis rises past 1.1 at asin(0.55)/ω and falls past 0.9 at
+        // (π − asin(0.45))/ω (standard trigonometry; ω = 2π·50 Hz). Linear
+        // interpolation between 20 µs steps misses by about
+        // dt²/8 · ω·tan(φ) = 0.01 µs (computed): within 0.1 µs here.
+        let c = Comparator {
+            threshold_v: 1.0,
+            hysteresis_v: 0.2,
+            supply_v: 3.3,
+            rc: None,
+            pin_threshold_v: 1.65,
+            pin_hysteresis_v: 0.0,
+        };
+        let w = std::f64::consts::TAU * 50.0;
+        let rise = 0.55f64.asin() / w;
+        let fall = (std::f64::consts::PI - 0.45f64.asin()) / w;
+        let got = pin_changes(c, 2.0);
+        assert_eq!(got.len(), 2, "{got:?}");
+        assert!(
+            (got[0].0 - rise).abs() < 1e-7 && got[0].1,
+            "{got:?} vs {rise}"
+        );
+        assert!(
+            (got[1].0 - fall).abs() < 1e-7 && !got[1].1,
+            "{got:?} vs {fall}"
+        );
+        // The duty without hysteresis: acos(Vt/A)/π = 1/3 at A = 2 Vt
+        // (REFERENCES.md, comparator on a sine).
+        let got = pin_changes(
+            Comparator {
+                hysteresis_v: 0.0,
+                ..c
+            },
+            2.0,
+        );
+        let duty = (got[1].0 - got[0].0) * 50.0;
+        assert!((duty - 1.0 / 3.0).abs() < 1e-5, "{duty}");
+    }
+
+    #[test]
+    fn behind_an_rc_the_pin_changes_late_by_the_charging_time() {
+        // The RC output charges as Vs·(1 − e^(−t/τ)) (RC low-pass step
+        // response, standard): it reaches the input's upper threshold
+        // 1.65 + 0.33 V at τ·ln(3.3/1.32) = 0.9163 τ after the comparator
+        // rises (computed). The simulation applies the comparator's new
+        // output over the whole step in which it switched, so the RC starts
+        // charging up to one step (20 µs) early.
+        let c = Comparator {
+            threshold_v: 1.0,
+            hysteresis_v: 0.0,
+            supply_v: 3.3,
+            rc: Some((33e3, 10e-9)),
+            pin_threshold_v: 1.65,
+            pin_hysteresis_v: 0.66,
+        };
+        let w = std::f64::consts::TAU * 50.0;
+        let rise = 0.5f64.asin() / w;
+        let tau = 33e3 * 10e-9;
+        let want = rise + tau * (3.3f64 / 1.32).ln();
+        let got = pin_changes(c, 2.0);
+        assert!(got.len() == 2 && got[0].1, "{got:?}");
+        let late = got[0].0 - want;
+        assert!((-20e-6..=1e-6).contains(&late), "{late}");
+        // And falls about as late: the pulse keeps its width within two
+        // steps (the RC discharges to 1.32 V in the same 0.9163 τ).
+        let width = got[1].0 - got[0].0;
+        let sine_width = (std::f64::consts::PI - 2.0 * 0.5f64.asin()) / w;
+        assert!(
+            (width - sine_width).abs() < 40e-6,
+            "{width} vs {sine_width}"
+        );
     }
 }

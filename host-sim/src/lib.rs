@@ -9,7 +9,10 @@
 //! yields ground-truth labels ([`labels`]: the type, its CSV reader and
 //! writer); [`render`] streams codes in blocks; [`builtin`] holds the named
 //! scenarios; [`output`] writes CSV and WAV. [`input`] reads logs (CSV, WAV,
-//! raw) as frames; [`replay`] runs the detector on them; [`score`] matches
+//! raw) as frames, and edge logs; [`replay`] runs the detector on them
+//! ([`edgeinput`] for edge and polled-level logs, through the core
+//! crate's comparator input); [`digital`] is `simulate --digital`, the
+//! comparator's pin as edge or polled-level logs; [`score`] matches
 //! events to labels; [`configfile`] reads and writes detector
 //! configurations; [`plot`] draws runs; [`demo`] is `humsim demo`; [`tune`]
 //! sweeps detector constants on a labelled log. Around them: [`outfile`]
@@ -36,6 +39,8 @@ pub mod configfile;
 pub mod console;
 pub mod coupling;
 pub mod demo;
+pub mod digital;
+pub mod edgeinput;
 pub mod field_error;
 pub mod frontend;
 pub mod input;

@@ -38,6 +38,15 @@ enum Command {
         /// Add a leading time_s column to CSV output.
         #[arg(long)]
         time_column: bool,
+        /// Write the comparator's pin instead of ADC codes: an edge log
+        /// (time_s,channel,level, one row per change), or with --poll-hz a
+        /// polled-level CSV of 0/1 reads. Needs a comparator front end.
+        #[arg(long)]
+        digital: bool,
+        /// With --digital: read the pins at this rate and write a
+        /// polled-level CSV (replay it with --bits 1).
+        #[arg(long, value_name = "HZ", requires = "digital")]
+        poll_hz: Option<f64>,
     },
     /// List the built-in scenarios with a one-line description each.
     Scenarios,
@@ -49,14 +58,17 @@ enum Command {
         #[arg(long, value_name = "FILE.png")]
         plot: Option<PathBuf>,
     },
-    /// Run the detector on a logged file (CSV, WAV or raw) and print its
-    /// events as CSV `time_s,channel,event,value`.
+    /// Run the detector on a logged file (CSV, WAV, raw, edge log or
+    /// polled-level CSV) and print its events as CSV
+    /// `time_s,channel,event,value`.
     Replay {
         #[command(flatten)]
         input: InputArgs,
         /// Detector options.
         #[command(flatten)]
         detector: DetectorArgs,
+        #[command(flatten)]
+        edge: EdgeArgs,
         /// A detector configuration TOML (fields of humsense::Config).
         #[arg(long, value_name = "FILE.toml")]
         config: Option<PathBuf>,
@@ -79,6 +91,8 @@ enum Command {
         input: InputArgs,
         #[command(flatten)]
         detector: DetectorArgs,
+        #[command(flatten)]
+        edge: EdgeArgs,
         /// Ground-truth labels (channel,kind,start_s,end_s).
         #[arg(long, value_name = "FILE")]
         labels: PathBuf,
@@ -115,7 +129,8 @@ struct InputArgs {
     #[arg(long, value_name = "HZ")]
     rate: Option<f64>,
     /// ADC resolution of the codes (default 12 for CSV and raw, the PCM
-    /// width for WAV).
+    /// width for WAV); 1 reads a CSV of 0/1 pin reads at --rate (a
+    /// polled-level log).
     #[arg(long, value_name = "N")]
     bits: Option<u8>,
     /// Raw little-endian binary input: u16le or i16le.
@@ -135,6 +150,41 @@ struct DetectorArgs {
     /// Event profile: touch or field (default touch).
     #[arg(long, value_name = "touch|field", value_parser = ["touch", "field"])]
     profile: Option<String>,
+}
+
+/// The comparator input of edge logs and polled-level logs (also in the
+/// --config file's [edge] table).
+#[derive(clap::Args)]
+struct EdgeArgs {
+    /// The comparator's hysteresis over its threshold offset (h/Vt) in
+    /// thousandths, 0 for none: needed for pulses (no default).
+    #[arg(long, value_name = "H")]
+    hysteresis_permille: Option<u16>,
+    /// Timer rate an edge log's times are counted in (default 1000000).
+    #[arg(long, value_name = "HZ")]
+    tick_hz: Option<u32>,
+    /// Width of that timer: 16 or 32 (default 32).
+    #[arg(long, value_name = "16|32")]
+    timer_bits: Option<u8>,
+    /// What the pin carries: pulses (a comparator on the hum, default) or
+    /// level (behind a heavy RC: touched or not).
+    #[arg(long, value_name = "pulses|level", value_parser = ["pulses", "level"])]
+    edge_input: Option<String>,
+}
+
+impl EdgeArgs {
+    fn request(&self) -> humsim::configfile::EdgeRequest {
+        humsim::configfile::EdgeRequest {
+            polled_hz: None,
+            tick_hz: self.tick_hz,
+            timer_bits: self.timer_bits,
+            hysteresis_permille: self.hysteresis_permille,
+            input: self
+                .edge_input
+                .as_deref()
+                .and_then(humsim::configfile::parse_edge_input),
+        }
+    }
 }
 
 impl InputArgs {
@@ -174,12 +224,28 @@ fn main() -> ExitCode {
             seconds,
             seed,
             time_column,
-        } => simulate(&scenario, &output, seconds, seed, time_column),
+            digital,
+            poll_hz,
+        } => {
+            if digital {
+                humsim::digital::command(&humsim::digital::DigitalCommand {
+                    scenario,
+                    output,
+                    seconds,
+                    seed,
+                    time_column,
+                    poll_hz,
+                })
+            } else {
+                simulate(&scenario, &output, seconds, seed, time_column)
+            }
+        }
         Command::Scenarios => scenarios(),
         Command::Demo { plot } => demo(plot),
         Command::Tune {
             input,
             detector,
+            edge,
             labels,
             config,
             budget,
@@ -191,6 +257,7 @@ fn main() -> ExitCode {
             input: input.spec(),
             mains: detector.mains(),
             profile: detector.profile(),
+            edge: edge.request(),
             config,
             labels,
             budget_per_hour: budget,
@@ -203,6 +270,7 @@ fn main() -> ExitCode {
         Command::Replay {
             input,
             detector,
+            edge,
             config,
             labels,
             out,
@@ -215,6 +283,7 @@ fn main() -> ExitCode {
             labels,
             out,
             plot,
+            edge: edge.request(),
         }),
     };
     humsim::console::finish(result)

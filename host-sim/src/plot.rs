@@ -13,6 +13,12 @@
 //!   on and off thresholds (each bucket's last value), in ADC codes on a
 //!   logarithmic axis, ground-truth intervals shaded, and the events
 //!   marked as vertical lines (on, off, fault).
+//!
+//! For an edge or polled-level log ([`PlotRecorder::digital`]) the first
+//! panel is the pin level (0 or 1) and the second the amplitude the edge
+//! front end measured from each mains cycle's duty, with the baseline and
+//! thresholds, in threshold units (`A/Vt`; the core's 64 codes per `Vt`
+//! divided out).
 
 use crate::labels::Label;
 use humsense::{ChannelSnapshot, Event, EventKind};
@@ -103,6 +109,7 @@ pub struct PlotRecorder {
     events: Vec<(u64, u8, EventKind)>,
     dropped: usize,
     frames: u64,
+    digital: bool,
 }
 
 impl PlotRecorder {
@@ -117,7 +124,15 @@ impl PlotRecorder {
             events: Vec::new(),
             dropped: 0,
             frames: 0,
+            digital: false,
         }
+    }
+
+    /// The same recorder for an edge or polled-level log: pin levels, and
+    /// amplitudes in threshold units (see the module docs).
+    pub fn digital(mut self) -> PlotRecorder {
+        self.digital = true;
+        self
     }
 
     /// The same recorder with its time axis on a log's own clock: frame 0
@@ -138,8 +153,13 @@ impl PlotRecorder {
     /// Records channel `ch`'s state after the cycle that ended at sample
     /// `end_sample`.
     pub fn cycle(&mut self, end_sample: u64, ch: usize, s: &ChannelSnapshot) {
+        let unit = if self.digital {
+            (humsense::edge::UNIT_Q8 / 256) as f32
+        } else {
+            1.0
+        };
         if let Some(series) = self.cycles.get_mut(ch) {
-            let q8 = |v: u32| v as f32 / 256.0;
+            let q8 = |v: u32| v as f32 / 256.0 / unit;
             series.push(
                 end_sample,
                 [
@@ -211,6 +231,7 @@ impl PlotRecorder {
         let t0 = self.start_s;
         let t_end = self.seconds(self.frames).max(t0 + 1e-3);
         let (top, bottom) = area.split_vertically(185);
+        let digital = self.digital;
         // Raw signal.
         let raw = self.raw.get(ch).map_or(&[][..], |s| &s.items[..]);
         let lo = raw.iter().map(|b| b.min[0]).fold(f32::INFINITY, f32::min);
@@ -231,15 +252,32 @@ impl PlotRecorder {
             .margin_bottom(12)
             .x_label_area_size(30)
             .y_label_area_size(70)
-            .caption(format!("{name}: ADC signal"), ("sans-serif", 18))
+            .caption(
+                if self.digital {
+                    format!("{name}: pin level")
+                } else {
+                    format!("{name}: ADC signal")
+                },
+                ("sans-serif", 18),
+            )
             .build_cartesian_2d(t0..t_end, f64::from(lo)..f64::from(hi))
             .map_err(e)?;
         c.configure_mesh()
             .x_desc("time (s)")
-            .y_desc("ADC code")
+            .y_desc(if self.digital { "level" } else { "ADC code" })
             .y_labels(5)
             .x_label_formatter(&|v| format!("{v:.1}"))
-            .y_label_formatter(&|v| format!("{v:.0}"))
+            .y_label_formatter(&|v| {
+                if !digital {
+                    format!("{v:.0}")
+                } else if v.abs() < 0.01 {
+                    "0".into()
+                } else if (v - 1.0).abs() < 0.01 {
+                    "1".into()
+                } else {
+                    String::new()
+                }
+            })
             .label_style(("sans-serif", 13))
             .axis_desc_style(("sans-serif", 14))
             .light_line_style(WHITE.mix(0.0))
@@ -285,14 +323,22 @@ impl PlotRecorder {
             .x_label_area_size(35)
             .y_label_area_size(70)
             .caption(
-                format!("{name}: hum amplitude per mains cycle"),
+                if self.digital {
+                    format!("{name}: hum amplitude from each mains cycle's duty")
+                } else {
+                    format!("{name}: hum amplitude per mains cycle")
+                },
                 ("sans-serif", 18),
             )
             .build_cartesian_2d(t0..t_end, (y0..y1).log_scale())
             .map_err(e)?;
         c.configure_mesh()
             .x_desc("time (s)")
-            .y_desc("amplitude (ADC codes, log)")
+            .y_desc(if self.digital {
+                "amplitude (threshold units A/Vt, log)"
+            } else {
+                "amplitude (ADC codes, log)"
+            })
             .x_label_formatter(&|v| format!("{v:.1}"))
             .y_label_formatter(&|v| {
                 if *v >= 1.0 {

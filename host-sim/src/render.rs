@@ -15,7 +15,7 @@
 
 use crate::adc::AdcState;
 use crate::coupling::SenseNodeState;
-use crate::frontend::AnalogFrontEndState;
+use crate::frontend::{AnalogFrontEnd, AnalogFrontEndState, PinState};
 use crate::interference::DriftState;
 use crate::mains::MainsSource;
 use crate::rng::{stream, Rng};
@@ -33,7 +33,13 @@ struct ChannelRun {
     noise: Rng,
     next_touch: usize,
     active: Vec<usize>,
+    /// The level the MCU reads on a comparator's pin ([`Render::enable_pins`]).
+    pin: Option<PinState>,
+    last_pin_v: f64,
 }
+
+/// A change of a comparator pin: time (seconds), channel, new level.
+pub type PinChange = (f64, usize, bool);
 
 /// A render in progress. Create with [`Scenario::render`].
 pub struct Render {
@@ -51,6 +57,8 @@ pub struct Render {
     next_ground: usize,
     next_esd: usize,
     lamp_buf: Vec<(f64, f64)>,
+    pins: bool,
+    changes: Vec<PinChange>,
 }
 
 impl Render {
@@ -68,6 +76,8 @@ impl Render {
                     noise: Rng::new(seed, base + 2),
                     next_touch: 0,
                     active: Vec::new(),
+                    pin: None,
+                    last_pin_v: 0.0,
                 }
             })
             .collect();
@@ -91,7 +101,40 @@ impl Render {
             next_ground: 0,
             next_esd: 0,
             lamp_buf: Vec::with_capacity(s.lamps.len()),
+            pins: false,
+            changes: Vec::new(),
         })
+    }
+
+    /// Also follows the logic level an MCU reads on each channel's pin
+    /// ([`crate::frontend::Comparator::pin_step`]), for edge logs; an error
+    /// if the front end is not a comparator or the render has begun.
+    pub fn enable_pins(&mut self) -> Result<(), String> {
+        if !matches!(self.scenario.frontend, AnalogFrontEnd::Comparator(_)) {
+            return Err(format!(
+                "{}: the front end is not a comparator, so there is no pin to log; \
+                 --digital needs [frontend] kind = \"comparator\"",
+                self.scenario.origin
+            ));
+        }
+        if self.n > 0 {
+            return Err("pins must be enabled before the first frame".into());
+        }
+        self.pins = true;
+        Ok(())
+    }
+
+    /// Each channel's pin level at the first frame (after one frame has
+    /// been rendered with pins enabled), or `None`.
+    pub fn start_levels(&self) -> Option<Vec<bool>> {
+        self.runs.iter().map(|r| r.pin.map(|p| p.high)).collect()
+    }
+
+    /// Takes the pin changes since the last call, in frame order (within a
+    /// frame, in channel order: times of different channels in one step
+    /// may be out of order).
+    pub fn take_changes(&mut self, into: &mut Vec<PinChange>) {
+        into.append(&mut self.changes);
     }
 
     /// Number of channels (values per frame).
@@ -261,7 +304,24 @@ impl Render {
             if noise_v > 0.0 {
                 v += noise_v * run.noise.gaussian();
             }
+            let v0 = run.fe.last_input();
             let pin = s.frontend.output(&mut run.fe, v, dt);
+            if self.pins {
+                if let AnalogFrontEnd::Comparator(c) = &s.frontend {
+                    let high = run.fe.comparator_high();
+                    match &mut run.pin {
+                        None => run.pin = Some(c.pin_start(pin, high)),
+                        Some(ps) => {
+                            if let Some(tc) =
+                                c.pin_step(ps, v0, v, run.last_pin_v, pin, high, t, dt)
+                            {
+                                self.changes.push((tc, ch, ps.high));
+                            }
+                        }
+                    }
+                }
+                run.last_pin_v = pin;
+            }
             *slot = s.adc.sample(&mut run.adc, pin);
         }
         while let Some((d, _)) = self.plan.discharges.get(self.next_esd) {

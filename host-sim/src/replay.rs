@@ -1,12 +1,17 @@
 //! Replay: logged ADC codes in, detector events out.
 //!
-//! Inputs are read by [`crate::input`] (CSV, WAV, raw).
+//! Inputs are read by [`crate::input`] (CSV, WAV, raw, edge logs and
+//! polled-level logs; [`prepare`] opens one and builds its configuration).
+//! Edge and polled-level logs run through the core crate's comparator
+//! input instead of the ADC front end ([`crate::edgeinput`]); everything
+//! after the cycles is the same.
 //!
 //! ## Output ([`event_row`])
 //! CSV `time_s,channel,event,value`, one row per event in time order
 //! (within one mains cycle, in channel order): `time_s` is the log's start
 //! ([`FrameSource::start_s`]) plus the emitting sample's index divided by
-//! the rate, with 6 decimals; `channel` the
+//! the rate (for edge and polled-level logs: the tick count divided by
+//! `tick_hz`), with 6 decimals; `channel` the
 //! input column's name (`ch0`, `ch1`, … for WAV and raw); `event` one of
 //! `touch-on`, `touch-off`, `field-on`, `field-off`, `level`, `fault`,
 //! `fault-clear`; `value` the strength in dB above the baseline (touch and
@@ -22,7 +27,9 @@
 //! cycle for the plot. A test checks that the events equal a
 //! [`humsense::Detector`]'s on the same input.
 
-use crate::input::{open_input, FrameSource, InputSpec};
+use crate::configfile::EdgeRequest;
+use crate::input::{open_any, FrameSource, Input, InputSpec};
+use humsense::edge::EdgeConfig;
 use humsense::{AdcSample, Backend, Config, Cycle, Event, EventKind, Frontend};
 use std::path::{Path, PathBuf};
 
@@ -122,6 +129,43 @@ fn drive_typed<const N: usize, S: Code>(
     Ok(index)
 }
 
+/// Streams any input through its front end: the ADC [`Frontend`] for
+/// samples, the edge front end for edge and polled-level logs (`edge`
+/// needed). `on_signal(x, values)` sees the signal (codes, or pin levels
+/// 0/1) at clock tick `x`; returns the input's length in ticks of its clock
+/// ([`Prepared::clock_hz`]).
+pub fn drive_input<const N: usize>(
+    input: &mut Input,
+    cfg: &Config,
+    edge: Option<&EdgeConfig>,
+    on_signal: impl FnMut(u64, &[i32; N]),
+    on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<(), String>,
+) -> Result<u64, String> {
+    let name = input.name().to_string();
+    let need = || format!("{name}: no edge configuration for a digital input");
+    match input {
+        Input::Samples(src) => drive::<N>(src.as_mut(), cfg, on_signal, on_cycle),
+        Input::Levels(src) => {
+            let e = edge.ok_or_else(need)?;
+            crate::edgeinput::drive_levels::<N>(src.as_mut(), cfg, e, on_signal, on_cycle)
+        }
+        Input::Edges(log) => {
+            let e = edge.ok_or_else(need)?;
+            crate::edgeinput::drive_edges::<N>(log, cfg, e, on_signal, on_cycle)
+        }
+    }
+}
+
+/// The back end's configuration for `input`: `cfg`, with `nohum_codes = 0`
+/// for a digital input ([`crate::edgeinput::backend_config`]).
+pub fn backend_config(input: &Input, cfg: &Config) -> Config {
+    if input.is_digital() {
+        crate::edgeinput::backend_config(cfg)
+    } else {
+        *cfg
+    }
+}
+
 // ------------------------------------------------------------------ replay
 
 /// What a replay produced.
@@ -147,7 +191,7 @@ pub fn replay(
     with_channels(
         n,
         ReplayTask {
-            src,
+            src: Feed::Frames(src),
             cfg,
             sink,
             plot,
@@ -156,8 +200,37 @@ pub fn replay(
     )
 }
 
+/// [`replay`] for any input ([`Input`]; `edge` for edge and polled-level
+/// logs). [`ReplayOutcome::frames`] is then the length in ticks of the
+/// input's clock.
+pub fn replay_input(
+    input: &mut Input,
+    cfg: &Config,
+    edge: Option<&EdgeConfig>,
+    sink: &mut dyn FnMut(&Event) -> Result<(), String>,
+    plot: Option<&mut crate::plot::PlotRecorder>,
+    keep: bool,
+) -> Result<ReplayOutcome, String> {
+    let n = input.channel_names().len();
+    with_channels(
+        n,
+        ReplayTask {
+            src: Feed::Any(input, edge),
+            cfg,
+            sink,
+            plot,
+            keep,
+        },
+    )
+}
+
+enum Feed<'a> {
+    Frames(&'a mut dyn FrameSource),
+    Any(&'a mut Input, Option<&'a EdgeConfig>),
+}
+
 struct ReplayTask<'a, 'b> {
-    src: &'a mut dyn FrameSource,
+    src: Feed<'a>,
     cfg: &'a Config,
     sink: &'a mut dyn FnMut(&Event) -> Result<(), String>,
     plot: Option<&'b mut crate::plot::PlotRecorder>,
@@ -167,48 +240,52 @@ struct ReplayTask<'a, 'b> {
 impl ChannelTask for ReplayTask<'_, '_> {
     type Output = ReplayOutcome;
     fn run<const N: usize>(self) -> Result<ReplayOutcome, String> {
-        let mut back = Backend::<N, 0>::new(self.cfg).map_err(|e| e.to_string())?;
+        let back_cfg = match &self.src {
+            Feed::Frames(_) => *self.cfg,
+            Feed::Any(input, _) => backend_config(input, self.cfg),
+        };
+        let mut back = Backend::<N, 0>::new(&back_cfg).map_err(|e| e.to_string())?;
         let mut events = Vec::new();
         let sink = self.sink;
         let keep = self.keep;
         let mut failed: Option<String> = None;
         // One recorder, used by both closures in turn.
         let cell = std::cell::RefCell::new(self.plot);
-        let frames = drive::<N>(
-            self.src,
-            self.cfg,
-            |i, f| {
-                if let Some(p) = cell.borrow_mut().as_mut() {
-                    p.frame(i, f);
+        let on_frame = |i: u64, f: &[i32; N]| {
+            if let Some(p) = cell.borrow_mut().as_mut() {
+                p.frame(i, f);
+            }
+        };
+        let on_cycle = |cycle: &Cycle<N, 0>| {
+            back.process(cycle, |e| {
+                if failed.is_none() {
+                    if let Err(m) = sink(&e) {
+                        failed = Some(m);
+                    }
                 }
-            },
-            |cycle| {
-                back.process(cycle, |e| {
-                    if failed.is_none() {
-                        if let Err(m) = sink(&e) {
-                            failed = Some(m);
-                        }
-                    }
-                    if keep {
-                        events.push(e);
-                    }
-                    if let Some(p) = cell.borrow_mut().as_mut() {
-                        p.event(&e);
-                    }
-                });
-                if let Some(m) = failed.take() {
-                    return Err(m);
+                if keep {
+                    events.push(e);
                 }
                 if let Some(p) = cell.borrow_mut().as_mut() {
-                    for ch in 0..N {
-                        if let Some(s) = back.snapshot(ch) {
-                            p.cycle(cycle.end_sample, ch, &s);
-                        }
+                    p.event(&e);
+                }
+            });
+            if let Some(m) = failed.take() {
+                return Err(m);
+            }
+            if let Some(p) = cell.borrow_mut().as_mut() {
+                for ch in 0..N {
+                    if let Some(s) = back.snapshot(ch) {
+                        p.cycle(cycle.end_sample, ch, &s);
                     }
                 }
-                Ok(())
-            },
-        )?;
+            }
+            Ok(())
+        };
+        let frames = match self.src {
+            Feed::Frames(src) => drive::<N>(src, self.cfg, on_frame, on_cycle)?,
+            Feed::Any(input, edge) => drive_input::<N>(input, self.cfg, edge, on_frame, on_cycle)?,
+        };
         Ok(ReplayOutcome { frames, events })
     }
 }
@@ -254,6 +331,94 @@ pub struct ReplayCommand {
     pub out: Option<PathBuf>,
     /// `--plot`.
     pub plot: Option<PathBuf>,
+    /// The edge front end's flags (edge and polled-level logs).
+    pub edge: EdgeRequest,
+}
+
+/// An input opened with its configurations.
+pub struct Prepared {
+    /// The input.
+    pub input: Input,
+    /// The detector's configuration (for an edge or polled-level log, the
+    /// back end's, before [`backend_config`]).
+    pub cfg: Config,
+    /// The edge front end's, for an edge or polled-level log.
+    pub edge: Option<EdgeConfig>,
+    /// Ticks per second of the input's clock, on which events count: the
+    /// sample rate, or the edge front end's `tick_hz`.
+    pub clock_hz: f64,
+}
+
+/// Opens `spec` as any input and builds its configuration from the command
+/// line and `--config` (see [`crate::configfile`]).
+pub fn prepare(
+    spec: &InputSpec,
+    profile: Option<humsense::Profile>,
+    mains: Option<humsense::MainsMode>,
+    config: Option<&Path>,
+    edge: &EdgeRequest,
+) -> Result<Prepared, String> {
+    let input = open_any(spec)?;
+    let file = match config {
+        Some(p) => Some(crate::configfile::ConfigFile::read(p)?),
+        None => None,
+    };
+    let digital_flags = edge.tick_hz.is_some()
+        || edge.timer_bits.is_some()
+        || edge.hysteresis_permille.is_some()
+        || edge.input.is_some();
+    let lead = |m: String| {
+        if file.is_none() {
+            format!("{}: {m}", input.name())
+        } else {
+            m
+        }
+    };
+    match &input {
+        Input::Samples(src) => {
+            if digital_flags {
+                return Err(format!(
+                    "{}: --tick-hz, --timer-bits, --hysteresis-permille and --edge-input apply to \
+                     edge logs and polled-level logs (--bits 1), and this input is ADC codes",
+                    src.name()
+                ));
+            }
+            let cfg = config_for(src.as_ref(), profile, mains, config)?;
+            let clock_hz = src.rate_hz();
+            Ok(Prepared {
+                input,
+                cfg,
+                edge: None,
+                clock_hz,
+            })
+        }
+        Input::Levels(_) | Input::Edges(_) => {
+            let cfg =
+                crate::configfile::build_digital(profile, mains, file.as_ref()).map_err(lead)?;
+            let polled_hz = match &input {
+                Input::Levels(src) => {
+                    let r = src.rate_hz().round();
+                    if !(1.0..=f64::from(u32::MAX)).contains(&r) {
+                        return Err(format!(
+                            "{}: read rate {} Hz is out of range",
+                            src.name(),
+                            crate::text::num(src.rate_hz())
+                        ));
+                    }
+                    Some(r as u32)
+                }
+                _ => None,
+            };
+            let req = EdgeRequest { polled_hz, ..*edge };
+            let e = crate::configfile::build_edge(&req, file.as_ref(), &cfg).map_err(lead)?;
+            Ok(Prepared {
+                input,
+                cfg,
+                clock_hz: f64::from(e.tick_hz),
+                edge: Some(e),
+            })
+        }
+    }
 }
 
 /// The configuration for `src` from the command line and `--config`.
@@ -314,10 +479,19 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
     outputs.extend(cmd.out.as_deref().map(|p| ("--out", p)));
     outputs.extend(cmd.plot.as_deref().map(|p| ("--plot", p)));
     check_distinct(&inputs, &outputs)?;
-    let mut src = open_input(&cmd.input)?;
-    let cfg = config_for(src.as_ref(), cmd.profile, cmd.mains, cmd.config.as_deref())?;
+    let Prepared {
+        input: mut src,
+        cfg,
+        edge,
+        clock_hz: rate,
+    } = prepare(
+        &cmd.input,
+        cmd.profile,
+        cmd.mains,
+        cmd.config.as_deref(),
+        &cmd.edge,
+    )?;
     let names = src.channel_names().to_vec();
-    let rate = src.rate_hz();
     let start = src.start_s();
     let labels = match &cmd.labels {
         Some(p) => {
@@ -362,16 +536,22 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
         };
         let result = (|| {
             writeln!(out, "{HEADER}").map_err(&mut fail)?;
-            let mut plot = cmd
-                .plot
-                .as_ref()
-                .map(|_| crate::plot::PlotRecorder::new(&names, rate).starting_at(start));
+            let digital = src.is_digital();
+            let mut plot = cmd.plot.as_ref().map(|_| {
+                let r = crate::plot::PlotRecorder::new(&names, rate).starting_at(start);
+                if digital {
+                    r.digital()
+                } else {
+                    r
+                }
+            });
             let mut sink = |e: &Event| {
                 writeln!(out, "{}", event_row(e, &names, rate, start)).map_err(&mut fail)
             };
-            let outcome = replay(
-                src.as_mut(),
+            let outcome = replay_input(
+                &mut src,
                 &cfg,
+                edge.as_ref(),
                 &mut sink,
                 plot.as_mut(),
                 labels.is_some(),
@@ -398,11 +578,23 @@ pub fn command(cmd: &ReplayCommand) -> Result<(), crate::console::CliError> {
             ))?;
         }
         if let (Some(f), Some(rec)) = (plot_file.as_mut(), &plot) {
-            let title = format!(
-                "humsim replay: {} ({:.1} s at {rate} Hz)",
-                src.name(),
-                seconds
-            );
+            let title = match &src {
+                Input::Edges(_) => format!(
+                    "humsim replay: {} (edge log, {:.1} s, {rate} ticks/s)",
+                    src.name(),
+                    seconds
+                ),
+                Input::Levels(_) => format!(
+                    "humsim replay: {} (polled levels, {:.1} s at {rate} Hz)",
+                    src.name(),
+                    seconds
+                ),
+                Input::Samples(_) => format!(
+                    "humsim replay: {} ({:.1} s at {rate} Hz)",
+                    src.name(),
+                    seconds
+                ),
+            };
             let name = f.shown().to_string();
             rec.write_png(
                 f.writer()?,

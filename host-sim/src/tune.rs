@@ -11,8 +11,14 @@
 //!    lowest 95th percentile, then the fewest false events, then the lowest
 //!    median off latency).
 //! 4. The chosen configuration is checked by a full replay of the log
-//!    through a [`humsense::Detector`]: its events must equal the fast
+//!    through a [`humsense::Detector`] (for an edge or polled-level log, a
+//!    [`humsense::edge::EdgeDetector`]): its events must equal the fast
 //!    path's exactly, or tune fails.
+//!
+//! An edge or polled-level log is recorded through the edge front end
+//! ([`crate::edgeinput`]) built from the starting configuration and the
+//! `[edge]` table or flags, which stay fixed; the chosen configuration is
+//! written with that table, so that `replay --config` reads it back.
 //!
 //! Swept (the back end): `on_ratio`, `off_ratio` (as a share of the on
 //! ratio's excess over 1), `on_noise`, `off_noise` (as a share of
@@ -27,10 +33,12 @@
 //! rest of the back end (start-up, noise time constant, floors, levels,
 //! panel and fault constants) as the starting configuration has them.
 
-use crate::input::{open_input, FrameSource, InputSpec};
+use crate::configfile::EdgeRequest;
+use crate::input::{open_any, FrameSource, Input, InputSpec};
 use crate::labels::{shifted, LabelFile, Span};
-use crate::replay::{drive, with_channels, ChannelTask};
+use crate::replay::{drive_input, prepare, with_channels, ChannelTask};
 use crate::score::{score_events, Score, ScoreOptions};
+use humsense::edge::EdgeConfig;
 use humsense::{Backend, Config, Cycle, Detector, Event};
 use rayon::prelude::*;
 use std::fmt::Write as _;
@@ -244,6 +252,8 @@ pub struct TuneCommand {
     pub mains: Option<humsense::MainsMode>,
     /// `--profile`.
     pub profile: Option<humsense::Profile>,
+    /// The edge front end's flags (edge and polled-level logs).
+    pub edge: EdgeRequest,
     /// `--config`: the starting configuration.
     pub config: Option<PathBuf>,
     /// `--labels`.
@@ -282,6 +292,8 @@ pub struct TuneOutcome {
     pub sweep_s: f64,
     /// Warnings for the user (labels the profile does not score).
     pub warnings: Vec<String>,
+    /// The edge front end's configuration, for an edge or polled-level log.
+    pub edge: Option<EdgeConfig>,
 }
 
 /// Runs the tuning (no output files; see [`command`]).
@@ -292,9 +304,15 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
             crate::text::num(cmd.budget_per_hour)
         ));
     }
-    let mut src = open_input(&cmd.input)?;
-    let start =
-        crate::replay::config_for(src.as_ref(), cmd.profile, cmd.mains, cmd.config.as_deref())?;
+    let prepared = prepare(
+        &cmd.input,
+        cmd.profile,
+        cmd.mains,
+        cmd.config.as_deref(),
+        &cmd.edge,
+    )?;
+    let mut src = prepared.input;
+    let start = prepared.cfg;
     let labels = LabelFile::read(&cmd.labels)?;
     let names = src.channel_names().to_vec();
     labels.check(&names, &Span::open(src.start_s()))?;
@@ -312,7 +330,9 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
         names.len(),
         TuneTask {
             cmd,
-            src: src.as_mut(),
+            src: &mut src,
+            edge: prepared.edge,
+            clock_hz: prepared.clock_hz,
             start,
             labels,
             names: names.clone(),
@@ -323,7 +343,9 @@ pub fn tune(cmd: &TuneCommand) -> Result<TuneOutcome, String> {
 
 struct TuneTask<'a> {
     cmd: &'a TuneCommand,
-    src: &'a mut dyn FrameSource,
+    src: &'a mut Input,
+    edge: Option<EdgeConfig>,
+    clock_hz: f64,
     start: Config,
     labels: LabelFile,
     warnings: Vec<String>,
@@ -333,11 +355,13 @@ struct TuneTask<'a> {
 impl ChannelTask for TuneTask<'_> {
     type Output = TuneOutcome;
     fn run<const N: usize>(self) -> Result<TuneOutcome, String> {
-        let rate = self.src.rate_hz();
+        let rate = self.clock_hz;
+        let digital = self.src.is_digital();
         let mut cycles: Vec<Cycle<N, 0>> = Vec::new();
-        let frames = drive::<N>(
+        let frames = drive_input::<N>(
             self.src,
             &self.start,
+            self.edge.as_ref(),
             |_, _| {},
             |c| {
                 cycles.push(*c);
@@ -375,7 +399,7 @@ impl ChannelTask for TuneTask<'_> {
         let mut trials: Vec<Trial> = cands
             .par_iter()
             .filter_map(|cfg| {
-                let events = fast_events::<N>(&cycles, cfg);
+                let events = fast_events::<N>(&cycles, &back_of(cfg, digital));
                 bar.inc(1);
                 let events = events?;
                 let score = score_events(&events, rate, names, labels, &opts).ok()?;
@@ -399,10 +423,22 @@ impl ChannelTask for TuneTask<'_> {
         let mut events = Vec::new();
         let mut verified = false;
         if let Some(t) = chosen.and_then(|i| trials.get(i)) {
-            events = fast_events::<N>(&cycles, &t.config).unwrap_or_default();
+            events = fast_events::<N>(&cycles, &back_of(&t.config, digital)).unwrap_or_default();
             drop(cycles);
-            let mut again = open_input(&self.cmd.input)?;
-            let full = full_events::<N>(again.as_mut(), &t.config)?;
+            let need = || String::from("internal error: no edge configuration");
+            let full = match open_any(&self.cmd.input)? {
+                Input::Samples(mut again) => full_events::<N>(again.as_mut(), &t.config)?,
+                Input::Levels(mut again) => crate::edgeinput::full_level_events::<N>(
+                    again.as_mut(),
+                    &t.config,
+                    self.edge.as_ref().ok_or_else(need)?,
+                )?,
+                Input::Edges(mut again) => crate::edgeinput::full_edge_events::<N>(
+                    &mut again,
+                    &t.config,
+                    self.edge.as_ref().ok_or_else(need)?,
+                )?,
+            };
             if full != events {
                 return Err(format!(
                     "internal error: the fast path gave {} events but a full replay of the \
@@ -422,7 +458,18 @@ impl ChannelTask for TuneTask<'_> {
             verified,
             sweep_s,
             warnings: self.warnings,
+            edge: self.edge,
         })
+    }
+}
+
+/// The back end's configuration of candidate `cfg` (`nohum_codes = 0` for
+/// a digital input, as [`humsense::edge::EdgeDetector`] builds it).
+fn back_of(cfg: &Config, digital: bool) -> Config {
+    if digital {
+        crate::edgeinput::backend_config(cfg)
+    } else {
+        *cfg
     }
 }
 
@@ -541,7 +588,7 @@ pub fn command(cmd: &TuneCommand) -> Result<(), crate::console::CliError> {
         );
         return Err(failures.join("\n").into());
     };
-    let toml = crate::configfile::to_toml(&best.config);
+    let toml = crate::configfile::to_toml_digital(&best.config, outcome.edge.as_ref());
     let _ = writeln!(
         out,
         "\nchosen: no missed label, {} false events ({:.1} per hour), median on latency \
@@ -581,6 +628,9 @@ pub fn command(cmd: &TuneCommand) -> Result<(), crate::console::CliError> {
         "\n// For firmware:\n{}",
         crate::configfile::to_rust(&best.config)
     );
+    if let Some(e) = &outcome.edge {
+        let _ = writeln!(out, "{}", crate::configfile::to_rust_edge(e));
+    }
     console::out(&out)?;
     if failures.is_empty() {
         Ok(())

@@ -55,6 +55,7 @@ fn tune_repairs_a_bad_start_and_the_fast_path_equals_a_full_replay() {
         },
         mains: None,
         profile: None,
+        edge: Default::default(),
         config: Some(start.clone()),
         labels: labels.clone(),
         budget_per_hour: 0.0,

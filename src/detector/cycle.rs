@@ -50,7 +50,9 @@ pub struct Cycle<const N: usize, const H: usize> {
     /// codes. Coupled hum has no DC of its own, so a touch or a field
     /// leaves the mean where it was, while an impulse of area `S` code
     /// samples moves it by `S/n` and the fundamental by at most `2S/n`: a
-    /// rise of the amplitude without a move of the mean is hum.
+    /// rise of the amplitude without a move of the mean is hum. The edge
+    /// input gives 0, or `u16::MAX` for a window whose amplitude is not its
+    /// own measurement (held, or read as the cap).
     pub dc_step: [u16; N],
     /// Per channel: the cycle demodulated to exactly nothing (every group
     /// equal to the DC estimate: an input that does not move).

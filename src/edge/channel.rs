@@ -68,6 +68,9 @@ pub(super) struct EdgeChannel {
     pub(super) rise: u32,
     /// Centre of the reference pulse (meaningful with [`CENTRE`]).
     pub(super) centre: u32,
+    /// Whether the reference is a coherent pulse's: one no coherent pulse
+    /// has confirmed (the first of a train) gives way to the next pulse.
+    pub(super) confirmed: bool,
     /// This window: sum of the coherent pulses' widths, ticks.
     pub(super) width_sum: u32,
     /// Latest amplitude reported, Q8 codes.
@@ -88,6 +91,7 @@ impl EdgeChannel {
         last_t: 0,
         rise: 0,
         centre: 0,
+        confirmed: false,
         width_sum: 0,
         amp_q8: 0,
         active_run: 0,
@@ -276,6 +280,7 @@ pub(super) fn take(
             // `period` is 0 unless tracking: then this fails.
             if width < a.period && interval.wrapping_sub(a.lo) <= a.span {
                 c.centre = centre;
+                c.confirmed = true;
                 c.width_sum = c.width_sum.wrapping_add(width);
                 c.widths = c.widths.wrapping_add(1);
                 c.edges = c.edges.saturating_add(1);
@@ -351,6 +356,7 @@ pub(super) fn confirm(c: &mut EdgeChannel, t: u32, a: &Accept) -> Option<(u32, u
     let reference = c.centre;
     if a.period == 0 {
         c.centre = centre;
+        c.confirmed = false;
         c.state |= CENTRE;
         if !had_centre {
             return None;
@@ -360,6 +366,7 @@ pub(super) fn confirm(c: &mut EdgeChannel, t: u32, a: &Accept) -> Option<(u32, u
     }
     if !had_centre {
         c.centre = centre;
+        c.confirmed = false;
         c.state |= CENTRE;
         return None;
     }
@@ -377,6 +384,7 @@ pub(super) fn confirm(c: &mut EdgeChannel, t: u32, a: &Accept) -> Option<(u32, u
     };
     if k != 0 && width < p {
         c.centre = centre;
+        c.confirmed = true;
         c.width_sum = c.width_sum.wrapping_add(width);
         c.widths = c.widths.wrapping_add(1);
         match k {
@@ -387,8 +395,12 @@ pub(super) fn confirm(c: &mut EdgeChannel, t: u32, a: &Accept) -> Option<(u32, u
     } else {
         c.bad = true;
         c.stats.incoherent_pulses = c.stats.incoherent_pulses.saturating_add(1);
-        if interval > 2 * p + a.lo + a.span {
+        // A reference more than three periods old, or one no coherent
+        // pulse has confirmed (a train's first pulse, which a touch's
+        // rising hum often clips short and off the crest), gives way.
+        if interval > 2 * p + a.lo + a.span || !c.confirmed {
             c.centre = centre;
+            c.confirmed = false;
         }
         None
     }

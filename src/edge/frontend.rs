@@ -405,7 +405,8 @@ impl<const N: usize> EdgeFrontend<N> {
         let tracking = self.mains.stage == Stage::Track;
         let mut any = false;
         let outs = cycle.fund.iter_mut().zip(cycle.dc.iter_mut());
-        for (c, ((f, dc), flat)) in self.ch.iter_mut().zip(outs.zip(cycle.flat.iter_mut())) {
+        let extras = cycle.flat.iter_mut().zip(cycle.dc_step.iter_mut());
+        for (c, ((f, dc), (flat, step))) in self.ch.iter_mut().zip(outs.zip(extras)) {
             let quiet = c.edges == 0 && !c.pending() && !c.bad;
             any |= !quiet;
             let w = if self.level_mode || quiet {
@@ -416,13 +417,26 @@ impl<const N: usize> EdgeFrontend<N> {
             } else {
                 Window::Held
             };
-            match w {
-                Window::Measured(d) => c.amp_q8 = duty_to_amplitude_q8(d, self.eta_q16),
+            // Whether the amplitude is this window's own measurement: not
+            // a held one, nor a duty of 1/2 or more (a pulse that straddles
+            // a change of the hum, read as the cap). Others go to the back
+            // end as unsteady (`Cycle::dc_step` at its largest), so they
+            // neither confirm a touch alone nor set a touch's own level.
+            let own = match w {
+                Window::Measured(d) => {
+                    c.amp_q8 = duty_to_amplitude_q8(d, self.eta_q16);
+                    d < 1 << 15
+                }
                 Window::Constant => {
                     c.amp_q8 = if c.active() { MAX_AMPLITUDE_Q8 } else { 0 };
+                    true
                 }
-                Window::Held => c.stats.held_windows = c.stats.held_windows.saturating_add(1),
-            }
+                Window::Held => {
+                    c.stats.held_windows = c.stats.held_windows.saturating_add(1);
+                    false
+                }
+            };
+            *step = if own { 0 } else { u16::MAX };
             c.active_run = if (quiet || self.level_mode) && c.active() {
                 c.active_run.saturating_add(1)
             } else {

@@ -77,7 +77,8 @@
 //!   centre lies one, two or three tracked periods after the last coherent
 //!   pulse's centre, within 1/16 of a period, and its width is less than
 //!   the period (see `confirm`); a pulse that is not marks the window
-//!   incoherent and does not move the reference.
+//!   incoherent and does not move the reference, unless no coherent pulse
+//!   has confirmed the reference yet (the first pulse of a train).
 //!
 //! # Per window (one mains cycle)
 //!

@@ -115,7 +115,9 @@ impl CsvSource {
         rate: Option<f64>,
         bits: u8,
     ) -> Result<CsvSource, String> {
-        super::check_bits(bits)?;
+        if bits != 1 {
+            super::check_bits(bits)?;
+        }
         let mut src = CsvSource {
             info: SourceInfo {
                 name: name.clone(),
@@ -367,6 +369,14 @@ impl CsvSource {
                         crate::text::show_bytes(t)
                     ));
                 };
+                if (v < 0 || v > self.max_code) && self.info.bits == 1 {
+                    return Err(format!(
+                        "{}:{ln}:{col}: column `{}`: {v} is not a pin level; a polled-level log \
+                         (--bits 1) holds 0 or 1",
+                        self.info.name,
+                        crate::text::show(self.info.channels.get(ch).map_or("?", String::as_str)),
+                    ));
+                }
                 if v < 0 || v > self.max_code {
                     return Err(format!(
                         "{}:{ln}:{col}: column `{}`: {v} is out of range for {}-bit codes \

@@ -24,8 +24,16 @@
 //! - **Raw** (`--raw u16le|i16le --channels N --rate HZ`): interleaved
 //!   little-endian 16-bit codes, unsigned or two's complement.
 //!
-//! `--bits` defaults to 12 for CSV and raw and to the PCM width for WAV;
-//! every code is checked against it. Channels: 1 to [`MAX_CHANNELS`]; the
+//! - **Edge log** (a CSV whose header is exactly `time_s,channel,level`,
+//!   whatever its name): the changes of comparator or GPIO pins, read by
+//!   [`EdgeLog`] ([`edges`] has the format); `--rate`, `--bits`, `--raw`
+//!   and `--channels` do not apply.
+//! - **Polled-level log** (`--bits 1`, CSV only): a CSV as above whose
+//!   cells are pin reads, `0` or `1`, at `--rate` (or its `time_s`).
+//!
+//! [`open_any`] tells the four apart ([`Input`]); [`open_input`] opens the
+//! ADC formats only. `--bits` defaults to 12 for CSV and raw and to the PCM
+//! width for WAV; every code is checked against it. Channels: 1 to [`MAX_CHANNELS`]; the
 //! detector's channel count is a const generic, and the inputs dispatch to
 //! `Frontend<1, 0>` … `Frontend<16, 0>` ([`crate::replay::with_channels`]); more channels
 //! are refused with a message.
@@ -34,10 +42,12 @@
 //! depend on the file's length.
 
 mod csv;
+pub mod edges;
 mod raw;
 mod wav;
 
 pub use csv::CsvSource;
+pub use edges::{is_edge_header, EdgeLog, EdgeRow};
 pub use raw::RawSource;
 pub use wav::WavSource;
 
@@ -142,15 +152,7 @@ pub fn open_input(spec: &InputSpec) -> Result<Box<dyn FrameSource>, String> {
     if let Some(b) = spec.bits {
         check_bits(b)?;
     }
-    if let Some(r) = spec.rate_hz {
-        if !(1.0..=f64::from(u32::MAX)).contains(&r) {
-            return Err(format!(
-                "--rate {}: expected a sample rate from 1 Hz to {} Hz",
-                crate::text::num(r),
-                u32::MAX
-            ));
-        }
-    }
+    check_rate(spec)?;
     if let Some(fmt) = spec.raw {
         let Some(ch) = spec.channels else {
             return Err(format!("{name}: --raw needs --channels N"));
@@ -190,13 +192,137 @@ pub fn open_input(spec: &InputSpec) -> Result<Box<dyn FrameSource>, String> {
     )?))
 }
 
-/// `--bits` must be 8 to 16.
+/// `--rate` must be 1 Hz to `u32::MAX` Hz.
+fn check_rate(spec: &InputSpec) -> Result<(), String> {
+    if let Some(r) = spec.rate_hz {
+        if !(1.0..=f64::from(u32::MAX)).contains(&r) {
+            return Err(format!(
+                "--rate {}: expected a sample rate from 1 Hz to {} Hz",
+                crate::text::num(r),
+                u32::MAX
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// `--bits` must be 8 to 16 (1, a polled-level CSV, is taken by
+/// [`open_any`] before this).
 fn check_bits(b: u8) -> Result<(), String> {
     if (8..=16).contains(&b) {
         Ok(())
     } else {
-        Err(format!("--bits {b}: expected 8 to 16"))
+        Err(format!(
+            "--bits {b}: expected 8 to 16 for ADC codes, or 1 for a polled-level CSV of 0/1 pin reads"
+        ))
     }
+}
+
+/// An input of any kind.
+pub enum Input {
+    /// ADC codes (CSV, WAV, raw).
+    Samples(Box<dyn FrameSource>),
+    /// Pin reads `0`/`1` at a fixed rate (a CSV with `--bits 1`).
+    Levels(Box<dyn FrameSource>),
+    /// Timed changes of pins (an edge log).
+    Edges(Box<EdgeLog>),
+}
+
+impl Input {
+    /// The input's name for messages.
+    pub fn name(&self) -> &str {
+        match self {
+            Input::Samples(s) | Input::Levels(s) => s.name(),
+            Input::Edges(e) => e.name(),
+        }
+    }
+
+    /// Channel names in column (or start-row) order.
+    pub fn channel_names(&self) -> &[String] {
+        match self {
+            Input::Samples(s) | Input::Levels(s) => s.channel_names(),
+            Input::Edges(e) => e.channels(),
+        }
+    }
+
+    /// The first time on the log's own clock, seconds.
+    pub fn start_s(&self) -> f64 {
+        match self {
+            Input::Samples(s) | Input::Levels(s) => s.start_s(),
+            Input::Edges(e) => e.start_s(),
+        }
+    }
+
+    /// Whether the input is pins (edges or polled levels), not ADC codes.
+    pub fn is_digital(&self) -> bool {
+        !matches!(self, Input::Samples(_))
+    }
+}
+
+/// The first non-empty line of `path` (without its end), bounded by
+/// [`crate::text::MAX_LINE_BYTES`]; `None` for an empty file or one that
+/// cannot be read (the reader proper reports that).
+fn first_line(path: &std::path::Path) -> Option<Vec<u8>> {
+    let file = std::fs::File::open(path).ok()?;
+    let mut r = std::io::BufReader::new(file);
+    let mut line = Vec::new();
+    for n in 1.. {
+        line.clear();
+        let got = crate::text::read_line(&mut r, &mut line, "", n).ok()?;
+        if got == 0 {
+            return None;
+        }
+        if line.iter().any(|b| !b.is_ascii_whitespace()) {
+            return Some(line);
+        }
+    }
+    None
+}
+
+/// Opens `spec.path` as any input: an edge log when its first line is the
+/// edge header, a polled-level CSV with `--bits 1`, else as
+/// [`open_input`] does.
+pub fn open_any(spec: &InputSpec) -> Result<Input, String> {
+    let name = spec.path.display().to_string();
+    let wav = spec
+        .path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("wav"));
+    if spec.raw.is_none() && !wav {
+        if let Some(first) = first_line(&spec.path) {
+            if is_edge_header(&first) {
+                let given = [
+                    ("--rate", spec.rate_hz.is_some()),
+                    ("--bits", spec.bits.is_some()),
+                    ("--channels", spec.channels.is_some()),
+                ];
+                if let Some((flag, _)) = given.iter().find(|(_, g)| *g) {
+                    return Err(format!(
+                        "{name}: {flag} does not apply to an edge log (header `{}`), whose rows are timed changes of 0/1 levels; see --tick-hz",
+                        edges::EDGE_HEADER
+                    ));
+                }
+                return Ok(Input::Edges(Box::new(EdgeLog::open(&spec.path)?)));
+            }
+        }
+    }
+    if spec.bits == Some(1) {
+        if spec.raw.is_some() || wav {
+            return Err(format!(
+                "{name}: --bits 1 (a polled-level log of 0/1 pin reads) applies to CSV input only"
+            ));
+        }
+        if spec.channels.is_some() {
+            return Err(format!("{name}: --channels applies to --raw input only"));
+        }
+        check_rate(spec)?;
+        return Ok(Input::Levels(Box::new(CsvSource::open(
+            &spec.path,
+            spec.rate_hz,
+            1,
+        )?)));
+    }
+    open_input(spec).map(Input::Samples)
 }
 
 fn check_channels(name: &str, n: usize) -> Result<(), String> {

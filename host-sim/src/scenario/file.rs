@@ -121,7 +121,8 @@ pub enum FrontEndKind {
     /// Emitter followers (`stages`, `beta`, `vbe_v`, `supply_v`, `vce_sat_v`,
     /// `load_ohm`).
     Follower,
-    /// Comparator (`threshold_v`, `hysteresis_v`, `supply_v`, `rc_ohm`, `rc_nf`).
+    /// Comparator (`threshold_v`, `hysteresis_v`, `supply_v`, `rc_ohm`, `rc_nf`,
+    /// `pin_threshold_v`, `pin_hysteresis_v`).
     Comparator,
 }
 
@@ -162,6 +163,10 @@ pub struct FrontEndSection {
     pub rc_ohm: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub rc_nf: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pin_threshold_v: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pin_hysteresis_v: Option<f64>,
 }
 
 fn d_amb_pf() -> f64 {

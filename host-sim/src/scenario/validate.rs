@@ -500,7 +500,7 @@ impl Scenario {
         s: &FrontEndSection,
     ) -> Result<AnalogFrontEnd, ScenarioError> {
         let p = |k: &'static str| KeyPath::table("frontend", k);
-        let given: [(&'static str, bool); 15] = [
+        let given: [(&'static str, bool); 17] = [
             ("supply_v", s.supply_v.is_some()),
             ("rf_ohm", s.rf_ohm.is_some()),
             ("rg_ohm", s.rg_ohm.is_some()),
@@ -516,6 +516,8 @@ impl Scenario {
             ("hysteresis_v", s.hysteresis_v.is_some()),
             ("rc_ohm", s.rc_ohm.is_some()),
             ("rc_nf", s.rc_nf.is_some()),
+            ("pin_threshold_v", s.pin_threshold_v.is_some()),
+            ("pin_hysteresis_v", s.pin_hysteresis_v.is_some()),
         ];
         let allowed: &[&str] = match s.kind {
             FrontEndKind::Amplifier => &[
@@ -534,9 +536,15 @@ impl Scenario {
                 "vce_sat_v",
                 "load_ohm",
             ],
-            FrontEndKind::Comparator => {
-                &["supply_v", "threshold_v", "hysteresis_v", "rc_ohm", "rc_nf"]
-            }
+            FrontEndKind::Comparator => &[
+                "supply_v",
+                "threshold_v",
+                "hysteresis_v",
+                "rc_ohm",
+                "rc_nf",
+                "pin_threshold_v",
+                "pin_hysteresis_v",
+            ],
         };
         for (k, g) in given {
             if g && !allowed.contains(&k) {
@@ -656,6 +664,22 @@ impl Scenario {
                     )?,
                     supply_v: supply,
                     rc,
+                    pin_threshold_v: {
+                        let v = s.pin_threshold_v.unwrap_or(supply / 2.0);
+                        if !(v.is_finite() && v > 0.0 && v < supply) {
+                            return Err(ctx.err(
+                                p("pin_threshold_v"),
+                                format!("expected a logic threshold above 0 V and below supply_v ({supply} V)"),
+                            ));
+                        }
+                        v
+                    },
+                    pin_hysteresis_v: non_negative(
+                        ctx,
+                        p("pin_hysteresis_v"),
+                        s.pin_hysteresis_v.unwrap_or(0.0),
+                        "a width in volts",
+                    )?,
                 })
             }
         })

@@ -28,6 +28,21 @@
 //! [`to_toml`] writes every field, so a file from `humsim tune` says
 //! everything; [`to_rust`] writes the same configuration as a `const` for
 //! firmware.
+//!
+//! ## Edge and polled-level inputs
+//! An `[edge]` table, after the fields above, describes the comparator
+//! input ([`humsense::edge::EdgeConfig`], each key by the field's own name
+//! and unit): `tick_hz`, `timer_bits` (16 or 32), `glitch_ticks`,
+//! `hysteresis_permille`, `active_low`, `stuck_high_cycles`, and
+//! `input = "pulses" | "level"`. Its keys are located the same way, by
+//! their spans; an unknown one is an error. It applies to edge logs and
+//! polled-level logs only; for ADC input it is an error. For those inputs
+//! the back end works in threshold units (64 codes per `Vt`), not ADC
+//! codes, so the profile's defaults are used as they are, as for a 12-bit
+//! input at 2000 Hz: `adc_bits` and `sample_rate_hz` may be given (as
+//! `tune` writes them) but only as 12 and 2000. [`build_digital`] and
+//! [`build_edge`] build the two configurations; [`to_toml_digital`] and
+//! [`to_rust_edge`] write them.
 
 use crate::text::line_col;
 use humsense::{Config, ConfigError, FieldInfo, FieldKind, FieldValue, MainsMode, Profile};
@@ -36,6 +51,12 @@ use std::fmt::Write as _;
 use std::ops::Range;
 use std::path::Path;
 use toml::Spanned;
+
+mod edge;
+pub use edge::{
+    build_digital, build_edge, edge_toml, parse_edge_input, to_rust_edge, to_toml_digital,
+    EdgeRequest, EdgeSetting, EdgeTable, DEFAULT_TICK_HZ, DIGITAL_REQUEST,
+};
 
 /// A value the file gives for a field, already of the field's kind (the
 /// field's type and range are checked when the configuration is built).
@@ -48,6 +69,9 @@ pub enum Given {
     Float(f64),
     /// An enum field's value: its name.
     Name(String),
+    /// A boolean (the `[edge]` table's `active_low`; no field of
+    /// [`Config`] is one).
+    Bool(bool),
 }
 
 /// One key of the file: the field it sets, where the key is, and the value.
@@ -70,6 +94,8 @@ pub struct ConfigFile {
     pub text: String,
     /// Its settings, in the file's order.
     pub settings: Vec<Setting>,
+    /// Its `[edge]` table, if it has one.
+    pub edge: Option<EdgeTable>,
 }
 
 /// A serde error's message on one line.
@@ -109,8 +135,13 @@ impl ConfigFile {
         let mut entries: Vec<_> = table.into_iter().collect();
         entries.sort_by_key(|(k, _)| k.span().start);
         let mut settings = Vec::with_capacity(entries.len());
+        let mut edge = None;
         for (key, value) in entries {
             let key_span = key.span();
+            if key.get_ref() == edge::TABLE {
+                edge = Some(EdgeTable::parse(text, key_span, value, &at)?);
+                continue;
+            }
             let Some(field) = Config::FIELDS.iter().find(|f| f.name == key.get_ref()) else {
                 let known: Vec<String> = Config::FIELDS
                     .iter()
@@ -119,9 +150,10 @@ impl ConfigFile {
                 return Err(at(
                     key_span,
                     &format!(
-                        "unknown field `{}`, expected one of {}",
+                        "unknown field `{}`, expected one of {} or an [{}] table",
                         key.get_ref(),
-                        known.join(", ")
+                        known.join(", "),
+                        edge::TABLE
                     ),
                 ));
             };
@@ -137,6 +169,7 @@ impl ConfigFile {
             name: name.to_string(),
             text: text.to_string(),
             settings,
+            edge,
         })
     }
 
@@ -156,12 +189,33 @@ impl ConfigFile {
     /// does not set it.
     pub fn locate(&self, name: &str) -> String {
         match self.get(name) {
-            Some(s) => {
-                let (l, c) = line_col(&self.text, s.key_span.start);
-                format!("{}:{l}:{c}", self.name)
-            }
+            Some(s) => self.at(s.key_span.start),
             None => self.name.clone(),
         }
+    }
+
+    /// `NAME:LINE:COL` of `key` in the `[edge]` table, or just `NAME` when
+    /// the table does not set it.
+    pub fn locate_edge(&self, key: &str) -> String {
+        match self.edge.as_ref().and_then(|t| t.get(key)) {
+            Some(s) => self.at(s.key_span.start),
+            None => self.name.clone(),
+        }
+    }
+
+    /// `NAME:LINE:COL` of the `[edge]` table's header (of its key, for an
+    /// inline table), or just `NAME` when the file has none.
+    pub fn locate_edge_table(&self) -> String {
+        match &self.edge {
+            Some(t) => self.at(t.start),
+            None => self.name.clone(),
+        }
+    }
+
+    /// `NAME:LINE:COL` of byte `offset`.
+    fn at(&self, offset: usize) -> String {
+        let (l, c) = line_col(&self.text, offset);
+        format!("{}:{l}:{c}", self.name)
     }
 }
 
@@ -260,8 +314,24 @@ pub fn config_error(e: &ConfigError, file: Option<&ConfigFile>) -> String {
     }
 }
 
-/// Builds and validates the configuration (see the module docs).
+/// Builds and validates the configuration for an ADC input (see the
+/// module docs); a file with an `[edge]` table is refused.
 pub fn build(req: &ConfigRequest, file: Option<&ConfigFile>) -> Result<Config, String> {
+    if let Some(f) = file.filter(|f| f.edge.is_some()) {
+        return Err(format!(
+            "{}: the [edge] table applies to edge logs and polled-level logs (--bits 1) only, \
+             and this input is ADC codes",
+            f.locate_edge_table()
+        ));
+    }
+    build_inner(req, file)
+}
+
+/// [`build`] without the `[edge]` table's check (for [`build_digital`]).
+pub(crate) fn build_inner(
+    req: &ConfigRequest,
+    file: Option<&ConfigFile>,
+) -> Result<Config, String> {
     let at = |key: &str| file.map_or_else(String::new, |c| c.locate(key));
     let given = |key: &str| file.and_then(|f| f.get(key)).map(|s| &s.value);
     // An enum field's value from the file, by its name there, set on `c`.
