@@ -10,7 +10,8 @@
 //! no room for a finished record, the record is dropped and counted
 //! ([`TelemetryEncoder::dropped_records`]); its frames still advance the
 //! sequence counter, so the host sees the gap at its exact sample position,
-//! and the next header record carries the count.
+//! and a header record goes out before the next record that fits, carrying
+//! the count of frames lost so.
 //!
 //! # The format, byte by byte (version 1)
 //!
@@ -48,12 +49,14 @@
 //!
 //! | kind | name | bytes after the kind |
 //! |---|---|---|
-//! | `0x01` | header | 16: `version` u8 (1), `channels` u8 (1 to 16), `adc_bits` u8 (8 to 16), `sample_type` u8 (0: unsigned offset-binary codes `0 ..= 2^bits − 1`; 1: two's-complement codes `−2^(bits−1) ..= 2^(bits−1) − 1`), `rate_hz` u32 (samples a second per channel, at least 1), `next_frame` u32 (the sequence number the next sample record starts at), `dropped_records` u32 (records the encoder has dropped for lack of buffer since start, saturating) |
+//! | `0x01` | header | 16: `version` u8 (1), `channels` u8 (1 to 16), `adc_bits` u8 (8 to 16), `sample_type` u8 (0: unsigned offset-binary codes `0 ..= 2^bits − 1`; 1: two's-complement codes `−2^(bits−1) ..= 2^(bits−1) − 1`), `rate_hz` u32 (samples a second per channel, at least 1), `next_frame` u32 (the sequence number the next sample record starts at), `dropped_frames` u32 (frames the encoder has dropped for lack of buffer since start, saturating) |
 //! | `0x02` | samples | `first_frame` u32 (the sequence number: the index of the record's first frame since the stream began at 0, wrapping at 2^32), then `frames × channels` samples of 2 bytes each, frame by frame, channels in order within a frame (`u16` codes, or the `i16` bit pattern for two's complement) |
 //!
-//! A header comes before the first sample record and again every
-//! [`HEADER_INTERVAL`] records, so a capture started at any point can be
-//! read from its first header on. A sample record holds 1 to
+//! A header comes before the first sample record, again every
+//! [`HEADER_INTERVAL`] records, and before the first record sent after
+//! any was dropped, so a capture started at any point can be read from its
+//! first header on, and a decoder can tell frames the board dropped from
+//! frames lost on the link. A sample record holds 1 to
 //! [`MAX_RECORD_SAMPLES`] samples, a whole number of frames; consecutive
 //! records are contiguous: each `first_frame` is the previous one plus its
 //! frame count (mod 2^32). Anything else at that place is a gap (frames
@@ -276,6 +279,7 @@ pub struct TelemetryEncoder<S: AdcSample, const CAP: usize> {
     records_since_header: u16,
     dropped_records: u32,
     dropped_frames: u32,
+    header_due: bool,
     sample: PhantomData<S>,
 }
 
@@ -311,6 +315,7 @@ impl<S: AdcSample, const CAP: usize> TelemetryEncoder<S, CAP> {
             records_since_header: 0,
             dropped_records: 0,
             dropped_frames: 0,
+            header_due: true,
             sample: PhantomData,
         })
     }
@@ -375,25 +380,27 @@ impl<S: AdcSample, const CAP: usize> TelemetryEncoder<S, CAP> {
     }
 
     /// Queues a header record now (one is also sent before the first
-    /// record and every [`HEADER_INTERVAL`] records). Returns `false`, and
-    /// counts a dropped record, if the buffer has no room. Never panics.
+    /// record, every [`HEADER_INTERVAL`] records and after a drop).
+    /// Returns `false` if the buffer has no room; a header is then sent
+    /// before the next sample record that has room. Never panics.
     pub fn push_header(&mut self) -> bool {
         let p = header_payload(
             &self.header,
             S::SIGNED,
             self.next_frame.wrapping_sub(u32::from(self.record_frames)),
-            self.dropped_records,
+            self.dropped_frames,
         );
         if self.append(&p) {
+            self.header_due = false;
             true
         } else {
-            self.dropped_records = self.dropped_records.saturating_add(1);
+            self.header_due = true;
             false
         }
     }
 
     fn finish_record(&mut self) {
-        if self.records_since_header == 0 {
+        if self.records_since_header == 0 || self.header_due {
             let _ = self.push_header();
         }
         self.records_since_header = (self.records_since_header + 1) % HEADER_INTERVAL;
@@ -411,6 +418,7 @@ impl<S: AdcSample, const CAP: usize> TelemetryEncoder<S, CAP> {
         if !(ok && payload.get(..len).is_some_and(|p| self.append(p))) {
             self.dropped_records = self.dropped_records.saturating_add(1);
             self.dropped_frames = self.dropped_frames.saturating_add(u32::from(frames));
+            self.header_due = true;
         }
     }
 
@@ -458,7 +466,7 @@ impl<S: AdcSample, const CAP: usize> TelemetryEncoder<S, CAP> {
         self.next_frame
     }
 
-    /// Records (header and sample) dropped for lack of buffer, saturating.
+    /// Sample records dropped for lack of buffer, saturating.
     pub fn dropped_records(&self) -> u32 {
         self.dropped_records
     }
@@ -546,14 +554,20 @@ mod tests {
         assert_eq!(t.pending().len(), 22 + 7 * 30);
         assert_eq!((t.dropped_records(), t.dropped_frames()), (14, 140));
         assert_eq!(t.next_frame(), 210);
-        // Draining makes room again: the next record is kept.
+        // Draining makes room again: the next record is kept, after a
+        // header that carries the count of dropped frames.
         let mut sink = [0u8; 100];
         assert_eq!(t.read(&mut sink), 100);
         assert_eq!(t.pending().len(), 132);
         for k in 0..10u16 {
             t.push_frame(&[k]).unwrap();
         }
-        assert_eq!(t.pending().len(), 162);
+        assert_eq!(t.pending().len(), 132 + 22 + 30);
+        let header = &t.pending()[132..154];
+        let want = header_payload(&h, false, 210, 140);
+        let mut wire = [0u8; 32];
+        let n = write_frame(&want, &mut wire).unwrap();
+        assert_eq!(header, &wire[..n]);
         assert_eq!(t.dropped_records(), 14);
         assert_eq!(t.push_frame(&[1, 2]), Err(TelemetryError::Length(2)));
     }
@@ -577,17 +591,11 @@ mod tests {
         );
         let bad = |h| T::new(h, 1).err();
         assert_eq!(
-            bad(StreamHeader {
-                channels: 17,
-                ..ok
-            }),
+            bad(StreamHeader { channels: 17, ..ok }),
             Some(TelemetryError::Channels(17))
         );
         assert_eq!(
-            bad(StreamHeader {
-                channels: 0,
-                ..ok
-            }),
+            bad(StreamHeader { channels: 0, ..ok }),
             Some(TelemetryError::Channels(0))
         );
         assert_eq!(

@@ -9,7 +9,7 @@
 //! yields ground-truth labels ([`labels`]: the type, its CSV reader and
 //! writer); [`render`] streams codes in blocks; [`builtin`] holds the named
 //! scenarios; [`output`] writes CSV and WAV. [`input`] reads logs (CSV, WAV,
-//! raw) as frames; [`replay`] runs the detector on them; [`score`] matches
+//! raw, telemetry captures) as frames; [`convert`] turns a capture into CSV; [`replay`] runs the detector on them; [`score`] matches
 //! events to labels; [`configfile`] reads and writes detector
 //! configurations; [`plot`] draws runs; [`demo`] is `humsim demo`; [`tune`]
 //! sweeps detector constants on a labelled log. Around them: [`outfile`]
@@ -34,6 +34,7 @@ pub mod body;
 pub mod builtin;
 pub mod configfile;
 pub mod console;
+pub mod convert;
 pub mod coupling;
 pub mod demo;
 pub mod field_error;

@@ -23,6 +23,9 @@
 //!   `--bits` of 16 or less.
 //! - **Raw** (`--raw u16le|i16le --channels N --rate HZ`): interleaved
 //!   little-endian 16-bit codes, unsigned or two's complement.
+//! - **Telemetry** (`.humtel`): a capture of the board's `humtel` record
+//!   stream; the header gives channels, rate, bits and sample type, gaps
+//!   and corrupt records are reported by frame ([`telemetry`]).
 //!
 //! `--bits` defaults to 12 for CSV and raw and to the PCM width for WAV;
 //! every code is checked against it. Channels: 1 to [`MAX_CHANNELS`]; the
@@ -35,10 +38,12 @@
 
 mod csv;
 mod raw;
+pub mod telemetry;
 mod wav;
 
 pub use csv::CsvSource;
 pub use raw::RawSource;
+pub use telemetry::TelemetrySource;
 pub use wav::WavSource;
 
 use std::path::PathBuf;
@@ -150,6 +155,10 @@ pub fn open_input(spec: &InputSpec) -> Result<Box<dyn FrameSource>, String> {
                 u32::MAX
             ));
         }
+    }
+    if telemetry::is_capture(&spec.path) {
+        let warn = telemetry::console_warnings();
+        return Ok(Box::new(TelemetrySource::open(spec, warn)?));
     }
     if let Some(fmt) = spec.raw {
         let Some(ch) = spec.channels else {
