@@ -123,8 +123,9 @@ impl Header {
     }
     fn describe(&self) -> String {
         format!(
-            "{} channels, {}-bit {} codes, {} Hz",
+            "{} channel{}, {}-bit {} codes, {} Hz",
             self.channels,
+            if self.channels == 1 { "" } else { "s" },
             self.adc_bits,
             if self.signed { "signed" } else { "unsigned" },
             self.rate_hz
