@@ -283,6 +283,22 @@ pub struct TelemetryEncoder<S: AdcSample, const CAP: usize> {
     sample: PhantomData<S>,
 }
 
+/// Prints the header and the counters, not the buffer.
+#[cfg(feature = "defmt")]
+impl<S: AdcSample, const CAP: usize> defmt::Format for TelemetryEncoder<S, CAP> {
+    fn format(&self, f: defmt::Formatter) {
+        defmt::write!(
+            f,
+            "TelemetryEncoder {{ header: {}, pending: {=usize}, next_frame: {=u32}, dropped_records: {=u32}, dropped_frames: {=u32} }}",
+            self.header,
+            self.out_len,
+            self.next_frame,
+            self.dropped_records,
+            self.dropped_frames
+        );
+    }
+}
+
 impl<S: AdcSample, const CAP: usize> TelemetryEncoder<S, CAP> {
     /// An encoder for `header`'s stream with `frames_per_record` frames a
     /// sample record (1 to `MAX_RECORD_SAMPLES / channels`: 120 frames of
