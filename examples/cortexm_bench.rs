@@ -140,8 +140,9 @@ fn main() {
 /// `CORTEXM_FLASH_PROBE` at build time: 0 builds the flash probe without the
 /// detector, 1, 4 or 8 with a `Detector` of that many channels fed frame by
 /// frame (`push_frame`); 100 the block-path probe without the detector and
-/// 101 with a one-channel `Detector` fed blocks (`push_block`); unset (255)
-/// builds the benchmark.
+/// 101 with a one-channel `Detector` fed blocks (`push_block`); 200 (with
+/// feature `telemetry`) the telemetry encoder alone; unset (255) builds the
+/// benchmark.
 #[cfg_attr(not(target_os = "none"), allow(dead_code))]
 const PROBE: u8 = match option_env!("CORTEXM_FLASH_PROBE") {
     Some(s) => parse_u8(s),
@@ -653,6 +654,31 @@ mod target {
         }
     }
 
+    /// Flash probe of the telemetry encoder (feature `telemetry`,
+    /// `CORTEXM_FLASH_PROBE=200`, against 0): one channel of 12-bit codes
+    /// at 2 kHz, 60 frames a record, a 1 KiB buffer, pushed frame by frame
+    /// and drained 16 bytes at a time (a UART FIFO).
+    #[cfg(feature = "telemetry")]
+    fn probe_telemetry() -> ! {
+        use humsense::telemetry::{StreamHeader, TelemetryEncoder};
+        let h = black_box(StreamHeader {
+            channels: 1,
+            adc_bits: 12,
+            rate_hz: 2000,
+        });
+        let Ok(mut tel) = TelemetryEncoder::<u16, 1024>::new(h, 60) else {
+            loop {
+                nop();
+            }
+        };
+        let mut fifo = [0u8; 16];
+        loop {
+            let _ = tel.push_frame(&[now() as u16]);
+            let n = tel.read(&mut fifo);
+            black_box((&fifo, n));
+        }
+    }
+
     /// `CORTEXM_TRACE=1` at build time: only the touch profile, one
     /// channel, through `Detector::push_block` for `TRACE_FRAMES` frames
     /// (warm-up included), and no output: a steady workload for an
@@ -694,6 +720,8 @@ mod target {
             8 => probe::<8>(),
             100 => probe_block_without(),
             101 => probe_block(),
+            #[cfg(feature = "telemetry")]
+            200 => probe_telemetry(),
             _ => {}
         }
         let status = if option_env!("CORTEXM_TRACE").is_some() {

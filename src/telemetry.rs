@@ -460,9 +460,12 @@ impl<S: AdcSample, const CAP: usize> TelemetryEncoder<S, CAP> {
     /// Marks the first `n` pending bytes as sent (at most all of them).
     /// Never panics.
     pub fn consume(&mut self, n: usize) {
-        let n = n.min(self.out_len);
-        self.out.copy_within(n..self.out_len, 0);
-        self.out_len -= n;
+        // Clamped so that the compiler sees `n <= end <= CAP` and links no
+        // bounds panic (`out_len <= CAP` holds anyway).
+        let end = self.out_len.min(CAP);
+        let n = n.min(end);
+        self.out.copy_within(n..end, 0);
+        self.out_len = end - n;
     }
 
     /// Copies as many pending bytes as fit into `dst`, removes them, and
