@@ -172,7 +172,8 @@ fn main() {
 /// frame (`push_frame`); 100 the block-path probe without the detector and
 /// 101 with a one-channel `Detector` fed blocks (`push_block`); 200 the
 /// edge-only probe without the detector and 201 with a one-channel
-/// `EdgeDetector` (`push_edge` and `advance`); unset (255) builds the
+/// `EdgeDetector` (`push_edge` and `advance`); 210 (with feature
+/// `telemetry`) the telemetry encoder alone; unset (255) builds the
 /// benchmark.
 #[cfg_attr(not(target_os = "none"), allow(dead_code))]
 const PROBE: u8 = match option_env!("CORTEXM_FLASH_PROBE") {
@@ -948,6 +949,31 @@ mod target {
         }
     }
 
+    /// Flash probe of the telemetry encoder (feature `telemetry`,
+    /// `CORTEXM_FLASH_PROBE=210`, against 0): one channel of 12-bit codes
+    /// at 2 kHz, 60 frames a record, a 1 KiB buffer, pushed frame by frame
+    /// and drained 16 bytes at a time (a UART FIFO).
+    #[cfg(feature = "telemetry")]
+    fn probe_telemetry() -> ! {
+        use humsense::telemetry::{StreamHeader, TelemetryEncoder};
+        let h = black_box(StreamHeader {
+            channels: 1,
+            adc_bits: 12,
+            rate_hz: 2000,
+        });
+        let Ok(mut tel) = TelemetryEncoder::<u16, 1024>::new(h, 60) else {
+            loop {
+                nop();
+            }
+        };
+        let mut fifo = [0u8; 16];
+        loop {
+            let _ = tel.push_frame(&[now() as u16]);
+            let n = tel.read(&mut fifo);
+            black_box((&fifo, n));
+        }
+    }
+
     /// Edge-only flash probe: a minimal firmware whose pin interrupt hands
     /// the timer count (SysTick stands in for the timer) to a one-channel
     /// `EdgeDetector`, and whose main loop calls `advance`; events out.
@@ -1052,6 +1078,8 @@ mod target {
             101 => probe_block(),
             200 => probe_edges_without(),
             201 => probe_edges(),
+            #[cfg(feature = "telemetry")]
+            210 => probe_telemetry(),
             _ => {}
         }
         let status = if option_env!("CORTEXM_TRACE") == Some("edges") {

@@ -17,6 +17,8 @@ pub mod mains;
 pub mod nco;
 pub mod panel;
 pub mod queue;
+#[cfg(feature = "telemetry")]
+pub mod telemetry;
 
 pub use config::{Config, FieldInfo, FieldKind, FieldValue, MainsMode, PanelMode, Profile};
 pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};

@@ -9,7 +9,8 @@
 //! yields ground-truth labels ([`labels`]: the type, its CSV reader and
 //! writer); [`render`] streams codes in blocks; [`builtin`] holds the named
 //! scenarios; [`output`] writes CSV and WAV. [`input`] reads logs (CSV, WAV,
-//! raw) as frames, and edge logs; [`replay`] runs the detector on them
+//! raw, telemetry captures) as frames, and edge logs; [`convert`] turns a
+//! capture into CSV; [`replay`] runs the detector on them
 //! ([`edgeinput`] for edge and polled-level logs, through the core
 //! crate's comparator input); [`digital`] is `simulate --digital`, the
 //! comparator's pin as edge or polled-level logs; [`score`] matches
@@ -37,6 +38,7 @@ pub mod body;
 pub mod builtin;
 pub mod configfile;
 pub mod console;
+pub mod convert;
 pub mod coupling;
 pub mod demo;
 pub mod digital;

@@ -116,13 +116,24 @@ enum Command {
         #[arg(long, value_name = "FILE.png")]
         plot: Option<PathBuf>,
     },
+    /// Convert a telemetry capture (.humtel, the board's humtel record
+    /// stream) to a CSV log with a time_s column; gaps and corrupt records
+    /// are reported by frame.
+    Convert {
+        /// The capture.
+        input: PathBuf,
+        /// Output CSV file.
+        #[arg(short, long, value_name = "FILE.csv")]
+        output: PathBuf,
+    },
 }
 
 /// How to read an input file.
 #[derive(clap::Args)]
 struct InputArgs {
     /// The log: CSV (header row of channel names, optional time_s), WAV
-    /// (integer PCM) or raw binary (with --raw).
+    /// (integer PCM), a telemetry capture (.humtel) or raw binary (with
+    /// --raw).
     input: PathBuf,
     /// Sample rate per channel in hertz (required for CSV without time_s and
     /// for raw).
@@ -242,6 +253,7 @@ fn main() -> ExitCode {
         }
         Command::Scenarios => scenarios(),
         Command::Demo { plot } => demo(plot),
+        Command::Convert { input, output } => humsim::convert::command(&input, &output),
         Command::Tune {
             input,
             detector,

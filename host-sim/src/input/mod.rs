@@ -23,6 +23,9 @@
 //!   `--bits` of 16 or less.
 //! - **Raw** (`--raw u16le|i16le --channels N --rate HZ`): interleaved
 //!   little-endian 16-bit codes, unsigned or two's complement.
+//! - **Telemetry** (`.humtel`): a capture of the board's `humtel` record
+//!   stream; the header gives channels, rate, bits and sample type, gaps
+//!   and corrupt records are reported by frame ([`telemetry`]).
 //!
 //! - **Edge log** (a CSV whose header is exactly `time_s,channel,level`,
 //!   whatever its name): the changes of comparator or GPIO pins, read by
@@ -44,11 +47,13 @@
 mod csv;
 pub mod edges;
 mod raw;
+pub mod telemetry;
 mod wav;
 
 pub use csv::CsvSource;
 pub use edges::{is_edge_header, EdgeLog, EdgeRow};
 pub use raw::RawSource;
+pub use telemetry::TelemetrySource;
 pub use wav::WavSource;
 
 use std::path::PathBuf;
@@ -153,6 +158,10 @@ pub fn open_input(spec: &InputSpec) -> Result<Box<dyn FrameSource>, String> {
         check_bits(b)?;
     }
     check_rate(spec)?;
+    if telemetry::is_capture(&spec.path) {
+        let warn = telemetry::console_warnings();
+        return Ok(Box::new(TelemetrySource::open(spec, warn)?));
+    }
     if let Some(fmt) = spec.raw {
         let Some(ch) = spec.channels else {
             return Err(format!("{name}: --raw needs --channels N"));
