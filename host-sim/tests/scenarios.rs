@@ -355,8 +355,6 @@ fn deterministic_given_seed() {
     assert_ne!(a, c);
 }
 
-/// Standard deviation of each 100 ms window of channel `c`, split into
-/// windows inside a label of that channel and windows clear of any label.
 /// Standard deviations (codes) of the 100 ms windows of channel `c` that
 /// end by `until_s`: those inside one of its touch labels, `margin_s` clear
 /// of both ends (so no press or release ramp falls in them), and those
