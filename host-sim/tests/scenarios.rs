@@ -409,7 +409,8 @@ fn median(mut v: Vec<f64>) -> f64 {
 }
 
 /// Touch-to-ambient hum ratio at the sense node from the coupling formulas
-/// of DESIGN.md §1, from the scenario file's values: the finger as a
+/// of DESIGN.md §1 (standard circuit theory: a capacitive divider and
+/// series capacitances), from the scenario file's values: the finger as a
 /// parallel plate through the overlay, `C_f = ε0·εr·A/d` (ε0 from CODATA
 /// 2022), in series with the body's source capacitance `C_bg + C_bm`, at
 /// the body's hum `V·C_bm/(C_bm + C_bg)`, in parallel with the ambient
@@ -423,7 +424,7 @@ fn median(mut v: Vec<f64>) -> f64 {
 ///
 /// `extra_f` is ambient coupling at `V` beyond the file's own (farads).
 fn coupling_ratio(s: &Scenario, c: usize, floating: bool, extra_f: f64) -> f64 {
-    const EPS0: f64 = 8.854_187_8188e-12; // F/m, CODATA 2022
+    const EPS0: f64 = 8.854_187_818_8e-12; // F/m, CODATA 2022
     let f = &s.file;
     let ch = &f.channels[c];
     let c_f = EPS0 * ch.overlay_eps_r * f.body.finger_area_mm2 * 1e-6 / (ch.overlay_mm * 1e-3);
@@ -431,15 +432,18 @@ fn coupling_ratio(s: &Scenario, c: usize, floating: bool, extra_f: f64) -> f64 {
     let c_b = c_f * c_src / (c_f + c_src);
     let h_body = f.body.mains_pf / (f.body.ground_pf + f.body.mains_pf);
     let c_a = ch.ambient_pf.unwrap_or(f.ambient.coupling_pf) * 1e-12 + extra_f;
-    let (series, h_g) = if floating {
-        let c_ge = f.ground.earth_pf * 1e-12;
-        let ser = move |c: f64| c * c_ge / (c + c_ge);
-        (
-            Box::new(ser) as Box<dyn Fn(f64) -> f64>,
-            f.ground.mains_pf / (f.ground.mains_pf + f.ground.earth_pf),
-        )
+    let (c_ge, h_g) = if floating {
+        let g = &f.ground;
+        (g.earth_pf * 1e-12, g.mains_pf / (g.mains_pf + g.earth_pf))
     } else {
-        (Box::new(|c: f64| c) as Box<dyn Fn(f64) -> f64>, 0.0)
+        (f64::INFINITY, 0.0)
+    };
+    let series = |c: f64| {
+        if c_ge.is_finite() {
+            c * c_ge / (c + c_ge)
+        } else {
+            c
+        }
     };
     1.0 + series(c_b) * (h_body - h_g) / (series(c_a) * (1.0 - h_g))
 }
