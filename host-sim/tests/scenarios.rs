@@ -448,7 +448,7 @@ fn coupling_ratio(s: &Scenario, c: usize, floating: bool, extra_f: f64) -> f64 {
     1.0 + series(c_b) * (h_body - h_g) / (series(c_a) * (1.0 - h_g))
 }
 
-/// End of a scenario's first event other than a touch (a lamp, a dip, the
+/// Time of a scenario's first event other than a touch (a lamp, a dip, the
 /// ground changing, a conductor moving): up to there only touches change
 /// the hum.
 fn quiet_until(s: &Scenario) -> f64 {
@@ -464,11 +464,13 @@ fn quiet_until(s: &Scenario) -> f64 {
 // Touch amplitudes follow from the physics. For the linear front ends the
 // median hum of the 100 ms windows inside touches (full contact: 50 ms
 // clear of the label's ends, past the press and release ramps of at most
-// 40 ms), over the median of the untouched windows, before anything but a
-// touch changes the hum, must be the coupling formulas' ratio
-// (`coupling_ratio`) within 1 %. What that 1 % covers: the ambient's slow
-// drift (3 % SD, 120 s time constant: over the first seconds of a run its
-// median moved the ratio by at most 0.7 %, seen on drift-50hz), ADC and
+// 40 ms; the one touch at 0.6 pressure, in kitchen-panel, has too few
+// windows to move the median), over the median of the untouched windows,
+// before anything but a touch changes the hum, must be the coupling
+// formulas' ratio (`coupling_ratio`) within 1 %. What that 1 % covers: the
+// ambient's slow drift (3 % SD, 120 s time constant), which moves the
+// untouched median against the ambient under the touches (the largest
+// deviation, −0.74 %, is on drift-50hz, the longest run: 120 s), ADC and
 // node noise (0.7 code RMS against tens of codes: below 0.1 %) and the
 // node's loading by the finger (0.01 %). Measured: −0.74 % (drift-50hz)
 // to +0.52 % (battery-float).
