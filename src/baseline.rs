@@ -348,12 +348,14 @@ mod tests {
 
     #[test]
     fn saturates_instead_of_overflowing() {
-        // Reference: the module docs' start-up equations in i64, where
-        // nothing can overflow: an input of u32::MAX (Q8) saturates to
-        // u32::MAX in Q12, the first cycle seeds b = a, then
-        // b += (a − b)/4 (division truncating toward zero, as the shifts of
-        // the magnitude do) and, from the second cycle,
-        // σ += (min(d, 4σ + 4096) − σ)/8. Exact: the same integer steps.
+        // Self-consistency, not an external reference: the module docs'
+        // start-up equations, evaluated in i64 where nothing can overflow
+        // (what is checked is the saturation, not the equations): an input
+        // of u32::MAX (Q8) saturates to u32::MAX in Q12, the first cycle
+        // seeds b = a, then b += (a − b)/4 (division truncating toward
+        // zero, as the shifts of the magnitude do) and, from the second
+        // cycle, σ += (min(d, 4σ + 4096) − σ)/8. Exact: the same integer
+        // steps.
         let mut b = BaselineState::new();
         let (mut base, mut noise) = (0i64, 0i64);
         for (k, a) in [u32::MAX, 0, u32::MAX, 1].into_iter().enumerate() {

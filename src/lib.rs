@@ -5,6 +5,8 @@
 pub mod baseline;
 pub mod config;
 pub mod decision;
+#[cfg(feature = "defmt")]
+mod defmt_check;
 pub mod demod;
 pub mod detector;
 pub mod edge;

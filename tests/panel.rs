@@ -12,7 +12,8 @@ use humsense::{Config, Event, EventKind, PanelMode};
 use support::{press, render_panel, run_panel};
 
 /// Leakage through a shared overlay: 10–20 % of a touched pad's rise
-/// reaches each neighbour (the figure, common practice); 15 % here.
+/// reaches each neighbour (a design figure without a single source: common
+/// practice); 15 % here.
 const LEAK: f64 = 0.15;
 
 /// Ambient amplitude of pad `ch` (pads differ a little, as real ones do).

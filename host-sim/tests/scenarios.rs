@@ -355,9 +355,17 @@ fn deterministic_given_seed() {
     assert_ne!(a, c);
 }
 
-/// Standard deviation of each 100 ms window of channel `c`, split into
-/// windows inside a label of that channel and windows clear of any label.
-fn window_levels(s: &Scenario, codes: &[u16], c: usize) -> (Vec<f64>, Vec<f64>) {
+/// Standard deviations (codes) of the 100 ms windows of channel `c` that
+/// end by `until_s`: those inside one of its touch labels, `margin_s` clear
+/// of both ends (so no press or release ramp falls in them), and those
+/// 50 ms clear of every label.
+fn window_levels(
+    s: &Scenario,
+    codes: &[u16],
+    c: usize,
+    margin_s: f64,
+    until_s: f64,
+) -> (Vec<f64>, Vec<f64>) {
     let nch = s.channels.len();
     let rate = s.adc.rate_hz;
     let win = (rate * 0.1) as usize;
@@ -375,11 +383,14 @@ fn window_levels(s: &Scenario, codes: &[u16], c: usize) -> (Vec<f64>, Vec<f64>) 
         let m = seg.iter().sum::<f64>() / win as f64;
         let sd = (seg.iter().map(|v| (v - m).powi(2)).sum::<f64>() / win as f64).sqrt();
         let (t0, t1) = (w0 as f64 / rate, (w0 + win) as f64 / rate);
+        if t1 > until_s {
+            break;
+        }
         let mine = |l: &&humsim::labels::Label| &l.channel == name;
         if labels
             .iter()
             .filter(mine)
-            .any(|l| l.start_s <= t0 && l.end_s >= t1)
+            .any(|l| l.start_s + margin_s <= t0 && l.end_s - margin_s >= t1)
         {
             inside.push(sd);
         } else if !labels
@@ -397,44 +408,144 @@ fn median(mut v: Vec<f64>) -> f64 {
     v.get(v.len() / 2).copied().unwrap_or(f64::NAN)
 }
 
-// Touch amplitudes follow from the physics (DESIGN.md §1): ambient hum tens
-// of codes, a finger through a thin overlay 10–100x more, a thick overlay
-// about 4x; dead-band front ends show only noise until touched.
+/// Touch-to-ambient hum ratio at the sense node from the coupling formulas
+/// of DESIGN.md §1 (standard circuit theory: a capacitive divider and
+/// series capacitances), from the scenario file's values: the finger as a
+/// parallel plate through the overlay, `C_f = ε0·εr·A/d` (ε0 from CODATA
+/// 2022), in series with the body's source capacitance `C_bg + C_bm`, at
+/// the body's hum `V·C_bm/(C_bm + C_bg)`, in parallel with the ambient
+/// coupling at `V`. With a floating board every coupling is in series with
+/// the board's capacitance to earth `C_ge`, and the board itself sits at
+/// `V·C_gm/(C_gm + C_ge)`. Both currents come from the same mains
+/// waveform (harmonics included), so the ratio of their sums is the ratio
+/// of the hum's RMS values. Valid for a linear front end and a node whose
+/// corner is far above the mains frequency (10 MΩ, 10 pF: the finger's
+/// extra 1 pF changes the node's gain by 0.01 % at 50 Hz).
+///
+/// `extra_f` is ambient coupling at `V` beyond the file's own (farads).
+fn coupling_ratio(s: &Scenario, c: usize, floating: bool, extra_f: f64) -> f64 {
+    const EPS0: f64 = 8.854_187_818_8e-12; // F/m, CODATA 2022
+    let f = &s.file;
+    let ch = &f.channels[c];
+    let c_f = EPS0 * ch.overlay_eps_r * f.body.finger_area_mm2 * 1e-6 / (ch.overlay_mm * 1e-3);
+    let c_src = (f.body.ground_pf + f.body.mains_pf) * 1e-12;
+    let c_b = c_f * c_src / (c_f + c_src);
+    let h_body = f.body.mains_pf / (f.body.ground_pf + f.body.mains_pf);
+    let c_a = ch.ambient_pf.unwrap_or(f.ambient.coupling_pf) * 1e-12 + extra_f;
+    let (c_ge, h_g) = if floating {
+        let g = &f.ground;
+        (g.earth_pf * 1e-12, g.mains_pf / (g.mains_pf + g.earth_pf))
+    } else {
+        (f64::INFINITY, 0.0)
+    };
+    let series = |c: f64| {
+        if c_ge.is_finite() {
+            c * c_ge / (c + c_ge)
+        } else {
+            c
+        }
+    };
+    1.0 + series(c_b) * (h_body - h_g) / (series(c_a) * (1.0 - h_g))
+}
+
+/// Time of a scenario's first event other than a touch (a lamp, a dip, the
+/// ground changing, a conductor moving): up to there only touches change
+/// the hum.
+fn quiet_until(s: &Scenario) -> f64 {
+    use humsim::scenario::TimelineKind;
+    s.file
+        .events
+        .iter()
+        .filter(|e| e.kind != TimelineKind::Touch)
+        .map(|e| e.at_s)
+        .fold(s.duration_s(), f64::min)
+}
+
+// Touch amplitudes follow from the physics. For the linear front ends the
+// median hum of the 100 ms windows inside touches (full contact: 50 ms
+// clear of the label's ends, past the press and release ramps of at most
+// 40 ms; the one touch at 0.6 pressure, in kitchen-panel, has too few
+// windows to move the median), over the median of the untouched windows,
+// before anything but a touch changes the hum, must be the coupling
+// formulas' ratio (`coupling_ratio`) within 1 %. What that 1 % covers: the
+// ambient's slow drift (3 % SD, 120 s time constant), which moves the
+// untouched median against the ambient under the touches (the largest
+// deviation, −0.74 %, is on drift-50hz, the longest run: 120 s), ADC and
+// node noise (0.7 code RMS against tens of codes: below 0.1 %) and the
+// node's loading by the finger (0.01 %). Measured: −0.74 % (drift-50hz)
+// to +0.52 % (battery-float).
 #[test]
-fn builtin_touches_raise_the_hum_as_designed() {
-    let expect: &[(&str, f64, f64)] = &[
-        ("kitchen-panel", 10.0, 100.0),
-        ("workshop-60hz", 5.0, 100.0),
-        ("clipping-amp", 5.0, 100.0),
-        ("battery-float", 5.0, 100.0),
-        ("thick-overlay", 3.0, 5.5),
-        ("odd-rate", 10.0, 100.0),
-        ("drift-50hz", 5.0, 100.0),
-        ("mains-events", 5.0, 100.0),
-        ("comparator-pad", 50.0, f64::INFINITY),
-        ("follower-chain", 50.0, f64::INFINITY),
+fn builtin_touches_raise_the_hum_as_the_coupling_formulas_say() {
+    // (scenario, board floating until its first other event)
+    let linear: &[(&str, bool)] = &[
+        ("kitchen-panel", false),
+        ("workshop-60hz", false),
+        ("battery-float", true),
+        ("thick-overlay", false),
+        ("odd-rate", false),
+        ("drift-50hz", false),
+        ("mains-events", false),
     ];
-    for &(name, lo, hi) in expect {
+    for &(name, floating) in linear {
         let s = Scenario::builtin(name).unwrap();
+        assert_eq!(s.file.ground.floating, floating, "{name}");
         let codes = render_all(&s, None, None);
+        let until = quiet_until(&s);
+        let mut checked = 0;
         for c in 0..s.channels.len() {
-            let (inside, clear) = window_levels(&s, &codes, c);
+            let (inside, clear) = window_levels(&s, &codes, c, 0.05, until);
             if inside.is_empty() {
                 continue;
             }
-            let (t, a) = (median(inside), median(clear));
-            let ratio = t / a.max(0.3);
+            checked += 1;
+            let ratio = median(inside) / median(clear);
+            // A live conductor in the room adds to the ambient coupling at
+            // its starting distance (mains-events: a 400 mm² plug at
+            // 500 mm, 0.09 fF, 4.5 % of the pad's own ambient). That term
+            // is the project's own far-field model (`coupling::
+            // plate_facing`), not an outside formula: self-consistency.
+            let extra: f64 = s
+                .conductors
+                .iter()
+                .filter(|k| k.channels.contains(&c))
+                .map(|k| k.geometry.capacitance(k.depth_m.hypot(k.start_m)))
+                .sum();
+            let want = coupling_ratio(&s, c, floating, extra);
             assert!(
-                ratio >= lo && ratio <= hi,
-                "{name}/{c}: touch {t:.1} ambient {a:.1} ratio {ratio:.1}"
+                (ratio / want - 1.0).abs() < 0.01,
+                "{name}/{c}: ratio {ratio:.3}, formula {want:.3}"
             );
-            if lo < 50.0 {
-                assert!(
-                    (5.0..=300.0).contains(&a),
-                    "{name}/{c}: ambient {a:.1} codes RMS"
-                );
-            }
         }
+        assert!(checked > 0, "{name}: no touch before {until} s");
+    }
+}
+
+// The non-linear front ends, whose window statistics the formulas above do
+// not give, against the figures measured on their renders (seeded, so
+// deterministic; the 2 % allows for the platform's libm, whose last-bit
+// differences in sin, exp and ln reach the codes only through rounding).
+// What the figures mean: clipping-amp's touch is a 0/3.3 V square (RMS
+// about 2 048 codes, the half-swing) over a half-wave ambient (69 codes
+// RMS); the comparator's RC level and the followers' dead band leave the
+// ambient at the ADC's noise (0.3 code RMS is the floor taken), so their
+// ratios are the touch's level in codes over that floor. Measured with
+// this test's windows: 28.86, 1 546 and 4 318.
+#[test]
+fn builtin_touches_through_non_linear_front_ends_match_their_measured_ratios() {
+    let expect: &[(&str, f64)] = &[
+        ("clipping-amp", 28.86),
+        ("comparator-pad", 1_546.0),
+        ("follower-chain", 4_318.0),
+    ];
+    for &(name, want) in expect {
+        let s = Scenario::builtin(name).unwrap();
+        let codes = render_all(&s, None, None);
+        let (inside, clear) = window_levels(&s, &codes, 0, 0.05, quiet_until(&s));
+        let ratio = median(inside) / median(clear).max(0.3);
+        assert!(
+            (ratio / want - 1.0).abs() < 0.02,
+            "{name}: ratio {ratio:.2}, measured before {want}"
+        );
     }
 }
 
