@@ -1,4 +1,4 @@
-//! Cost of the detector on Cortex-M, measured under QEMU (issue 6).
+//! Cost of the detector on Cortex-M, measured under QEMU.
 //!
 //! ```text
 //! cargo run --profile firmware --example cortexm_bench --target thumbv6m-none-eabi

@@ -559,7 +559,7 @@ proptest! {
 
 #[test]
 fn state_sizes_stay_within_the_ram_budget() {
-    // The design budget for the Cortex-M builds (issue: 64 bytes per
+    // The design budget for the Cortex-M builds (64 bytes per
     // channel plus 256 fixed); the benchmark prints the measured sizes.
     // This test pins the per-channel growth so a change that breaks the
     // budget is seen in review.
