@@ -3,35 +3,18 @@
 //! `EdgeDetector`, the plot, and what an edge log holds.
 #![allow(clippy::unwrap_used, clippy::indexing_slicing)]
 
+#[path = "support/cli.rs"]
+mod cli;
+use cli::{p, run};
 use humsense::Event;
 use humsim::configfile::build_digital;
 use humsim::edgeinput::full_edge_events;
 use humsim::input::{EdgeLog, Input};
 use humsim::replay::replay_input;
-use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn humsim() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_humsim"))
-}
+use std::path::PathBuf;
 
 fn tmp(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("humsim-edges-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir.join(name)
-}
-
-fn run(args: &[&str]) -> (i32, String, String) {
-    let o = humsim().args(args).output().unwrap();
-    (
-        o.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
-}
-
-fn p(path: &Path) -> &str {
-    path.to_str().unwrap()
+    cli::scratch("edges", name)
 }
 
 /// The `all` row of a score table: labels, detected, missed, false.

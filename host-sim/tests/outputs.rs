@@ -4,14 +4,13 @@
 //! closed stream ends with a message (or quietly), never a panic.
 #![allow(clippy::unwrap_used)]
 
+#[path = "support/cli.rs"]
+mod cli;
+use cli::{humsim, p, run};
 use std::collections::hash_map::DefaultHasher;
 use std::hash::{Hash, Hasher};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
-
-fn humsim() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_humsim"))
-}
 
 /// A fresh directory of this test's own.
 fn dir(name: &str) -> PathBuf {
@@ -19,19 +18,6 @@ fn dir(name: &str) -> PathBuf {
     let _ = std::fs::remove_dir_all(&d);
     std::fs::create_dir_all(&d).unwrap();
     d
-}
-
-fn run(args: &[&str]) -> (i32, String, String) {
-    let o = humsim().args(args).output().unwrap();
-    (
-        o.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
-}
-
-fn p(path: &Path) -> &str {
-    path.to_str().unwrap()
 }
 
 fn hash(path: &Path) -> u64 {

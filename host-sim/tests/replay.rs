@@ -2,34 +2,17 @@
 //! hand-made file, and every bad input.
 #![allow(clippy::unwrap_used)]
 
+#[path = "support/cli.rs"]
+mod cli;
+use cli::{p, run};
 use humsense::{Config, Detector, Event};
 use humsim::input::RenderSource;
 use humsim::replay::replay;
 use humsim::scenario::{RenderOptions, Scenario};
 use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn humsim() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_humsim"))
-}
 
 fn tmp(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("humsim-replay-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir.join(name)
-}
-
-fn run(args: &[&str]) -> (i32, String, String) {
-    let o = humsim().args(args).output().unwrap();
-    (
-        o.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
-}
-
-fn p(path: &Path) -> &str {
-    path.to_str().unwrap()
+    cli::scratch("replay", name)
 }
 
 /// Rows of a replay output without the channel column (names differ

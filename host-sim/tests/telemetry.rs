@@ -6,30 +6,18 @@
 //! same samples as CSV; `humsim convert`.
 #![allow(clippy::unwrap_used, clippy::indexing_slicing)]
 
+#[path = "support/cli.rs"]
+mod cli;
+use cli::run;
 use humsense::telemetry::{StreamHeader, TelemetryEncoder};
 use humsim::input::telemetry::{cobs_decode, crc16, decode_piece, Capture, Next, Record};
 use humsim::input::{FrameSource, TelemetrySource};
 use std::cell::RefCell;
 use std::path::{Path, PathBuf};
-use std::process::Command;
 use std::rc::Rc;
 
 fn tmp(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("humsim-telemetry-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir.join(name)
-}
-
-fn run(args: &[&str]) -> (i32, String, String) {
-    let o = Command::new(env!("CARGO_BIN_EXE_humsim"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        o.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
+    cli::scratch("telemetry", name)
 }
 
 /// A deterministic test signal: channel c, frame k.

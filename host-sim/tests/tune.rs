@@ -2,32 +2,18 @@
 //! replay, and labels that do not fit the input are refused.
 #![allow(clippy::unwrap_used)]
 
+#[path = "support/cli.rs"]
+mod cli;
+use cli::{p, run};
 use humsim::input::InputSpec;
 use humsim::replay::{config_for, replay};
 use humsim::tune::{tune, TuneCommand};
-use std::path::{Path, PathBuf};
-use std::process::Command;
+use std::path::PathBuf;
 
 fn tmp(name: &str) -> PathBuf {
     let dir = std::env::temp_dir().join(format!("humsim-tune-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     dir.join(name)
-}
-
-fn p(path: &Path) -> &str {
-    path.to_str().unwrap()
-}
-
-fn run(args: &[&str]) -> (i32, String, String) {
-    let o = Command::new(env!("CARGO_BIN_EXE_humsim"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        o.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
 }
 
 /// kitchen-panel (four pads, eight touches, a lamp step) as a CSV log.
