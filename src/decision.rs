@@ -125,21 +125,45 @@ impl DecisionTuning {
     }
 }
 
-/// What the cycles around this one say, beside its amplitude.
+/// What the cycles around this one say, beside its amplitude: the raw
+/// inputs, read only where a decision needs them (most cycles of an idle
+/// channel need neither).
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Evidence {
-    /// Whether the cycle's mean level stayed put against its rise (see
-    /// [`Cycle::dc_step`](crate::Cycle::dc_step); the edge input marks
-    /// windows whose amplitude is not their own measurement as unsteady):
-    /// only a steady cycle may turn a channel on by itself or raise its own
-    /// level.
-    pub steady: bool,
-    /// The lower of this cycle's amplitude and the previous one's (Q8
-    /// codes): the most a channel's own level rises to, so one cycle's
-    /// outlier (a front end's reading of a transition, an impulse) does not
-    /// set the level a release is measured from.
-    pub sustained: u32,
+    /// How far the cycle's mean level moved since the previous cycle
+    /// ([`Cycle::dc_step`](crate::Cycle::dc_step); the edge input gives
+    /// `u16::MAX` for windows whose amplitude is not their own measurement).
+    pub dc_step: u16,
+    /// The previous cycle's amplitude, Q8 codes.
+    pub previous_q8: u32,
+}
+
+impl Evidence {
+    /// Nothing known beyond the cycle itself: a steady mean, and a previous
+    /// cycle at least as high.
+    pub const NONE: Self = Self {
+        dc_step: 0,
+        previous_q8: u32::MAX,
+    };
+
+    /// Whether amplitude `a` over baseline `b` rose by more than twice the
+    /// move of the mean, which no impulse alone gives (it raises the
+    /// amplitude by at most twice its move of the mean). Only a steady cycle
+    /// may turn a channel on by itself or raise its own level.
+    #[inline(always)]
+    pub fn steady(&self, a: u32, b: u32) -> bool {
+        (u32::from(self.dc_step) << 9) < a.saturating_sub(b)
+    }
+
+    /// The lower of `a` and the previous cycle's amplitude: the most a
+    /// channel's own level rises to, so one cycle's outlier (a front end's
+    /// reading of a transition, an impulse) does not set the level a
+    /// release is measured from.
+    #[inline(always)]
+    pub fn sustained(&self, a: u32) -> u32 {
+        a.min(self.previous_q8)
+    }
 }
 
 /// What one cycle's decision asks of the caller.
@@ -241,11 +265,7 @@ impl DecisionState {
         may_turn_on: bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
-        let evidence = Evidence {
-            steady: true,
-            sustained: a,
-        };
-        self.step_with(a, b, n, evidence, || may_turn_on, t)
+        self.step_with(a, b, n, Evidence::NONE, || may_turn_on, t)
     }
 
     /// [`step`](Self::step) with the panel's permission asked only when
@@ -273,7 +293,8 @@ impl DecisionState {
                 // Strong evidence (the excess over the baseline twice what
                 // the on threshold asks, in a cycle whose mean did not
                 // move: no impulse behind it) confirms at once.
-                let strong = evidence.steady && a - on > on - b;
+                let steady = evidence.steady(a, b);
+                let strong = steady && a - on > on - b;
                 let add = if strong { t.debounce_on } else { 1 };
                 self.count = self.count.saturating_add(add);
                 if self.count >= t.debounce_on {
@@ -284,11 +305,8 @@ impl DecisionState {
                     // From a steady cycle, what two cycles reached; else
                     // no more than the on threshold (the level then rises
                     // on the steady cycles that follow).
-                    self.level_q0 = whole_codes(if evidence.steady {
-                        evidence.sustained
-                    } else {
-                        evidence.sustained.min(on)
-                    });
+                    let sustained = evidence.sustained(a);
+                    self.level_q0 = whole_codes(if steady { sustained } else { sustained.min(on) });
                     let k = if touch {
                         EventKind::TouchOn
                     } else {
@@ -326,8 +344,8 @@ impl DecisionState {
         let dropped = fall * DROP < own;
         // The level follows: up at once to what two cycles in a row
         // reached, down by 1/8 of the gap.
-        let up = if evidence.steady {
-            whole_codes(evidence.sustained)
+        let up = if evidence.steady(a, b) {
+            whole_codes(evidence.sustained(a))
         } else {
             0
         };

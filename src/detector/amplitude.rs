@@ -32,9 +32,8 @@ pub(super) fn diff_gain_q8(avg_shift: u8) -> u32 {
 /// Takes one cycle's fundamental `f` and harmonics `h` into a channel's
 /// coherent averages `avg` and `avg_h` (shift `k`), updates its amplitude
 /// `amp_q8` (Q8 codes) and returns the noise sample (the change of
-/// amplitude times `gain`, Q8 codes) and the lower of this cycle's
-/// amplitude and the previous one's (what a touch's own level may rise
-/// to: a single cycle's outlier does not raise it). The state lives in the
+/// amplitude times `gain`, Q8 codes) and the previous cycle's amplitude
+/// (for [`Evidence`](crate::decision::Evidence)). The state lives in the
 /// back end's per-channel record.
 #[inline(always)]
 pub(super) fn update<const H: usize>(
@@ -60,9 +59,9 @@ pub(super) fn update<const H: usize>(
     // Noise sample: the change since the last cycle, scaled to a mean
     // absolute deviation (see `diff_gain_q8`).
     let d = mul_q8(amp.abs_diff(*amp_q8), gain);
-    let sustained = amp.min(*amp_q8);
+    let previous = *amp_q8;
     *amp_q8 = amp;
-    (d, sustained)
+    (d, previous)
 }
 
 /// Complex exponential average `a += (z − a) >> k` (k = 0: `a = z`).

@@ -126,7 +126,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             .iter()
             .zip(cycle.flat.iter())
             .zip(noise.iter().zip(cycle.dc_step.iter()));
-        for (channel, (c, ((dc, flat), ((d, sustained), dc_step)))) in
+        for (channel, (c, ((dc, flat), ((d, previous), dc_step)))) in
             (0u8..).zip(self.ch.iter_mut().zip(extras))
         {
             let amp = c.amp_q8;
@@ -172,14 +172,9 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                     });
                     w == Some(channel) && !others_active
                 };
-                // Steady: the rise is more than twice the move of the
-                // mean, which no impulse alone gives (it raises the
-                // amplitude by at most twice its move of the mean; see
-                // `Cycle::dc_step`).
-                let steady = (u32::from(*dc_step) << 9) < amp.saturating_sub(b);
                 let evidence = Evidence {
-                    steady,
-                    sustained: *sustained,
+                    dc_step: *dc_step,
+                    previous_q8: *previous,
                 };
                 let (e, verdict) =
                     c.decision
