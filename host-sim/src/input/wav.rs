@@ -156,9 +156,12 @@ impl WavSource {
             return Err(format!("{name}: the WAV holds no samples"));
         }
         let bytes = container_bytes(&seen.borrow()).unwrap_or(width.div_ceil(8));
-        let decoder = if width == 8 * bytes || (width, bytes) == (24, 4) {
+        // In u32: `bytes` comes from the file (a block alignment up to
+        // 65 535), so eight times it may not fit u16.
+        let container_bits = 8 * u32::from(bytes);
+        let decoder = if u32::from(width) == container_bits || (width, bytes) == (24, 4) {
             Decoder::Hound(reader)
-        } else if (2..=4).contains(&bytes) && width < 8 * bytes {
+        } else if (2..=4).contains(&bytes) && u32::from(width) < container_bits {
             Decoder::Padded {
                 reader: reader.into_inner(),
                 bytes: usize::from(bytes),
