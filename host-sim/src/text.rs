@@ -125,6 +125,32 @@ pub fn read_line<R: BufRead>(
     Ok(n)
 }
 
+/// Reads lines of `reader` into `buf` (cleared first) until one holds more
+/// than ASCII whitespace, and strips its line end: `Ok(false)` at the end
+/// of the input. `line_no` counts every line read (blank ones too), so
+/// messages name the file's own line numbers. Each line is bounded as in
+/// [`read_line`].
+pub fn read_content_line<R: BufRead>(
+    reader: &mut R,
+    buf: &mut Vec<u8>,
+    name: &str,
+    line_no: &mut usize,
+) -> Result<bool, String> {
+    loop {
+        buf.clear();
+        if read_line(reader, buf, name, *line_no + 1)? == 0 {
+            return Ok(false);
+        }
+        *line_no += 1;
+        while matches!(buf.last(), Some(b'\n' | b'\r')) {
+            buf.pop();
+        }
+        if !buf.trim_ascii().is_empty() {
+            return Ok(true);
+        }
+    }
+}
+
 /// Reads a small text file whole: at most [`MAX_TEXT_BYTES`], UTF-8, no
 /// line longer than [`MAX_LINE_BYTES`]. `what` names the file's role in
 /// messages (`labels`, `config file`).

@@ -75,24 +75,6 @@ fn parse_int(b: &[u8]) -> Option<i64> {
     Some(if neg { -v } else { v })
 }
 
-fn trim_bytes(mut b: &[u8]) -> &[u8] {
-    while let Some((f, r)) = b.split_first() {
-        if f.is_ascii_whitespace() {
-            b = r;
-        } else {
-            break;
-        }
-    }
-    while let Some((l, r)) = b.split_last() {
-        if l.is_ascii_whitespace() {
-            b = r;
-        } else {
-            break;
-        }
-    }
-    b
-}
-
 impl CsvSource {
     /// Opens a CSV log: reads the header and, with a `time_s` column, the
     /// first rows to infer the rate.
@@ -238,25 +220,12 @@ impl CsvSource {
     /// Reads the next non-empty line into `self.line` (without its end),
     /// at most [`crate::text::MAX_LINE_BYTES`] long.
     fn next_line(&mut self) -> Result<bool, String> {
-        loop {
-            self.line.clear();
-            let n = crate::text::read_line(
-                &mut self.reader,
-                &mut self.line,
-                &self.info.name,
-                self.line_no + 1,
-            )?;
-            if n == 0 {
-                return Ok(false);
-            }
-            self.line_no += 1;
-            while matches!(self.line.last(), Some(b'\n' | b'\r')) {
-                self.line.pop();
-            }
-            if !trim_bytes(&self.line).is_empty() {
-                return Ok(true);
-            }
-        }
+        crate::text::read_content_line(
+            &mut self.reader,
+            &mut self.line,
+            &self.info.name,
+            &mut self.line_no,
+        )
     }
 
     /// Checks one row's time against the row before, from the values:
@@ -343,7 +312,7 @@ impl CsvSource {
                     start + 1
                 ));
             }
-            let t = trim_bytes(cell);
+            let t = cell.trim_ascii();
             let col = start + 1;
             if Some(k) == self.time_col {
                 let s = std::str::from_utf8(t).unwrap_or("");

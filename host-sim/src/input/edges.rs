@@ -308,30 +308,17 @@ impl EdgeLog {
     fn cell_text(&self, col: usize) -> String {
         let rest = self.line.get(col.saturating_sub(1)..).unwrap_or(&[]);
         let end = rest.iter().position(|&b| b == b',').unwrap_or(rest.len());
-        String::from_utf8_lossy(trim(rest.get(..end).unwrap_or(&[]))).into_owned()
+        String::from_utf8_lossy(rest.get(..end).unwrap_or(&[]).trim_ascii()).into_owned()
     }
 
     /// Reads the next non-empty line into `self.line` (without its end).
     fn next_line(&mut self) -> Result<bool, String> {
-        loop {
-            self.line.clear();
-            let n = crate::text::read_line(
-                &mut self.reader,
-                &mut self.line,
-                &self.name,
-                self.line_no + 1,
-            )?;
-            if n == 0 {
-                return Ok(false);
-            }
-            self.line_no += 1;
-            while matches!(self.line.last(), Some(b'\n' | b'\r')) {
-                self.line.pop();
-            }
-            if !trim(&self.line).is_empty() {
-                return Ok(true);
-            }
-        }
+        crate::text::read_content_line(
+            &mut self.reader,
+            &mut self.line,
+            &self.name,
+            &mut self.line_no,
+        )
     }
 
     /// Parses the next row's cells; `None` at the end of the file.
@@ -345,9 +332,9 @@ impl EdgeLog {
         let mut n = 0usize;
         let mut start = 0usize;
         for part in self.line.split(|&b| b == b',') {
-            let lead = part.len() - trim_start(part).len();
+            let lead = part.len() - part.trim_ascii_start().len();
             if let Some(slot) = cells.get_mut(n) {
-                *slot = (start + lead + 1, trim(part));
+                *slot = (start + lead + 1, part.trim_ascii());
             }
             n += 1;
             start += part.len() + 1;
@@ -405,29 +392,6 @@ impl EdgeLog {
 /// A time as messages show it (6 decimals, as the log has at least).
 fn fmt_s(t: f64) -> String {
     format!("{t:.6}")
-}
-
-fn trim_start(mut b: &[u8]) -> &[u8] {
-    while let Some((f, r)) = b.split_first() {
-        if f.is_ascii_whitespace() {
-            b = r;
-        } else {
-            break;
-        }
-    }
-    b
-}
-
-fn trim(b: &[u8]) -> &[u8] {
-    let mut b = trim_start(b);
-    while let Some((l, r)) = b.split_last() {
-        if l.is_ascii_whitespace() {
-            b = r;
-        } else {
-            break;
-        }
-    }
-    b
 }
 
 #[cfg(test)]
