@@ -137,6 +137,22 @@ pub struct Evidence {
     pub dc_step: u16,
     /// The previous cycle's amplitude, Q8 codes.
     pub previous_q8: u32,
+    /// With the field profile's window: the thresholds it sets (then the
+    /// baseline and noise terms above are not used for on and off).
+    pub window: Option<WindowThresholds>,
+}
+
+/// The thresholds of a sliding window (see
+/// [`detector`](crate::detector)'s window stage), Q8 codes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct WindowThresholds {
+    /// On threshold.
+    pub on_q8: u32,
+    /// Off threshold.
+    pub off_q8: u32,
+    /// What the field levels count from (the on threshold over `on_ratio`).
+    pub level_base_q8: u32,
 }
 
 impl Evidence {
@@ -145,6 +161,7 @@ impl Evidence {
     pub const NONE: Self = Self {
         dc_step: 0,
         previous_q8: u32::MAX,
+        window: None,
     };
 
     /// Whether amplitude `a` over baseline `b` rose by more than twice the
@@ -284,7 +301,10 @@ impl DecisionState {
         let touch = t.profile == Profile::Touch;
         if !self.active() {
             // Only the threshold this state compares against is computed.
-            let on = t.on_threshold(b, n);
+            let on = match evidence.window {
+                Some(w) => w.on_q8,
+                None => t.on_threshold(b, n),
+            };
             if a > on && !may_turn_on() {
                 self.count = 0;
                 return (None, Verdict::Freeze);
@@ -334,7 +354,10 @@ impl DecisionState {
             return (Some(off_kind), Verdict::Relearn);
         }
         let own = u32::from(self.level_q0);
-        let off = t.off_threshold(b, n);
+        let off = match evidence.window {
+            Some(w) => w.off_q8,
+            None => t.off_threshold(b, n),
+        };
         // Below the off threshold, or a sharp fall from the channel's own
         // level (a finger lifting while the ambient is above the old
         // baseline), compared in whole codes (no overflow: both below 2^16).
@@ -378,8 +401,12 @@ impl DecisionState {
         if touch {
             return (None, Verdict::Freeze);
         }
+        let level_base = match evidence.window {
+            Some(w) => w.level_base_q8,
+            None => b,
+        };
         (
-            self.update_level(a, b, t).map(EventKind::Level),
+            self.update_level(a, level_base, t).map(EventKind::Level),
             Verdict::Freeze,
         )
     }

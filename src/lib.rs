@@ -23,7 +23,10 @@ pub mod queue;
 pub mod telemetry;
 
 pub use config::{Config, FieldInfo, FieldKind, FieldValue, MainsMode, PanelMode, Profile};
-pub use detector::{AdcSample, Backend, ChannelSnapshot, Cycle, Detector, Frontend};
+pub use detector::{
+    AdcSample, Backend, ChannelSnapshot, Cycle, Detector, FieldDetector, Frontend, NoWindow,
+    SlidingWindow, WindowStage, FIELD_WINDOW_WORDS,
+};
 pub use edge::{EdgeConfig, EdgeDetector, EdgeInput, TimerWidth};
 pub use error::{ConfigError, ConfigValue};
 pub use event::{Event, EventKind, Fault, Faults};

@@ -34,6 +34,7 @@
 //! Every run is deterministic given `(scenario, seed, seconds)`.
 
 pub mod adc;
+pub mod bench;
 pub mod body;
 pub mod builtin;
 pub mod configfile;

@@ -174,6 +174,20 @@ config_table! {
         /// none): a complex exponential average of the per-cycle I/Q, gaining
         /// 10·log10(2^(shift+1) − 1) dB in white noise.
         avg_shift: u8 = [int 0, 4], "log2 cycles", touch 0, field 2;
+        /// Sliding coherent window, ms (0 to 2000; 0 is none): the per-cycle
+        /// I/Q summed over the last `window_ms` of mains cycles and decided
+        /// every cycle, with the on threshold from the Rayleigh law for
+        /// `false_alarms_per_hour` (see [`detector`](crate::detector)'s
+        /// window stage). It is the deadline a steady field is reported
+        /// within: 0.5 s in the field profile. It needs a detector with
+        /// window memory ([`FieldDetector`](crate::FieldDetector)); a
+        /// detector without ([`NoWindow`](crate::NoWindow)) uses `avg_shift` instead, and one with
+        /// too little refuses the configuration.
+        window_ms: u16 = [int 0, 2_000], "ms", touch 0, field 500;
+        /// With a window: false on events an hour under white noise alone,
+        /// the one knob that trades sensitivity against false alarms
+        /// (0.01 to 3600). Each halving costs about 0.2 dB of sensitivity.
+        false_alarms_per_hour: f32 = [float 0.01, 3_600.0], "per hour", touch 1.0, field 1.0;
         /// Mains cycles of fast baseline learning after start-up and after an
         /// input fault ends (1 to 65 535). During them the channel decides
         /// nothing: no on, off or level event; fault events (and a queue's
@@ -207,7 +221,7 @@ config_table! {
         /// half of it.
         floor_codes: f32 = [float 0.0, 10_000.0], "ADC codes", touch 2.0, field 1.0;
         /// Consecutive cycles above the on threshold before an on event (1 to 255).
-        debounce_on: u8 = [int 1, 255], "cycles", touch 2, field 5;
+        debounce_on: u8 = [int 1, 255], "cycles", touch 2, field 1;
         /// Consecutive cycles below the off threshold before an off event
         /// (1 to 255).
         debounce_off: u8 = [int 1, 255], "cycles", touch 3, field 10;

@@ -70,3 +70,28 @@ fn average(a: &mut Iq, z: &Iq, k: u8) {
     a.i = a.i.saturating_add(z.i.saturating_sub(a.i) >> k);
     a.q = a.q.saturating_add(z.q.saturating_sub(a.q) >> k);
 }
+
+/// The window stage's amplitude in place of the exponential average: the
+/// window mean's magnitude, with the harmonics' averages (shift `k`) added
+/// in power; returns the window's noise sample and the previous amplitude.
+#[inline(always)]
+pub(super) fn with_window<const H: usize>(
+    avg_h: &mut [Iq; H],
+    amp_q8: &mut u32,
+    out: super::window::WindowOut,
+    h: &[Iq; H],
+    k: u8,
+) -> (u32, u32) {
+    let mut amp = out.amp_q8;
+    if H > 0 {
+        let mut power = u64::from(amp) * u64::from(amp);
+        for (a, z) in avg_h.iter_mut().zip(h.iter()) {
+            average(a, z, k);
+            power = power.saturating_add(a.power());
+        }
+        amp = isqrt_u64(power);
+    }
+    let previous = *amp_q8;
+    *amp_q8 = amp;
+    (out.noise_q8, previous)
+}

@@ -4,9 +4,12 @@
 
 use super::amplitude::{self, diff_gain_q8};
 use super::cycle::Cycle;
+use super::window::{self, NoWindow, WindowStage};
 use crate::baseline::{BaselineState, BaselineTuning};
 use crate::config::{Config, MAX_CHANNELS, MAX_HARMONICS};
-use crate::decision::{ratio_q8, DecisionState, DecisionTuning, Evidence, Verdict};
+use crate::decision::{
+    ratio_q8, DecisionState, DecisionTuning, Evidence, Verdict, WindowThresholds,
+};
 use crate::demod::Iq;
 use crate::error::ConfigError;
 use crate::event::Event;
@@ -31,11 +34,13 @@ pub(super) struct ChannelBack<const H: usize> {
 
 /// Per-cycle half of the pipeline: coherent averaging, amplitude, panel
 /// rules, baseline, noise, decision and faults for `N` channels with `H`
-/// extra harmonic bins.
+/// extra harmonic bins, and the window stage `Win` ([`NoWindow`], or the
+/// field profile's [`SlidingWindow`](super::SlidingWindow)).
 #[derive(Clone, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Backend<const N: usize, const H: usize> {
+pub struct Backend<const N: usize, const H: usize, Win: WindowStage = NoWindow> {
     pub(super) ch: [ChannelBack<H>; N],
+    win: Win,
     pub(super) baseline_t: BaselineTuning,
     pub(super) decision_t: DecisionTuning,
     panel_t: PanelTuning,
@@ -45,10 +50,11 @@ pub struct Backend<const N: usize, const H: usize> {
     pub(super) last_sample: u64,
 }
 
-impl<const N: usize, const H: usize> Backend<N, H> {
+impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
     /// Validates `cfg` and builds the back end. Never panics.
     pub fn new(cfg: &Config) -> Result<Self, ConfigError> {
         cfg.validate(H)?;
+        Win::check(cfg)?;
         Ok(Self::build(cfg))
     }
 
@@ -67,6 +73,7 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         };
         Self {
             ch: [fresh; N],
+            win: Win::build(cfg),
             baseline_t: BaselineTuning {
                 rise_shift: cfg.baseline_rise_shift,
                 fall_shift: cfg.baseline_fall_shift,
@@ -93,14 +100,48 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         let gain = self.diff_gain_q8;
         // Built element by element (an array filled first would be a
         // `memset` call on small cores).
+        // The window stage, when there is one: its memory per channel, the
+        // slot this cycle writes, and the thresholds it gives.
+        let mut win = self.win.parts();
+        let mut head = 0usize;
+        let mut wlen = 0usize;
+        if let Some(p) = win.as_mut() {
+            wlen = p.t.cycles(cycle.samples);
+            let slots = p.words.saturating_sub(2).max(1);
+            head = usize::from(*p.head) % slots;
+            if usize::from(*p.w) != wlen {
+                // The mains system changed the window's length: sum afresh.
+                if *p.w != 0 {
+                    for (c, m) in self.ch.iter_mut().zip(p.mem.chunks_exact(p.words)) {
+                        window::resum(m, &mut c.avg, head, wlen);
+                    }
+                }
+                *p.w = wlen as u8;
+            }
+            *p.head = ((head + 1) % slots) as u8;
+        }
         let mut inputs = self
             .ch
             .iter_mut()
             .zip(cycle.fund.iter().zip(cycle.harm.iter()));
-        let noise: [(u32, u32); N] = core::array::from_fn(|_| {
+        let mut ambient: [u32; N] = [0; N];
+        let mut amb = ambient.iter_mut();
+        let noise: [(u32, u32); N] = core::array::from_fn(|ch| {
             let Some((c, (f, h))) = inputs.next() else {
                 return (0, 0);
             };
+            if let Some(p) = win.as_mut() {
+                let words = p.words;
+                let m = p
+                    .mem
+                    .get_mut(ch * words..(ch + 1) * words)
+                    .unwrap_or(&mut []);
+                let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t);
+                if let Some(a) = amb.next() {
+                    *a = out.ambient_q8;
+                }
+                return amplitude::with_window(&mut c.avg_h, &mut c.amp_q8, out, h, k);
+            }
             amplitude::update(&mut c.avg, &mut c.avg_h, &mut c.amp_q8, (f, h), k, gain)
         });
         // The panel rules: the ambient rule (three channels or more) first,
@@ -110,9 +151,9 @@ impl<const N: usize, const H: usize> Backend<N, H> {
         // for permission to turn on (mostly never: dividing is costly on
         // small cores). One channel alone is always its own strongest pad.
         if N >= 3 {
-            self.ambient_rule();
+            ambient_rule(&mut self.ch, &self.baseline_t, &self.panel_t, win.as_mut());
         }
-        let rise_in = self.rise_inputs();
+        let rise_in = rise_inputs(&self.ch, &self.baseline_t, &self.panel_t);
         let mut winner: Option<Option<u8>> = None;
         let mut active_mask: u32 = 0;
         for (i, c) in self.ch.iter().enumerate() {
@@ -172,9 +213,19 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                     });
                     w == Some(channel) && !others_active
                 };
+                let window = win.as_ref().map(|p| {
+                    let amb = ambient.get(usize::from(channel)).copied().unwrap_or(0);
+                    let (on, off) = p.t.thresholds(n, amb, cycle.samples);
+                    WindowThresholds {
+                        on_q8: on,
+                        off_q8: off,
+                        level_base_q8: p.t.level_base(on),
+                    }
+                });
                 let evidence = Evidence {
                     dc_step: *dc_step,
                     previous_q8: *previous,
+                    window,
                 };
                 let (e, verdict) =
                     c.decision
@@ -187,7 +238,16 @@ impl<const N: usize, const H: usize> Backend<N, H> {
                     Verdict::Learn if amp < self.fault_t.nohum_q8() => {}
                     Verdict::Learn => learn = true,
                     Verdict::Freeze => {}
-                    Verdict::Relearn => c.baseline.relearn(amp),
+                    Verdict::Relearn => {
+                        c.baseline.relearn(amp);
+                        if let Some(p) = win.as_mut() {
+                            let words = p.words;
+                            let ch = usize::from(channel);
+                            if let Some(m) = p.mem.get_mut(ch * words..(ch + 1) * words) {
+                                window::relearn_ambient(m, &c.avg, cycle.samples, p.t);
+                            }
+                        }
+                    }
                 }
                 if c.decision.active() {
                     active_mask |= bit;
@@ -201,6 +261,13 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             }
             if learn {
                 c.baseline.update(amp, *d, &self.baseline_t);
+                if let Some(p) = win.as_mut() {
+                    let words = p.words;
+                    let ch = usize::from(channel);
+                    if let Some(m) = p.mem.get_mut(ch * words..(ch + 1) * words) {
+                        window::learn_ambient(m, head);
+                    }
+                }
             }
             if event.is_none() {
                 event = c.faults.next_change();
@@ -216,61 +283,71 @@ impl<const N: usize, const H: usize> Backend<N, H> {
             }
         }
     }
+}
 
-    /// Amplitude and effective baseline (at least the decision floor) of
-    /// each channel, both Q8, for the panel rules; baseline 0 for channels
-    /// not deciding (learning or faulted).
-    fn rise_inputs(&self) -> [(u32, u32); N] {
-        let mut chs = self.ch.iter();
-        core::array::from_fn(|_| {
-            let Some(c) = chs.next() else {
-                return (0, 0);
-            };
-            let deciding = c.baseline.settled(&self.baseline_t)
-                && !c.faults.present().intersects(SIGNAL_FAULTS);
-            if !deciding {
-                return (c.amp_q8, 0);
-            }
-            (
-                c.amp_q8,
-                c.baseline.baseline_q8().max(self.panel_t.floor_q8),
-            )
-        })
-    }
-
-    /// The ambient rule: rescale every settled baseline by the common
-    /// ratio when the panel rose or fell together. The rises are divided
-    /// out only when a division-free count says the rule may fire
-    /// ([`PanelTuning::may_be_ambient`]).
-    fn ambient_rule(&mut self) {
-        let inputs = self.rise_inputs();
-        let deciding = inputs.iter().copied().filter(|&(_, b)| b != 0);
-        if !self.panel_t.may_be_ambient(deciding) {
-            return;
+/// Amplitude and effective baseline (at least the decision floor) of
+/// each channel, both Q8, for the panel rules; baseline 0 for channels
+/// not deciding (learning or faulted).
+fn rise_inputs<const N: usize, const H: usize>(
+    ch: &[ChannelBack<H>; N],
+    bt: &BaselineTuning,
+    pt: &PanelTuning,
+) -> [(u32, u32); N] {
+    let mut chs = ch.iter();
+    core::array::from_fn(|_| {
+        let Some(c) = chs.next() else {
+            return (0, 0);
+        };
+        let deciding = c.baseline.settled(bt) && !c.faults.present().intersects(SIGNAL_FAULTS);
+        if !deciding {
+            return (c.amp_q8, 0);
         }
-        // The deciding channels' rises, packed at the front.
-        let mut eligible = inputs
-            .iter()
-            .filter(|&&(_, b)| b != 0)
-            .map(|&(a, b)| ratio_q8(a, b));
-        let mut n = 0usize;
-        let mut ratios: [u32; N] = core::array::from_fn(|_| match eligible.next() {
-            Some(r) => {
-                n += 1;
-                r
-            }
-            None => 0,
-        });
-        let Some(eligible) = ratios.get_mut(..n) else {
-            return;
-        };
-        let Some(factor) = self.panel_t.common_ratio(eligible) else {
-            return;
-        };
-        for c in self.ch.iter_mut() {
-            if c.baseline.settled(&self.baseline_t) {
-                c.baseline.rescale(factor);
-            }
+        (c.amp_q8, c.baseline.baseline_q8().max(pt.floor_q8))
+    })
+}
+
+/// The ambient rule: rescale every settled baseline (and the window's
+/// ambient estimates) by the common ratio when the panel rose or fell
+/// together. The rises are divided out only when a division-free count
+/// says the rule may fire ([`PanelTuning::may_be_ambient`]).
+fn ambient_rule<const N: usize, const H: usize>(
+    ch: &mut [ChannelBack<H>; N],
+    bt: &BaselineTuning,
+    pt: &PanelTuning,
+    win: Option<&mut window::WindowParts<'_>>,
+) {
+    let inputs = rise_inputs(ch, bt, pt);
+    let deciding = inputs.iter().copied().filter(|&(_, b)| b != 0);
+    if !pt.may_be_ambient(deciding) {
+        return;
+    }
+    // The deciding channels' rises, packed at the front.
+    let mut eligible = inputs
+        .iter()
+        .filter(|&&(_, b)| b != 0)
+        .map(|&(a, b)| ratio_q8(a, b));
+    let mut n = 0usize;
+    let mut ratios: [u32; N] = core::array::from_fn(|_| match eligible.next() {
+        Some(r) => {
+            n += 1;
+            r
+        }
+        None => 0,
+    });
+    let Some(eligible) = ratios.get_mut(..n) else {
+        return;
+    };
+    let Some(factor) = pt.common_ratio(eligible) else {
+        return;
+    };
+    for c in ch.iter_mut() {
+        if c.baseline.settled(bt) {
+            c.baseline.rescale(factor);
+        }
+    }
+    if let Some(p) = win {
+        for m in p.mem.chunks_exact_mut(p.words) {
+            window::rescale_ambient(m, factor);
         }
     }
 }

@@ -32,11 +32,16 @@ mod backend;
 mod cycle;
 mod frontend;
 mod snapshot;
+mod window;
 
 pub use backend::Backend;
 pub use cycle::{AdcSample, Cycle};
 pub use frontend::Frontend;
 pub use snapshot::{ChannelSnapshot, ChannelState};
+pub use window::{
+    per_decision_pfa, NoWindow, SlidingWindow, WindowParts, WindowStage, WindowTuning,
+    FIELD_WINDOW_WORDS,
+};
 
 pub use crate::config::{MAX_CHANNELS, MAX_HARMONICS};
 
@@ -68,17 +73,43 @@ use crate::mains::MainsSystem;
 /// [`Detector::new`] accepted.
 #[derive(Clone, Debug)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Detector<const N: usize = 1, const H: usize = 0> {
+pub struct Detector<const N: usize = 1, const H: usize = 0, Win: WindowStage = NoWindow> {
     front: Frontend<N, H>,
-    back: Backend<N, H>,
+    back: Backend<N, H, Win>,
 }
 
-impl<const N: usize, const H: usize> Detector<N, H> {
+/// A detector with window memory for the field profile's sliding window
+/// (`window_ms` up to 0.5 s at 60 Hz: [`FIELD_WINDOW_WORDS`] words, 128
+/// bytes, per channel). With the touch profile (no window) it works as a
+/// [`Detector`] and the memory idles.
+///
+/// ```
+/// use humsense::{Config, EventKind, FieldDetector, MainsMode};
+/// let mut det: FieldDetector = FieldDetector::new(Config::field().with_mains(MainsMode::Hz50)).unwrap();
+/// // A 50 Hz field of 60 codes appears after 5 s (2 kHz, 12 bits).
+/// let mut on = None;
+/// for n in 0..12_000u32 {
+///     let amp = if n >= 10_000 { 60.0 } else { 0.0 };
+///     let x = 2048.0 + amp * (core::f32::consts::TAU * n as f32 / 40.0).sin()
+///         + 3.0 * (n as f32 * 1.7).sin(); // a little of something else
+///     if let Some(e) = det.push(x as u16) {
+///         if e.kind == EventKind::FieldOn { on = Some(e.sample); }
+///     }
+/// }
+/// // Reported within the 0.5 s window of the onset.
+/// let at = on.unwrap();
+/// assert!(at >= 10_000 && at < 11_000, "{at}");
+/// ```
+pub type FieldDetector<const N: usize = 1, const H: usize = 0> =
+    Detector<N, H, SlidingWindow<N, FIELD_WINDOW_WORDS>>;
+
+impl<const N: usize, const H: usize, Win: WindowStage> Detector<N, H, Win> {
     /// Validates `config` and builds the detector; the error names the
     /// field that is wrong. Never panics.
     pub fn new(config: Config) -> Result<Self, ConfigError> {
         // Validated once; both halves are built in place.
         config.validate(H)?;
+        Win::check(&config)?;
         Ok(Self {
             front: Frontend::build(&config),
             back: Backend::build(&config),
@@ -149,12 +180,12 @@ impl<const N: usize, const H: usize> Detector<N, H> {
     }
 
     /// The per-cycle half.
-    pub fn backend(&self) -> &Backend<N, H> {
+    pub fn backend(&self) -> &Backend<N, H, Win> {
         &self.back
     }
 }
 
-impl<const H: usize> Detector<1, H> {
+impl<const H: usize, Win: WindowStage> Detector<1, H, Win> {
     /// Takes one sample of a single-channel detector; returns the event it
     /// caused, if any (most calls return `None`, cheaply). Never panics.
     #[inline]

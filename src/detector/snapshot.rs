@@ -1,6 +1,7 @@
 //! A read-only view of one channel, computed only when asked for.
 
 use super::backend::Backend;
+use super::window::WindowStage;
 use crate::event::Faults;
 use crate::fault::SIGNAL_FAULTS;
 
@@ -68,7 +69,7 @@ impl ChannelSnapshot {
     }
 }
 
-impl<const N: usize, const H: usize> Backend<N, H> {
+impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
     /// A view of channel `ch`, or `None` past the last channel.
     pub fn snapshot(&self, ch: usize) -> Option<ChannelSnapshot> {
         let c = self.ch.get(ch)?;

@@ -7,6 +7,8 @@ const CONFIG: humsense::Config = humsense::Config {
     spike_floor_codes: 2,
     track_min_codes: 0.5,
     avg_shift: 3,
+    window_ms: 500,
+    false_alarms_per_hour: 1.0,
     startup_cycles: 50,
     baseline_rise_shift: 11,
     baseline_fall_shift: 5,
