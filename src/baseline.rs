@@ -97,6 +97,13 @@ impl BaselineState {
         self.cycles >= t.startup_cycles
     }
 
+    /// Whether the cycle just learnt was one of start-up's fast cycles
+    /// (the count, advanced by [`update`](Self::update), has not passed
+    /// `startup_cycles`).
+    pub const fn learning(&self, t: &BaselineTuning) -> bool {
+        self.cycles <= t.startup_cycles
+    }
+
     /// Restarts the baseline at amplitude `amp_q8`, keeping the noise
     /// estimate and ending any hold (used after a stuck-active timeout, and
     /// after a release that landed away from the old baseline).

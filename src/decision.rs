@@ -137,9 +137,49 @@ pub struct Evidence {
     pub dc_step: u16,
     /// The previous cycle's amplitude, Q8 codes.
     pub previous_q8: u32,
-    /// With the field profile's window: the thresholds it sets (then the
-    /// baseline and noise terms above are not used for on and off).
-    pub window: Option<WindowThresholds>,
+}
+
+/// Where a decision's on and off thresholds come from: `()` for the
+/// baseline and noise formulas of [`DecisionTuning`], or the thresholds a
+/// sliding window set ([`WindowThresholds`]). A type parameter, so a
+/// detector without a window carries no test for one.
+pub trait ThresholdSource: Copy {
+    /// The on threshold (Q8 codes) for baseline `b` and noise `n`.
+    fn on(&self, t: &DecisionTuning, b: u32, n: u32) -> u32;
+    /// The off threshold.
+    fn off(&self, t: &DecisionTuning, b: u32, n: u32) -> u32;
+    /// What the field levels are counted from.
+    fn level_base(&self, b: u32) -> u32;
+}
+
+impl ThresholdSource for () {
+    #[inline(always)]
+    fn on(&self, t: &DecisionTuning, b: u32, n: u32) -> u32 {
+        t.on_threshold(b, n)
+    }
+    #[inline(always)]
+    fn off(&self, t: &DecisionTuning, b: u32, n: u32) -> u32 {
+        t.off_threshold(b, n)
+    }
+    #[inline(always)]
+    fn level_base(&self, b: u32) -> u32 {
+        b
+    }
+}
+
+impl ThresholdSource for WindowThresholds {
+    #[inline(always)]
+    fn on(&self, _: &DecisionTuning, _: u32, _: u32) -> u32 {
+        self.on_q8
+    }
+    #[inline(always)]
+    fn off(&self, _: &DecisionTuning, _: u32, _: u32) -> u32 {
+        self.off_q8
+    }
+    #[inline(always)]
+    fn level_base(&self, _: u32) -> u32 {
+        self.level_base_q8
+    }
 }
 
 /// The thresholds of a sliding window (see
@@ -161,7 +201,6 @@ impl Evidence {
     pub const NONE: Self = Self {
         dc_step: 0,
         previous_q8: u32::MAX,
-        window: None,
     };
 
     /// Whether amplitude `a` over baseline `b` rose by more than twice the
@@ -282,29 +321,33 @@ impl DecisionState {
         may_turn_on: bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
-        self.step_with(a, b, n, Evidence::NONE, || may_turn_on, t)
+        self.step_with(a, b, n, Evidence::NONE, (), || may_turn_on, t)
     }
 
     /// [`step`](Self::step) with the panel's permission asked only when
     /// it matters (an idle channel above its on threshold), so a costly
     /// permission (the strongest-pad rule) is mostly never computed, and
-    /// with what the cycles around this one say ([`Evidence`]).
+    /// with what the cycles around this one say ([`Evidence`]), and the
+    /// thresholds from `th` (`()`: the baseline and noise formulas).
+    /// Inline: one call site per threshold source in the back end. (Eight
+    /// arguments: the cycle's figures each in a register, rather than a
+    /// record built and read back once a cycle.)
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
     pub fn step_with(
         &mut self,
         a: u32,
         b: u32,
         n: u32,
         evidence: Evidence,
+        th: impl ThresholdSource,
         may_turn_on: impl FnOnce() -> bool,
         t: &DecisionTuning,
     ) -> (Option<EventKind>, Verdict) {
         let touch = t.profile == Profile::Touch;
         if !self.active() {
             // Only the threshold this state compares against is computed.
-            let on = match evidence.window {
-                Some(w) => w.on_q8,
-                None => t.on_threshold(b, n),
-            };
+            let on = th.on(t, b, n);
             if a > on && !may_turn_on() {
                 self.count = 0;
                 return (None, Verdict::Freeze);
@@ -314,7 +357,7 @@ impl DecisionState {
                 // the on threshold asks, in a cycle whose mean did not
                 // move: no impulse behind it) confirms at once.
                 let steady = evidence.steady(a, b);
-                let strong = steady && a - on > on - b;
+                let strong = steady && a - on > on.saturating_sub(b);
                 let add = if strong { t.debounce_on } else { 1 };
                 self.count = self.count.saturating_add(add);
                 if self.count >= t.debounce_on {
@@ -354,10 +397,7 @@ impl DecisionState {
             return (Some(off_kind), Verdict::Relearn);
         }
         let own = u32::from(self.level_q0);
-        let off = match evidence.window {
-            Some(w) => w.off_q8,
-            None => t.off_threshold(b, n),
-        };
+        let off = th.off(t, b, n);
         // Below the off threshold, or a sharp fall from the channel's own
         // level (a finger lifting while the ambient is above the old
         // baseline), compared in whole codes (no overflow: both below 2^16).
@@ -383,7 +423,7 @@ impl DecisionState {
         if below || dropped {
             // Strong evidence: halfway from the off threshold down to the
             // baseline, or a fall twice as deep.
-            let strong = a < b + (off - b) / 2 || fall * (2 * DROP) < own;
+            let strong = a < b.saturating_add(off.saturating_sub(b) / 2) || fall * (2 * DROP) < own;
             let add = if strong { t.debounce_off } else { 1 };
             self.count = self.count.saturating_add(add);
             if self.count >= t.debounce_off && self.active_cycles >= t.min_active {
@@ -401,12 +441,9 @@ impl DecisionState {
         if touch {
             return (None, Verdict::Freeze);
         }
-        let level_base = match evidence.window {
-            Some(w) => w.level_base_q8,
-            None => b,
-        };
         (
-            self.update_level(a, level_base, t).map(EventKind::Level),
+            self.update_level(a, th.level_base(b), t)
+                .map(EventKind::Level),
             Verdict::Freeze,
         )
     }

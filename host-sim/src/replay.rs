@@ -36,6 +36,13 @@ use std::path::{Path, PathBuf};
 /// Frames per read block.
 const BLOCK_FRAMES: usize = 4096;
 
+/// The back end humsim runs: no harmonics, and window memory, so the field
+/// profile decides on its sliding window as a
+/// [`FieldDetector`](humsense::FieldDetector) does (the touch profile has
+/// none and runs as a plain [`Backend`]).
+pub type HostBackend<const N: usize> =
+    Backend<N, 0, humsense::SlidingWindow<N, { humsense::FIELD_WINDOW_WORDS }>>;
+
 /// Most channels a replay dispatches to.
 pub use crate::input::MAX_CHANNELS;
 
@@ -244,7 +251,7 @@ impl ChannelTask for ReplayTask<'_, '_> {
             Feed::Frames(_) => *self.cfg,
             Feed::Any(input, _) => backend_config(input, self.cfg),
         };
-        let mut back = Backend::<N, 0>::new(&back_cfg).map_err(|e| e.to_string())?;
+        let mut back = HostBackend::<N>::new(&back_cfg).map_err(|e| e.to_string())?;
         let mut events = Vec::new();
         let sink = self.sink;
         let keep = self.keep;

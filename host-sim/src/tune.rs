@@ -4,7 +4,7 @@
 //!    starting configuration, and every [`Cycle`] is kept (about 50 bytes
 //!    per channel-cycle: 9 MB for an hour of one channel at 50 Hz).
 //! 2. Candidate back-end configurations are run over the recorded cycles
-//!    with [`Backend::process`], in parallel on every core (rayon), and each
+//!    with [`Backend::process`](humsense::Backend::process), in parallel on every core (rayon), and each
 //!    is scored against the labels ([`crate::score`]).
 //! 3. The chosen one has no missed label and at most `budget` false events
 //!    per hour, and among those the lowest median on latency (then the
@@ -39,7 +39,7 @@ use crate::labels::{shifted, LabelFile, Span};
 use crate::replay::{drive_input, prepare, with_channels, ChannelTask};
 use crate::score::{score_events, Score, ScoreOptions};
 use humsense::edge::EdgeConfig;
-use humsense::{Backend, Config, Cycle, Detector, Event};
+use humsense::{Config, Cycle, Event};
 use rayon::prelude::*;
 use std::fmt::Write as _;
 use std::path::PathBuf;
@@ -207,7 +207,7 @@ pub fn rank(trials: &mut [Trial]) {
 /// Runs `cfg`'s back end over recorded `cycles`; the events in order.
 /// `None` if the core crate refuses the configuration.
 pub fn fast_events<const N: usize>(cycles: &[Cycle<N, 0>], cfg: &Config) -> Option<Vec<Event>> {
-    let mut back = Backend::<N, 0>::new(cfg).ok()?;
+    let mut back = crate::replay::HostBackend::<N>::new(cfg).ok()?;
     let mut events = Vec::new();
     for c in cycles {
         back.process(c, |e| events.push(e));
@@ -215,12 +215,12 @@ pub fn fast_events<const N: usize>(cycles: &[Cycle<N, 0>], cfg: &Config) -> Opti
     Some(events)
 }
 
-/// A full run of `src` through a [`Detector`] built from `cfg`.
+/// A full run of `src` through a [`FieldDetector`](humsense::FieldDetector) (window memory for the field profile) built from `cfg`.
 pub fn full_events<const N: usize>(
     src: &mut dyn FrameSource,
     cfg: &Config,
 ) -> Result<Vec<Event>, String> {
-    let mut det = Detector::<N, 0>::new(*cfg).map_err(|e| e.to_string())?;
+    let mut det = humsense::FieldDetector::<N, 0>::new(*cfg).map_err(|e| e.to_string())?;
     let mut events = Vec::new();
     let signed = src.signed();
     let mut buf = vec![0i32; 4096 * N];

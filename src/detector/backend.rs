@@ -102,7 +102,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
         // `memset` call on small cores).
         // The window stage, when there is one: its memory per channel, the
         // slot this cycle writes, and the thresholds it gives.
-        let mut win = self.win.parts();
+        let mut win = if Win::MEMORY { self.win.parts() } else { None };
         let mut head = 0usize;
         let mut wlen = 0usize;
         if let Some(p) = win.as_mut() {
@@ -124,22 +124,20 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
             .ch
             .iter_mut()
             .zip(cycle.fund.iter().zip(cycle.harm.iter()));
-        let mut ambient: [u32; N] = [0; N];
-        let mut amb = ambient.iter_mut();
-        let noise: [(u32, u32); N] = core::array::from_fn(|ch| {
+        let mut chn = 0usize;
+        let noise: [(u32, u32); N] = core::array::from_fn(|_| {
             let Some((c, (f, h))) = inputs.next() else {
                 return (0, 0);
             };
             if let Some(p) = win.as_mut() {
+                let ch = chn;
+                chn += 1;
                 let words = p.words;
                 let m = p
                     .mem
                     .get_mut(ch * words..(ch + 1) * words)
                     .unwrap_or(&mut []);
                 let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t);
-                if let Some(a) = amb.next() {
-                    *a = out.ambient_q8;
-                }
                 return amplitude::with_window(&mut c.avg_h, &mut c.amp_q8, out, h, k);
             }
             amplitude::update(&mut c.avg, &mut c.avg_h, &mut c.amp_q8, (f, h), k, gain)
@@ -213,23 +211,31 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     });
                     w == Some(channel) && !others_active
                 };
-                let window = win.as_ref().map(|p| {
-                    let amb = ambient.get(usize::from(channel)).copied().unwrap_or(0);
-                    let (on, off) = p.t.thresholds(n, amb, cycle.samples);
-                    WindowThresholds {
-                        on_q8: on,
-                        off_q8: off,
-                        level_base_q8: p.t.level_base(on),
-                    }
-                });
                 let evidence = Evidence {
                     dc_step: *dc_step,
                     previous_q8: *previous,
-                    window,
                 };
-                let (e, verdict) =
-                    c.decision
-                        .step_with(amp, b, n, evidence, may_on, &self.decision_t);
+                let (e, verdict) = match win.as_ref() {
+                    Some(p) => {
+                        let words = p.words;
+                        let ch = usize::from(channel);
+                        let amb = p
+                            .mem
+                            .get(ch * words..(ch + 1) * words)
+                            .map_or(0, |m| window::ambient_q8(m, p.t));
+                        let (on, off) = p.t.thresholds(n, amb, cycle.samples);
+                        let th = WindowThresholds {
+                            on_q8: on,
+                            off_q8: off,
+                            level_base_q8: p.t.level_base(on),
+                        };
+                        c.decision
+                            .step_with(amp, b, n, evidence, th, may_on, &self.decision_t)
+                    }
+                    None => c
+                        .decision
+                        .step_with(amp, b, n, evidence, (), may_on, &self.decision_t),
+                };
                 match verdict {
                     // A cycle without hum (a supply interruption, a dropout
                     // shorter than the no-hum fault) says nothing about the
@@ -261,11 +267,24 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
             }
             if learn {
                 c.baseline.update(amp, *d, &self.baseline_t);
+            }
+            if Win::MEMORY && learn {
+                // The window's ambient: the window's own mean while the
+                // baseline learns fast (start-up, after a fault: the
+                // baseline's count is below `startup_cycles` or just
+                // reached it), then the slow average. Behind `Win::MEMORY`
+                // (a compile-time fact), so a detector without a window
+                // carries none of it.
                 if let Some(p) = win.as_mut() {
+                    let fast = c.baseline.learning(&self.baseline_t);
                     let words = p.words;
                     let ch = usize::from(channel);
                     if let Some(m) = p.mem.get_mut(ch * words..(ch + 1) * words) {
-                        window::learn_ambient(m, head);
+                        if fast {
+                            window::relearn_ambient(m, &c.avg, cycle.samples, p.t);
+                        } else {
+                            window::learn_ambient(m, head);
+                        }
                     }
                 }
             }

@@ -43,6 +43,7 @@ use crate::config::{Config, MainsMode};
 use crate::demod::Iq;
 use crate::error::{ConfigError, ConfigValue};
 use crate::fixed::{div_rem_u32, f32_to_fixed, isqrt_u64, mul_q4, mul_q8};
+use micromath::F32Ext;
 
 /// Window words per channel of [`FieldDetector`](crate::FieldDetector):
 /// 30 cycles (0.5 s at 60 Hz, the field profile's default `window_ms`)
@@ -101,13 +102,12 @@ pub(crate) fn check(cfg: &Config, words: usize) -> Result<(), ConfigError> {
 /// for `p` by fixed-point iteration (`u = √(2 ln 1/p)`). The bench
 /// (`humsim bench`) measures the rate this gives.
 pub fn per_decision_pfa(rate_per_hour: f32, hz: u32, w: u32) -> f32 {
-    use micromath::F32Ext;
     let decisions = 3_600.0 * hz as f32;
-    let delta = (2.0 / w.max(1) as f32).sqrt();
+    let delta = F32Ext::sqrt(2.0 / w.max(1) as f32);
     let per_step = rate_per_hour / decisions;
     let mut p = per_step;
     for _ in 0..8 {
-        let u = (2.0 * (1.0 / p).ln()).sqrt();
+        let u = F32Ext::sqrt(2.0 * F32Ext::ln(1.0 / p));
         let k = u * delta * 0.398_942_3; // 1/√(2π)
         p = (per_step / k.max(1e-3)).min(0.5);
     }
@@ -116,15 +116,13 @@ pub fn per_decision_pfa(rate_per_hour: f32, hz: u32, w: u32) -> f32 {
 
 /// `γ = √(2 ln 1/p)`: the Rayleigh quantile (noise units).
 fn rayleigh_quantile(p: f32) -> f32 {
-    use micromath::F32Ext;
-    (2.0 * (1.0 / p).ln()).sqrt()
+    F32Ext::sqrt(2.0 * F32Ext::ln(1.0 / p))
 }
 
 /// The Gaussian upper quantile `Φ⁻¹(1 − p)` for `p ≤ 0.5` (Abramowitz &
 /// Stegun 26.2.23, error below 4.5e-4).
 fn gaussian_quantile(p: f32) -> f32 {
-    use micromath::F32Ext;
-    let t = (-2.0 * p.ln()).sqrt();
+    let t = F32Ext::sqrt(-2.0 * F32Ext::ln(p));
     t - (2.515_517 + 0.802_853 * t + 0.010_328 * t * t)
         / (1.0 + 1.432_788 * t + 0.189_269 * t * t + 0.001_308 * t * t * t)
 }
@@ -195,7 +193,6 @@ impl WindowTuning {
     /// The constants for `cfg` (validated, `window_ms > 0`, and a window
     /// memory that holds it).
     pub(crate) fn new(cfg: &Config) -> Self {
-        use micromath::F32Ext;
         let shift = cfg.adc_bits.saturating_sub(8).min(8);
         let system = |hz: u32| {
             let w = cycles(cfg.window_ms, hz).min(255);
@@ -204,7 +201,10 @@ impl WindowTuning {
             System {
                 w: w as u8,
                 mean_q16: div_rem_u32(1u32 << (16 + u32::from(shift)), w).0,
-                noise_q16: f32_to_fixed(scale / 65_536.0 / (2.256_758_3 * (w as f32).sqrt()), 16),
+                noise_q16: f32_to_fixed(
+                    scale / 65_536.0 / (2.256_758_3 * F32Ext::sqrt(w as f32)),
+                    16,
+                ),
                 gamma_q4: f32_to_fixed(rayleigh_quantile(p), 4),
                 c_q4: f32_to_fixed(gaussian_quantile(p), 4),
             }
@@ -285,8 +285,6 @@ pub(crate) struct WindowOut {
     pub amp_q8: u32,
     /// The noise sample (the window's σ when averaged), Q8 codes.
     pub noise_q8: u32,
-    /// The ambient magnitude, Q8 codes.
-    pub ambient_q8: u32,
 }
 
 /// Takes cycle `f` into a channel's window: `mem` its window memory,
@@ -303,7 +301,7 @@ pub(crate) fn push(
     t: &WindowTuning,
 ) -> WindowOut {
     let slots = mem.len().saturating_sub(AMBIENT_WORDS);
-    let (ring, ambient) = mem.split_at_mut(slots);
+    let (ring, _) = mem.split_at_mut(slots);
     let zi = store(f.i, t.shift);
     let zq = store(f.q, t.shift);
     let (zi32, zq32) = (i32::from(zi), i32::from(zq));
@@ -323,18 +321,19 @@ pub(crate) fn push(
     let mean = |v: u64| ((v * u64::from(s.mean_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
     let amp_q8 = mean(u64::from(isqrt_u64(Iq { i: sum.i, q: sum.q }.power())));
     let noise_q8 = ((u64::from(l1) * u64::from(s.noise_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
-    let (bi, bq) = match ambient {
-        [i, q, ..] => (*i as i32, *q as i32),
+    WindowOut { amp_q8, noise_q8 }
+}
+
+/// The magnitude of a channel's ambient estimate, Q8 codes.
+pub(crate) fn ambient_q8(mem: &[u32], t: &WindowTuning) -> u32 {
+    let slots = mem.len().saturating_sub(AMBIENT_WORDS);
+    let (bi, bq) = match mem.get(slots..) {
+        Some([i, q, ..]) => (*i as i32, *q as i32),
         _ => (0, 0),
     };
     // The ambient in storage units · 2^8; its magnitude in Q8 codes.
     let b = isqrt_u64(Iq { i: bi, q: bq }.power());
-    let ambient_q8 = b >> (8 - u32::from(t.shift));
-    WindowOut {
-        amp_q8,
-        noise_q8,
-        ambient_q8,
-    }
+    b >> (8 - u32::from(t.shift))
 }
 
 /// Learns the ambient from the cycle just pushed (slot `head`).
@@ -377,7 +376,7 @@ pub(crate) fn rescale_ambient(mem: &mut [u32], ratio_q8: u32) {
     let slots = mem.len().saturating_sub(AMBIENT_WORDS);
     if let Some(amb) = mem.get_mut(slots..) {
         for v in amb {
-            let x = i64::from(*v as i32) * i64::from(ratio_q8) >> 8;
+            let x = (i64::from(*v as i32) * i64::from(ratio_q8)) >> 8;
             *v = x.clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32 as u32;
         }
     }
@@ -402,6 +401,9 @@ pub(crate) fn resum(mem: &[u32], sum: &mut Iq, head: usize, w: usize) {
 /// default: nothing, at no cost) or [`SlidingWindow`] (memory for the
 /// field profile's window). Implemented by those two only.
 pub trait WindowStage: Clone + core::fmt::Debug + sealed::Sealed {
+    /// Whether the stage has window memory at all (a compile-time fact:
+    /// the back end's window code is not even built without it).
+    const MEMORY: bool;
     /// Checks `window_ms` against this stage's memory.
     fn check(cfg: &Config) -> Result<(), ConfigError>;
     /// Builds the stage for a validated `cfg`.
@@ -439,6 +441,7 @@ pub struct WindowParts<'a> {
 pub struct NoWindow;
 
 impl WindowStage for NoWindow {
+    const MEMORY: bool = false;
     fn check(_: &Config) -> Result<(), ConfigError> {
         Ok(())
     }
@@ -465,6 +468,7 @@ pub struct SlidingWindow<const N: usize, const W: usize> {
 }
 
 impl<const N: usize, const W: usize> WindowStage for SlidingWindow<N, W> {
+    const MEMORY: bool = W > AMBIENT_WORDS;
     fn check(cfg: &Config) -> Result<(), ConfigError> {
         const { assert!(W <= 257, "at most 255 cycles and the ambient") };
         check(cfg, W)

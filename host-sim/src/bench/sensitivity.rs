@@ -258,6 +258,7 @@ const COARSE_TRIALS: usize = 40;
 const FINE_STEPS: usize = 9;
 
 /// Trials at `db` (re `a_opt`), parallel; returns detections.
+#[allow(clippy::too_many_arguments)] // one call per pass, each argument named there
 fn run_level(
     bases: &[BenchDetector],
     a_opt: f64,
