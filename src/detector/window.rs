@@ -43,7 +43,6 @@ use crate::config::{Config, MainsMode};
 use crate::demod::Iq;
 use crate::error::{ConfigError, ConfigValue};
 use crate::fixed::{div_rem_u32, f32_to_fixed, isqrt_u64, mul_q4, mul_q8};
-use micromath::F32Ext;
 
 /// Window words per channel of [`FieldDetector`](crate::FieldDetector):
 /// 30 cycles (0.5 s at 60 Hz, the field profile's default `window_ms`)
@@ -103,26 +102,55 @@ pub(crate) fn check(cfg: &Config, words: usize) -> Result<(), ConfigError> {
 /// (`humsim bench`) measures the rate this gives.
 pub fn per_decision_pfa(rate_per_hour: f32, hz: u32, w: u32) -> f32 {
     let decisions = 3_600.0 * hz as f32;
-    let delta = F32Ext::sqrt(2.0 / w.max(1) as f32);
+    let delta = sqrt(2.0 / w.max(1) as f32);
     let per_step = rate_per_hour / decisions;
     let mut p = per_step;
     for _ in 0..8 {
-        let u = F32Ext::sqrt(2.0 * F32Ext::ln(1.0 / p));
+        let u = sqrt(2.0 * ln(1.0 / p));
         let k = u * delta * 0.398_942_3; // 1/√(2π)
         p = (per_step / k.max(1e-3)).min(0.5);
     }
     p
 }
 
+/// Natural logarithm of `v > 0` to about 1e-7 relative (construction
+/// only): `v = m·2^e`, `ln v = e·ln 2 + 2·atanh((m − 1)/(m + 1))`, the
+/// series to its fifth term (`|s| ≤ 1/3`: the next term is below 1e-6).
+fn ln(v: f32) -> f32 {
+    if v <= 0.0 || !v.is_finite() {
+        return f32::NEG_INFINITY;
+    }
+    let bits = v.to_bits();
+    let e = ((bits >> 23) & 0xff) as i32 - 127;
+    let m = f32::from_bits((bits & 0x007f_ffff) | 0x3f80_0000);
+    let s = (m - 1.0) / (m + 1.0);
+    let s2 = s * s;
+    let series = s * (1.0 + s2 * (1.0 / 3.0 + s2 * (0.2 + s2 * (1.0 / 7.0 + s2 / 9.0))));
+    e as f32 * core::f32::consts::LN_2 + 2.0 * series
+}
+
+/// Square root of `v ≥ 0` (construction only): micromath's estimate and
+/// three Newton steps (each doubles the correct bits).
+fn sqrt(v: f32) -> f32 {
+    if v <= 0.0 {
+        return 0.0;
+    }
+    let mut x = micromath::F32Ext::sqrt(v).max(f32::MIN_POSITIVE);
+    for _ in 0..3 {
+        x = 0.5 * (x + v / x);
+    }
+    x
+}
+
 /// `γ = √(2 ln 1/p)`: the Rayleigh quantile (noise units).
 fn rayleigh_quantile(p: f32) -> f32 {
-    F32Ext::sqrt(2.0 * F32Ext::ln(1.0 / p))
+    sqrt(2.0 * ln(1.0 / p))
 }
 
 /// The Gaussian upper quantile `Φ⁻¹(1 − p)` for `p ≤ 0.5` (Abramowitz &
 /// Stegun 26.2.23, error below 4.5e-4).
 fn gaussian_quantile(p: f32) -> f32 {
-    let t = F32Ext::sqrt(-2.0 * F32Ext::ln(p));
+    let t = sqrt(-2.0 * ln(p));
     t - (2.515_517 + 0.802_853 * t + 0.010_328 * t * t)
         / (1.0 + 1.432_788 * t + 0.189_269 * t * t + 0.001_308 * t * t * t)
 }
@@ -201,10 +229,7 @@ impl WindowTuning {
             System {
                 w: w as u8,
                 mean_q16: div_rem_u32(1u32 << (16 + u32::from(shift)), w).0,
-                noise_q16: f32_to_fixed(
-                    scale / 65_536.0 / (2.256_758_3 * F32Ext::sqrt(w as f32)),
-                    16,
-                ),
+                noise_q16: f32_to_fixed(scale / 65_536.0 / (2.256_758_3 * sqrt(w as f32)), 16),
                 gamma_q4: f32_to_fixed(rayleigh_quantile(p), 4),
                 c_q4: f32_to_fixed(gaussian_quantile(p), 4),
             }
@@ -504,6 +529,20 @@ impl<const N: usize, const W: usize> WindowStage for SlidingWindow<N, W> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn ln_and_sqrt_match_the_standard_library() {
+        // Against std's correctly rounded f64 functions (the reference).
+        for v in [1e-7f32, 1e-5, 0.01, 0.1, 0.5, 1.0, 1.5, 2.0, 10.0, 1e4, 1e7] {
+            let l = f64::from(v).ln();
+            assert!(
+                (f64::from(ln(v)) - l).abs() <= 2e-6 * l.abs().max(1.0),
+                "ln {v}"
+            );
+            let r = f64::from(v).sqrt();
+            assert!((f64::from(sqrt(v)) - r).abs() <= 1e-6 * r, "sqrt {v}");
+        }
+    }
 
     #[test]
     fn gaussian_quantile_matches_tables() {
