@@ -1,6 +1,7 @@
 //! The core detector under arbitrary configurations and sample streams.
 //!
-//! The input picks a detector shape (`Detector<1,0>`, `<4,0>` or `<2,2>`),
+//! The input picks a detector shape (`Detector<1,0>`, `<4,0>` or `<2,2>`,
+//! or with window memory `FieldDetector<1,0>` or `<2,2>`),
 //! every public field of `Config` (mostly inside its documented range,
 //! sometimes any value: the constructor must refuse what is invalid with
 //! an error, never panic), then a list of operations: raw codes from the
@@ -15,7 +16,8 @@
 use std::collections::VecDeque;
 
 use humsense::{
-    AdcSample, Config, Detector, Event, EventKind, EventQueue, MainsMode, PanelMode, Profile,
+    AdcSample, Config, Detector, Event, EventKind, EventQueue, MainsMode, NoWindow, PanelMode,
+    Profile, SlidingWindow, WindowStage, FIELD_WINDOW_WORDS,
 };
 use libfuzzer_sys::arbitrary::{Result, Unstructured};
 use libfuzzer_sys::fuzz_target;
@@ -79,6 +81,8 @@ fn config(u: &mut Unstructured) -> Result<Config> {
         spike_floor_codes: int(u, 0u16, 300)?,
         track_min_codes: float(u, 0.0, 100.0)?,
         avg_shift: int(u, 0u8, 4)?,
+        window_ms: int(u, 0u16, 700)?,
+        false_alarms_per_hour: float(u, 0.01, 3_600.0)?,
         startup_cycles: int(u, 1u16, 60)?,
         baseline_rise_shift,
         baseline_fall_shift: int(u, 1u8, baseline_rise_shift.clamp(1, 16))?,
@@ -240,7 +244,7 @@ impl<const N: usize> Checker<N> {
         }
     }
 
-    fn after_call<const H: usize>(&self, det: &Detector<N, H>) {
+    fn after_call<const H: usize, W: WindowStage>(&self, det: &Detector<N, H, W>) {
         for (c, m) in self.ch.iter().enumerate() {
             let s = det.snapshot(c).expect("a snapshot for every channel");
             assert_eq!(s.active(), m.on, "state without an event on channel {c}");
@@ -333,33 +337,33 @@ trait PushOne<S> {
     fn push_one(&mut self, x: S) -> Option<Option<Event>>;
 }
 
-impl<S: AdcSample> PushOne<S> for Detector<1, 0> {
+impl<S: AdcSample, W: WindowStage> PushOne<S> for Detector<1, 0, W> {
     fn push_one(&mut self, x: S) -> Option<Option<Event>> {
         Some(self.push(x))
     }
 }
 
-impl<S: AdcSample> PushOne<S> for Detector<4, 0> {
+impl<S: AdcSample, W: WindowStage> PushOne<S> for Detector<4, 0, W> {
     fn push_one(&mut self, _: S) -> Option<Option<Event>> {
         None
     }
 }
 
-impl<S: AdcSample> PushOne<S> for Detector<2, 2> {
+impl<S: AdcSample, W: WindowStage> PushOne<S> for Detector<2, 2, W> {
     fn push_one(&mut self, _: S) -> Option<Option<Event>> {
         None
     }
 }
 
-fn feed<const N: usize, const H: usize, S: AdcSample>(
-    det: &mut Detector<N, H>,
+fn feed<const N: usize, const H: usize, W: WindowStage, S: AdcSample>(
+    det: &mut Detector<N, H, W>,
     chk: &mut Checker<N>,
     xs: &[S],
     how: u8,
     u: &mut Unstructured,
 ) -> Result<()>
 where
-    Detector<N, H>: PushOne<S>,
+    Detector<N, H, W>: PushOne<S>,
 {
     match how % 3 {
         0 if N == 1 => {
@@ -424,11 +428,14 @@ where
     Ok(())
 }
 
-fn run<const N: usize, const H: usize>(u: &mut Unstructured, cfg: Config) -> Result<()>
+fn run<const N: usize, const H: usize, W: WindowStage>(
+    u: &mut Unstructured,
+    cfg: Config,
+) -> Result<()>
 where
-    Detector<N, H>: PushOne<u16> + PushOne<i16>,
+    Detector<N, H, W>: PushOne<u16> + PushOne<i16>,
 {
-    let Ok(mut det) = Detector::<N, H>::new(cfg) else {
+    let Ok(mut det) = Detector::<N, H, W>::new(cfg) else {
         return Ok(());
     };
     let mut chk = Checker::<N>::new(cfg);
@@ -469,7 +476,7 @@ where
 
 fn one(data: &[u8]) -> Result<()> {
     let mut u = Unstructured::new(data);
-    let shape = u.int_in_range(0u8..=2)?;
+    let shape = u.int_in_range(0u8..=4)?;
     // Half the inputs: every field from the input. The other half: a
     // profile's defaults at a chosen rate and mains mode, where touches,
     // levels and releases are easy to reach with the synthetic hum.
@@ -486,9 +493,11 @@ fn one(data: &[u8]) -> Result<()> {
         }
     };
     match shape {
-        0 => run::<1, 0>(&mut u, cfg),
-        1 => run::<4, 0>(&mut u, cfg),
-        _ => run::<2, 2>(&mut u, cfg),
+        0 => run::<1, 0, NoWindow>(&mut u, cfg),
+        1 => run::<4, 0, NoWindow>(&mut u, cfg),
+        2 => run::<2, 2, NoWindow>(&mut u, cfg),
+        3 => run::<1, 0, SlidingWindow<1, FIELD_WINDOW_WORDS>>(&mut u, cfg),
+        _ => run::<2, 2, SlidingWindow<2, FIELD_WINDOW_WORDS>>(&mut u, cfg),
     }
 }
 
