@@ -477,3 +477,77 @@ fn latency_grid_scenario_spreads_onsets_over_the_cycle() {
         "{lengths:?}"
     );
 }
+
+#[test]
+fn comparison_lines_and_ratios() {
+    use humsim::bench::compare::Comparison;
+    use humsim::bench::tuner::Tuned;
+    let reference = Reference::RcComparator(RcComparatorConfig {
+        coupling_tau_s: 1.0,
+        rectifier: Rectifier::Half,
+        rc_tau_s: 0.01,
+        on_fraction: 0.05,
+        hysteresis: 0.2,
+    });
+    let row = |detector, missed, false_events, p50: Option<f64>| CompareRow {
+        scenario: "dock-touch".into(),
+        detector,
+        labels: 14,
+        missed,
+        false_events,
+        hours: 0.01,
+        latency_p50_ms: p50,
+        latency_p95_ms: p50.map(|v| v * 2.0),
+        latency_max_ms: p50.map(|v| v * 3.0),
+    };
+    let c = Comparison {
+        tuned: vec![Tuned {
+            reference,
+            objective: Objective {
+                errors: 3,
+                missed: 2,
+                false_events: 1,
+                latency_ms: 61.5,
+            },
+            evaluations: 100,
+            rounds: 2,
+        }],
+        rows: vec![
+            row("humsense", 0, 0, Some(20.0)),
+            row("rc-comparator", 2, 1, Some(40.0)),
+        ],
+    };
+    let lines = c.bench_lines();
+    assert_eq!(lines.len(), 4);
+    let tuned = keys(&lines[0], Some("tuned"));
+    assert_eq!(tuned[0], ("detector".into(), "rc-comparator".into()));
+    assert!(tuned
+        .iter()
+        .any(|kv| kv == &("rectifier".into(), "half".into())));
+    assert!(tuned
+        .iter()
+        .any(|kv| kv == &("rc_tau_ms".into(), "10".into())));
+    keys(&lines[1], None);
+    keys(&lines[2], None);
+    let ratio = keys(&lines[3], Some("ratio"));
+    let get = |k: &str| ratio.iter().find(|(n, _)| n == k).map(|(_, v)| v.as_str());
+    // Ours over the reference's: 20/40 ms, 40/80 ms; no false event and no
+    // miss of ours against 100 an hour and 2.
+    assert_eq!(get("scenario"), Some("dock-touch"));
+    assert_eq!(get("reference"), Some("rc-comparator"));
+    assert_eq!(get("latency_p50"), Some("0.50"));
+    assert_eq!(get("latency_p95"), Some("0.50"));
+    assert_eq!(get("false_per_hour"), Some("0.00"));
+    assert_eq!(get("missed"), Some("0.00"));
+    // A reference that detected nothing or had no false event: no ratio.
+    let c = Comparison {
+        rows: vec![
+            row("humsense", 0, 0, Some(20.0)),
+            row("rc-comparator", 14, 0, None),
+        ],
+        ..c
+    };
+    let ratio = keys(&c.ratio_lines()[0], Some("ratio"));
+    let values: Vec<&str> = ratio.iter().skip(2).map(|(_, v)| v.as_str()).collect();
+    assert_eq!(values, ["na", "na", "na", "0.00"]);
+}

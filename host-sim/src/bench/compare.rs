@@ -7,11 +7,16 @@
 //!    rendered with its seed plus [`TUNING_SEED_OFFSET`] (so noise, drift
 //!    and mains wander differ from the evaluation's, the timelines are the
 //!    same), its first [`crate::selfcheck::MAX_SECONDS`] (30 s in a quick
-//!    run), and [`AMBIENT_TUNING_S`] of `esd-bench` (ambient hum, ESD bursts,
-//!    lamp steps; 120 s in a quick run) with its seed plus the same offset.
+//!    run), then [`AMBIENT_TUNING_S`] of `esd-bench` (ambient hum, ESD
+//!    bursts, lamp steps; [`QUICK_AMBIENT_TUNING_S`] in a quick run) in
+//!    pieces of [`AMBIENT_TUNING_PIECE_S`], each with its own seed (the
+//!    scenario's plus the offset plus the piece's index). The tuning
+//!    scenarios are the evaluation's with other seeds, which favours the
+//!    references: they are tuned on the timelines they are scored on.
 //! 2. **Tuning** of each reference on it ([`super::tuner`]: the objective
-//!    is errors, then latency; [`ROUNDS`] rounds of coordinate descent, 2 in
-//!    a quick run, on a coarser threshold grid).
+//!    is errors, then latency; [`ROUNDS`] rounds of coordinate descent from
+//!    each of two starts, 2 rounds and a coarser threshold grid in a quick
+//!    run). Both references are tuned at once.
 //! 3. **Evaluation**, with the scenarios' own seeds: each built-in touch
 //!    scenario (its first `MAX_SECONDS`) rendered once, the same codes fed
 //!    to humsense (default touch settings, exactly as
@@ -24,8 +29,13 @@
 //!
 //! Rows ([`CompareRow`]): one per scenario and detector, one per detector
 //! over all built-ins (`scenario=all`, latencies pooled) and one per
-//! detector for the ambient run (`scenario=ambient-24h`). Latency is
-//! touch-on latency (label start to event).
+//! detector for the ambient run (`scenario=ambient-24h`; `ambient-1h` for
+//! one hour). Latency is touch-on latency (label start to event).
+//!
+//! The built-ins and the ambient segments run side by side (rayon), the
+//! long segments first; rendering the ambient hours is most of the time.
+//! `cargo run --release -p humsim --example bench_parts` prints each
+//! part's wall time.
 
 use rayon::prelude::*;
 

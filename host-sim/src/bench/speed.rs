@@ -8,9 +8,11 @@
 //! lamp step), its timeline repeated every 20 s, with ESD bursts of 4 and
 //! 8 kV added each period (spikes on every pad). Eight channels are two
 //! renders of it with different seeds side by side; one channel is the
-//! first pad, four the first render. Each channel count is run
-//! [`RUNS`] times on the same codes with a fresh detector (3 in a quick
-//! run); the figures are the median and the slowest run.
+//! first pad, four the first render. Each channel count is run once
+//! untimed, then [`RUNS`] times on the same codes with a fresh detector
+//! each (3 in a quick run); the figures are the median and the slowest
+//! run. A machine shared with other work gives slower and more scattered
+//! figures: compare figures from one machine only.
 //!
 //! `bench: host_msamples_per_s=<f> channels=<n> min_msamples_per_s=<f>
 //! samples=<n> runs=<n> threads=1`: `host_msamples_per_s` the median run's
@@ -139,7 +141,8 @@ fn run<const N: usize>(codes: &[u16]) -> Result<(f64, usize), String> {
 /// Times `runs` runs of an `N`-channel detector over `codes`.
 fn measure<const N: usize>(codes: &[u16], runs: usize) -> Result<SpeedRow, String> {
     let mut times = Vec::with_capacity(runs);
-    let mut events = 0;
+    // One untimed run first (caches, clock, idle worker threads settling).
+    let (_, mut events) = run::<N>(std::hint::black_box(codes))?;
     for _ in 0..runs.max(1) {
         let (t, e) = run::<N>(std::hint::black_box(codes))?;
         times.push(t);
