@@ -16,7 +16,7 @@
 //! comparator's pin as edge or polled-level logs; [`score`] matches
 //! events to labels; [`configfile`] reads and writes detector
 //! configurations; [`plot`] draws runs; [`demo`] is `humsim demo`; [`tune`]
-//! sweeps detector constants on a labelled log; [`bench`] measures the
+//! sweeps detector constants on a labelled log; [`mod@bench`] measures the
 //! detector against reference detectors, the latency floor and for speed.
 //! Around them: [`outfile`]
 //! (outputs written beside and renamed into place, never over an input),

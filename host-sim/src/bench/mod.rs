@@ -1,7 +1,7 @@
 //! Figures of `humsim bench`, as library modules: each runs its part and
 //! returns rows with a `bench_line()` (`bench: key=value …`, DESIGN.md §3).
 //!
-//! [`reference`] holds the two reference detectors (an RC filter and a
+//! [`mod@reference`] holds the two reference detectors (an RC filter and a
 //! comparator; an EMA of `|x − mean|` with a count debounce), [`tuner`]
 //! tunes them on labelled data, [`compare`] runs them beside humsense on the
 //! built-in touch scenarios and a long ambient-only run, [`latency`] gives

@@ -87,7 +87,7 @@ impl SpeedRow {
 }
 
 /// The signal's scenario: `kitchen-panel` repeated every 20 s, with
-/// [`SPIKES`].
+/// ESD bursts of 4 and 8 kV at 3.3 s and 13.1 s of each period.
 pub fn scenario() -> Result<Scenario, String> {
     let base = crate::builtin::source("kitchen-panel")
         .ok_or_else(|| "no built-in kitchen-panel".to_string())?;
