@@ -1,6 +1,8 @@
 //! Host figures, printed as `bench: key=value …` lines (DESIGN.md §3):
 //! simulation and replay throughput on a one-hour four-channel log, the
-//! detector's own throughput, and touch latency over the built-in
+//! detector's own throughput (`humsim::bench::speed`: 1, 4 and 8 channels,
+//! one thread, median of 7 runs; also as `bench: host_msamples_per_s=…`
+//! lines), and touch latency over the built-in
 //! scenarios; for the comparator input, simulation and replay of a
 //! one-hour two-channel edge log and touch latency over the comparator
 //! built-ins through their edge logs. Figures only: nothing here asserts a
@@ -17,7 +19,6 @@
 use std::io::BufWriter;
 use std::time::Instant;
 
-use humsense::{Config, Detector};
 use humsim::input::{open_input, InputSpec, RenderSource};
 use humsim::labels::LabelKind;
 use humsim::replay::{config_for, replay};
@@ -67,38 +68,18 @@ fn main() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 
-    // The detector alone on samples in memory (host build, release).
-    for ch in [1usize, 4] {
-        let s = Scenario::builtin("kitchen-panel").unwrap();
-        let mut r = s
-            .render(&RenderOptions {
-                seconds: Some(600.0),
-                seed: None,
-            })
-            .unwrap();
-        let mut codes = vec![0u16; 1_200_000 * 4];
-        let frames = r.fill(&mut codes);
-        codes.truncate(frames * 4);
-        let x: Vec<u16> = if ch == 1 {
-            codes.iter().step_by(4).copied().collect()
-        } else {
-            codes
-        };
-        let t0 = Instant::now();
-        let mut events = 0usize;
-        if ch == 1 {
-            let mut d = Detector::<1, 0>::new(Config::touch()).unwrap();
-            d.push_block(&x, |_| events += 1);
-        } else {
-            let mut d = Detector::<4, 0>::new(Config::touch()).unwrap();
-            d.push_block(&x, |_| events += 1);
-        }
-        let dt = t0.elapsed().as_secs_f64();
+    // The detector alone on samples in memory (host build, release), one
+    // thread: humsim::bench::speed (1, 4 and 8 channels of a built-in with
+    // harmonics, drift, noise, ESD spikes and touches).
+    for r in humsim::bench::speed::rows(false, &|_| {}).unwrap() {
         println!(
-            "bench: what=detector_push_block channels={ch} samples={} events={events} ns_per_sample={:.2}",
-            x.len(),
-            dt * 1e9 / x.len() as f64
+            "bench: what=detector_push_block channels={} samples={} events={} ns_per_sample={:.2}",
+            r.channels,
+            r.samples,
+            r.events,
+            r.ns_per_sample()
         );
+        println!("{}", r.bench_line());
     }
 
     // Touch-on latency over every built-in touch label (default config).

@@ -6,14 +6,15 @@
 //! 2. a grid of one-pad scenarios of 60 touches each at 50 and 60 Hz and
 //!    1, 2 and 8 kHz, touches through a 2 mm overlay (about 10x the
 //!    ambient) and through 10 mm (about 4x), their onsets spread over the
-//!    mains cycle: `bench: grid mains_hz=… rate_hz=… overlay_mm=…` lines.
+//!    mains cycle: `bench: grid mains_hz=… rate_hz=… overlay_mm=…` lines,
+//!    then the same rows as `humsim::bench::latency` prints them
+//!    (`bench: latency …`, with each figure in mains cycles too).
 //!
 //! `cargo bench -p humsim --bench latency`
 
 use humsim::labels::LabelKind;
-use humsim::scenario::Scenario;
 use humsim::score::LatencyStats;
-use humsim::selfcheck::{score_builtin, score_scenario};
+use humsim::selfcheck::score_builtin;
 
 fn stats(s: Option<LatencyStats>) -> (String, String) {
     match s {
@@ -95,32 +96,16 @@ fn main() {
     grid();
 }
 
-/// A one-pad scenario of 60 touches of 0.4 s, one a second from 1.5 s, the
-/// k-th delayed by frac(k·0.618…) of a mains cycle so that the onsets
-/// cover the cycle evenly (golden-ratio sequence, common practice).
-fn grid_scenario(mains_hz: u32, rate_hz: u32, overlay_mm: f64) -> String {
-    let preset = if mains_hz == 60 {
-        "120v-60hz"
-    } else {
-        "230v-50hz"
-    };
-    let mut s = format!(
-        "name = \"latency-grid\"\nduration_s = 62.0\nseed = 41\n\n\
-         [mains]\npreset = \"{preset}\"\n\n[adc]\nrate_hz = {rate_hz}\n\n\
-         [[channel]]\nname = \"pad\"\noverlay_mm = {overlay_mm}\n"
-    );
-    let golden = (5f64.sqrt() - 1.0) / 2.0;
-    for k in 0..60 {
-        let delay = (f64::from(k) * golden).fract() / f64::from(mains_hz);
-        let at = 1.5 + f64::from(k) + delay;
-        s.push_str(&format!(
-            "\n[[event]]\nkind = \"touch\"\nat_s = {at:.6}\nchannel = \"pad\"\nhold_s = 0.4\n"
-        ));
-    }
-    s
-}
-
 fn grid() {
+    // The grid's scenarios and scoring are humsim::bench::latency's (the
+    // same rows `humsim bench` prints), 60 touches a point.
+    let rows = match humsim::bench::latency::rows(false, &|_| {}) {
+        Ok(r) => r,
+        Err(e) => {
+            eprintln!("grid: {e}");
+            std::process::exit(1);
+        }
+    };
     println!(
         "\n{:>8} {:>7} {:>8} {:>6} {:>6}  {:>20}  {:>20}",
         "mains_hz",
@@ -132,41 +117,31 @@ fn grid() {
         "off p50/p95/max ms"
     );
     let mut lines = Vec::new();
-    for mains_hz in [50u32, 60] {
-        for rate_hz in [1000u32, 2000, 8000] {
-            for overlay_mm in [2.0, 10.0] {
-                let toml = grid_scenario(mains_hz, rate_hz, overlay_mm);
-                let score = Scenario::from_toml_str(&toml, "latency-grid")
-                    .map_err(|e| e.to_string())
-                    .and_then(|sc| score_scenario(&sc, LabelKind::Touch, &|_| {}));
-                let score = match score {
-                    Ok(Some(s)) => s,
-                    Ok(None) => continue,
-                    Err(e) => {
-                        eprintln!("grid {mains_hz} Hz {rate_hz} Hz {overlay_mm} mm: {e}");
-                        std::process::exit(1);
-                    }
-                };
-                let (on_t, on_b) = stats(score.on_latency());
-                let (off_t, off_b) = stats(score.off_latency());
-                println!(
-                    "{mains_hz:>8} {rate_hz:>7} {overlay_mm:>6.0}mm {:>6} {:>6}  {on_t}  {off_t}",
-                    score.missed(),
-                    score.false_events()
-                );
-                lines.push(format!(
-                    "bench: grid mains_hz={mains_hz} rate_hz={rate_hz} overlay_mm={overlay_mm} \
-                     labels={} missed={} false={} on_{} off_{}",
-                    score.labels(),
-                    score.missed(),
-                    score.false_events(),
-                    on_b.replace(' ', " on_"),
-                    off_b.replace(' ', " off_")
-                ));
-            }
-        }
+    for r in &rows {
+        let (on_t, on_b) = stats(r.on);
+        let (off_t, off_b) = stats(r.off);
+        println!(
+            "{:>8} {:>7} {:>6.0}mm {:>6} {:>6}  {on_t}  {off_t}",
+            r.mains_hz, r.rate_hz, r.overlay_mm, r.missed, r.false_events
+        );
+        lines.push(format!(
+            "bench: grid mains_hz={} rate_hz={} overlay_mm={} \
+             labels={} missed={} false={} on_{} off_{}",
+            r.mains_hz,
+            r.rate_hz,
+            r.overlay_mm,
+            r.touches,
+            r.missed,
+            r.false_events,
+            on_b.replace(' ', " on_"),
+            off_b.replace(' ', " off_")
+        ));
     }
     for l in lines {
         println!("{l}");
+    }
+    // The same figures with their ratios to one mains cycle.
+    for r in &rows {
+        println!("{}", r.bench_line());
     }
 }

@@ -16,7 +16,9 @@
 //! comparator's pin as edge or polled-level logs; [`score`] matches
 //! events to labels; [`configfile`] reads and writes detector
 //! configurations; [`plot`] draws runs; [`demo`] is `humsim demo`; [`tune`]
-//! sweeps detector constants on a labelled log. Around them: [`outfile`]
+//! sweeps detector constants on a labelled log; [`mod@bench`] measures the
+//! detector against reference detectors, the latency floor and for speed.
+//! Around them: [`outfile`]
 //! (outputs written beside and renamed into place, never over an input),
 //! [`field_error`] (a model's refused parameter, by name),
 //! [`console`] (stdout and stderr without panics) and [`text`] (bounds on

@@ -67,8 +67,26 @@ pub fn score_scenario(
     let mut cfg = config_for(&src, Some(profile_for(kind)), None, None)?;
     adjust(&mut cfg);
     let out = replay(&mut src, &cfg, &mut |_| Ok(()), None, true)?;
-    let rate = s.adc.rate_hz;
-    let names = s.channel_names();
+    let all: Vec<Label> = labels.into_iter().chain(other).collect();
+    score_labelled(&out.events, s.adc.rate_hz, &s.channel_names(), kind, &all).map(Some)
+}
+
+/// Scores `events` of a run (time = `sample / rate_hz`, channels named
+/// `names` in index order) against the labels of `kind` among `labels`,
+/// leaving out the on/off pairs that begin inside an interval of the other
+/// kind (the module docs say which); the rules of
+/// [`crate::score`] with [`ScoreOptions::for_kind`]. What
+/// [`score_scenario`] does after its replay, for events of any detector.
+pub fn score_labelled(
+    events: &[Event],
+    rate_hz: f64,
+    names: &[String],
+    kind: LabelKind,
+    labels: &[Label],
+) -> Result<Score, String> {
+    let (labels, other): (Vec<&Label>, Vec<&Label>) = labels.iter().partition(|l| l.kind == kind);
+    let labels: Vec<Label> = labels.into_iter().cloned().collect();
+    let rate = rate_hz;
     let (before, after) = if kind == LabelKind::Touch {
         (3.0, 3.0)
     } else {
@@ -82,8 +100,7 @@ pub fn score_scenario(
             .any(|l| l.channel == ch && t >= l.start_s - before && t <= l.end_s + after)
     };
     let mut skip_off = vec![false; names.len()];
-    let events: Vec<Event> = out
-        .events
+    let events: Vec<Event> = events
         .iter()
         .copied()
         .filter(|e| {
@@ -107,12 +124,5 @@ pub fn score_scenario(
             }
         })
         .collect();
-    score_events(
-        &events,
-        rate,
-        &names,
-        &labels,
-        &ScoreOptions::for_kind(kind),
-    )
-    .map(Some)
+    score_events(&events, rate, names, &labels, &ScoreOptions::for_kind(kind))
 }
