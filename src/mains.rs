@@ -102,6 +102,9 @@ pub struct MainsTracker {
     block_len: u8,
     /// Least per-cycle |i| + |q| (Q8 codes) that the loop learns from.
     min_l1: u32,
+    /// A higher least |i| + |q| set by the detector from its noise
+    /// estimate ([`set_floor`](Self::set_floor)); 0 when none is set.
+    floor_l1: u32,
     good: u8,
     bad: u8,
     fine: bool,
@@ -143,6 +146,7 @@ impl MainsTracker {
             block_phi: 0,
             block_len: 0,
             min_l1,
+            floor_l1: 0,
             good: 0,
             bad: 0,
             fine: false,
@@ -301,12 +305,18 @@ impl MainsTracker {
         let Some(z) = fund.get(usize::from(ch)) else {
             return;
         };
-        if l1 < self.min_l1 || l1 == 0 {
+        if l1 < self.min_l1 || l1 < self.floor_l1 || l1 == 0 {
             // Too weak to learn from: hold frequency, restart measuring;
-            // after a second of that the lock is no longer known.
+            // after a second of that the lock is no longer known and, if
+            // the loop was not locked, the reference returns to the middle
+            // of its range (the nominal 50 or 60 Hz; 55 Hz before the
+            // automatic choice), where the next hum most likely is.
             self.prev_ref = NO_REF;
             self.weak_cycles = self.weak_cycles.saturating_add(1);
-            if self.weak_cycles >= WEAK_UNLOCK_CYCLES {
+            if self.weak_cycles == WEAK_UNLOCK_CYCLES {
+                if !self.locked {
+                    self.step = self.min_step + (self.max_step - self.min_step) / 2;
+                }
                 self.locked = false;
                 self.fine = false;
                 self.good = 0;
@@ -433,6 +443,15 @@ impl MainsTracker {
         self.min_step = phase_step(lo, self.rate_hz);
         self.max_step = phase_step(hi, self.rate_hz);
         self.step = self.step.max(self.min_step).min(self.max_step);
+    }
+
+    /// Sets a least per-cycle `|i| + |q|` (Q8 codes) to learn from above
+    /// `track_min_codes`: a detector with a noise estimate sets it a few
+    /// noise units up, so that the loop does not learn from cycles of noise
+    /// alone (whose phases are random: the reference would wander over its
+    /// range). 0 removes it.
+    pub fn set_floor(&mut self, l1_q8: u32) {
+        self.floor_l1 = l1_q8;
     }
 
     /// Present reference frequency in hertz (diagnostics; uses `f32`).

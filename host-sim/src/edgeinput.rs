@@ -145,7 +145,7 @@ pub fn drive_edges<const N: usize>(
     cfg: &Config,
     edge: &EdgeConfig,
     mut on_level: impl FnMut(u64, &[i32; N]),
-    mut on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<(), String>,
+    mut on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<u32, String>,
 ) -> Result<u64, String> {
     let mut front =
         EdgeFrontend::<N>::new(edge, &backend_config(cfg)).map_err(|e| e.to_string())?;
@@ -154,6 +154,7 @@ pub fn drive_edges<const N: usize>(
         front: &mut front,
         on_cycle: |c: &Cycle<N, 0>| {
             if failed.is_none() {
+                // The edge front end has no tracker floor to set.
                 if let Err(m) = on_cycle(c) {
                     failed = Some(m);
                 }
@@ -174,7 +175,7 @@ pub fn drive_levels<const N: usize>(
     cfg: &Config,
     edge: &EdgeConfig,
     mut on_frame: impl FnMut(u64, &[i32; N]),
-    mut on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<(), String>,
+    mut on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<u32, String>,
 ) -> Result<u64, String> {
     let mut front =
         EdgeFrontend::<N>::new(edge, &backend_config(cfg)).map_err(|e| e.to_string())?;

@@ -93,12 +93,16 @@ impl Code for i16 {
 
 /// Streams every frame of `src` through a [`Frontend`] built from `cfg`;
 /// calls `on_frame(index, frame)` for each frame and `on_cycle` for each
-/// completed mains cycle. Returns the frames read.
+/// completed mains cycle, which returns the mains tracker's floor for the
+/// cycles after it (a window back end's
+/// [`tracking_floor`](Backend::tracking_floor), 0 for none), as a
+/// [`FieldDetector`](humsense::FieldDetector) feeds it back. Returns the
+/// frames read.
 pub fn drive<const N: usize>(
     src: &mut dyn FrameSource,
     cfg: &Config,
     on_frame: impl FnMut(u64, &[i32; N]),
-    on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<(), String>,
+    on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<u32, String>,
 ) -> Result<u64, String> {
     let front = Frontend::<N, 0>::new(cfg).map_err(|e| e.to_string())?;
     if src.signed() {
@@ -112,7 +116,7 @@ fn drive_typed<const N: usize, S: Code>(
     src: &mut dyn FrameSource,
     mut front: Frontend<N, 0>,
     mut on_frame: impl FnMut(u64, &[i32; N]),
-    mut on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<(), String>,
+    mut on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<u32, String>,
 ) -> Result<u64, String> {
     let mut buf = vec![0i32; BLOCK_FRAMES * N];
     let mut index = 0u64;
@@ -129,7 +133,8 @@ fn drive_typed<const N: usize, S: Code>(
             index += 1;
             let frame: [S; N] = codes.map(S::from_code);
             if let Some(cycle) = front.push_frame(&frame) {
-                on_cycle(&cycle)?;
+                let floor = on_cycle(&cycle)?;
+                front.set_tracking_floor(floor);
             }
         }
     }
@@ -146,7 +151,7 @@ pub fn drive_input<const N: usize>(
     cfg: &Config,
     edge: Option<&EdgeConfig>,
     on_signal: impl FnMut(u64, &[i32; N]),
-    on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<(), String>,
+    on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<u32, String>,
 ) -> Result<u64, String> {
     let name = input.name().to_string();
     let need = || format!("{name}: no edge configuration for a digital input");
@@ -287,7 +292,7 @@ impl ChannelTask for ReplayTask<'_, '_> {
                     }
                 }
             }
-            Ok(())
+            Ok(back.tracking_floor())
         };
         let frames = match self.src {
             Feed::Frames(src) => drive::<N>(src, self.cfg, on_frame, on_cycle)?,

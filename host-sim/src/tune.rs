@@ -358,6 +358,13 @@ impl ChannelTask for TuneTask<'_> {
         let rate = self.clock_hz;
         let digital = self.src.is_digital();
         let mut cycles: Vec<Cycle<N, 0>> = Vec::new();
+        // The starting configuration's back end runs beside the recording:
+        // with a window (field profile) it sets the mains tracker's floor
+        // as a full run would. The candidates replay these cycles, so for
+        // them the floor is the starting point's (the noise estimate it
+        // comes from hardly depends on the constants tuned); the chosen
+        // configuration is checked by a full run.
+        let mut floor_back = crate::replay::HostBackend::<N>::new(&self.start).ok();
         let frames = drive_input::<N>(
             self.src,
             &self.start,
@@ -365,7 +372,10 @@ impl ChannelTask for TuneTask<'_> {
             |_, _| {},
             |c| {
                 cycles.push(*c);
-                Ok(())
+                Ok(floor_back.as_mut().map_or(0, |b| {
+                    b.process(c, |_| {});
+                    b.tracking_floor()
+                }))
             },
         )?;
         let seconds = frames as f64 / rate;

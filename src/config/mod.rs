@@ -205,7 +205,7 @@ config_table! {
         /// the estimate plus one code (see [`baseline`](crate::baseline)); it is
         /// not the deviation from the baseline, so a slow ramp or drift of the
         /// amplitude does not raise it.
-        noise_shift: u8 = [int 1, 16], "log2 cycles", touch 6, field 7;
+        noise_shift: u8 = [int 1, 16], "log2 cycles", touch 6, field 9;
         /// On threshold in noise units above the baseline (0.5 to 1000).
         on_noise: f32 = [float 0.5, 1000.0], "noise units", touch 8.0, field 6.0;
         /// Off threshold in noise units above the baseline (0 to 1000, below

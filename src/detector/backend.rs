@@ -301,6 +301,27 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                 });
             }
         }
+        if Win::MEMORY {
+            if let Some(p) = win.as_mut() {
+                // The tracker's floor from the quietest settled channel.
+                let bt = &self.baseline_t;
+                let n = self
+                    .ch
+                    .iter()
+                    .filter(|c| c.baseline.settled(bt))
+                    .map(|c| c.baseline.noise_q8())
+                    .min()
+                    .unwrap_or(0);
+                *p.floor = p.t.tracking_floor(n, cycle.samples);
+            }
+        }
+    }
+
+    /// The least per-cycle `|i| + |q|` the mains tracker should learn from
+    /// (see [`WindowStage::tracking_floor`]).
+    #[inline(always)]
+    pub fn tracking_floor(&self) -> u32 {
+        self.win.tracking_floor()
     }
 }
 

@@ -346,6 +346,13 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         cycle.health = self.tracker.health();
     }
 
+    /// Sets the mains tracker's floor from a back end's noise estimate
+    /// ([`MainsTracker::set_floor`]).
+    #[inline(always)]
+    pub fn set_tracking_floor(&mut self, l1_q8: u32) {
+        self.tracker.set_floor(l1_q8);
+    }
+
     /// The shared mains tracker.
     pub const fn tracker(&self) -> &MainsTracker {
         &self.tracker

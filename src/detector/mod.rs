@@ -123,6 +123,9 @@ impl<const N: usize, const H: usize, Win: WindowStage> Detector<N, H, Win> {
         let back = &mut self.back;
         self.front
             .push_frame_with(frame, |cycle| back.process(cycle, emit));
+        if Win::MEMORY {
+            self.front.set_tracking_floor(self.back.tracking_floor());
+        }
     }
 
     /// Takes a block of interleaved samples (`ch0, ch1, …, ch0, ch1, …`),
@@ -138,8 +141,16 @@ impl<const N: usize, const H: usize, Win: WindowStage> Detector<N, H, Win> {
         mut emit: impl FnMut(Event),
     ) -> usize {
         let back = &mut self.back;
-        self.front
-            .push_block(samples, |cycle| back.process(cycle, &mut emit))
+        let left = self
+            .front
+            .push_block(samples, |cycle| back.process(cycle, &mut emit));
+        if Win::MEMORY {
+            // Set after the block: the floor a block's later cycles see is
+            // the one before it (a block is short against the noise
+            // estimate's time constant).
+            self.front.set_tracking_floor(self.back.tracking_floor());
+        }
+        left
     }
 
     /// A view of channel `ch` after its latest cycle (amplitude, baseline,

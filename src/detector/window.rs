@@ -52,6 +52,10 @@ pub const FIELD_WINDOW_WORDS: usize = 32;
 /// Words of a channel's window memory that hold the ambient estimate.
 const AMBIENT_WORDS: usize = 2;
 
+/// The tracker's floor in per-cycle noise units (see
+/// [`WindowTuning::tracking_floor`]).
+const TRACK_FLOOR_NOISE: f32 = 6.0;
+
 /// The ambient estimate's averaging shift (cycles: 256, about 5 s).
 const AMBIENT_SHIFT: u32 = 8;
 
@@ -169,6 +173,8 @@ struct System {
     gamma_q4: u32,
     /// Gaussian quantile c, Q4.
     c_q4: u32,
+    /// Six per-cycle noise units in the window's σ: `6·√w`, Q8.
+    floor_q8: u32,
 }
 
 /// The window's constants, from a validated [`Config`].
@@ -202,6 +208,7 @@ impl WindowTuning {
             noise_q16: 0,
             gamma_q4: 0,
             c_q4: 0,
+            floor_q8: 0,
         },
         sixty: System {
             w: 1,
@@ -209,6 +216,7 @@ impl WindowTuning {
             noise_q16: 0,
             gamma_q4: 0,
             c_q4: 0,
+            floor_q8: 0,
         },
         split_samples: 0,
         off_noise_q4: 0,
@@ -232,6 +240,7 @@ impl WindowTuning {
                 noise_q16: f32_to_fixed(scale / 65_536.0 / (2.256_758_3 * sqrt(w as f32)), 16),
                 gamma_q4: f32_to_fixed(rayleigh_quantile(p), 4),
                 c_q4: f32_to_fixed(gaussian_quantile(p), 4),
+                floor_q8: f32_to_fixed(TRACK_FLOOR_NOISE * sqrt(w as f32), 8),
             }
         };
         let on_q8 = f32_to_fixed(cfg.on_ratio, 8);
@@ -265,6 +274,13 @@ impl WindowTuning {
         } else {
             &self.sixty
         }
+    }
+
+    /// The tracker's floor for window noise `n` (Q8 codes): `|i| + |q|`
+    /// of noise alone exceeds `k·σ_z` with probability below
+    /// `exp(−k²/4)` (`|i| + |q| ≤ √2·|z|`, Rayleigh), 1.2e-4 for six.
+    pub(crate) fn tracking_floor(&self, n: u32, samples: u32) -> u32 {
+        mul_q8(n, self.system(samples).floor_q8)
     }
 
     /// Cycles in the window for a cycle of `samples` samples.
@@ -436,6 +452,9 @@ pub trait WindowStage: Clone + core::fmt::Debug + sealed::Sealed {
     /// The memory and constants, when the window is in use.
     #[doc(hidden)]
     fn parts(&mut self) -> Option<WindowParts<'_>>;
+    /// The least per-cycle `|i| + |q|` (Q8 codes) the mains tracker should
+    /// learn from: six per-cycle noise units (0 without a window).
+    fn tracking_floor(&self) -> u32;
 }
 
 mod sealed {
@@ -456,6 +475,8 @@ pub struct WindowParts<'a> {
     pub(crate) head: &'a mut u8,
     /// Cycles in the window now (0 before the first cycle).
     pub(crate) w: &'a mut u8,
+    /// The tracker's floor ([`WindowStage::tracking_floor`]).
+    pub(crate) floor: &'a mut u32,
 }
 
 /// No window: the coherent exponential average of `avg_shift` (the touch
@@ -478,6 +499,10 @@ impl WindowStage for NoWindow {
     fn parts(&mut self) -> Option<WindowParts<'_>> {
         None
     }
+    #[inline(always)]
+    fn tracking_floor(&self) -> u32 {
+        0
+    }
 }
 
 /// Window memory for `N` channels, `W` 32-bit words each: `W − 2` cycles
@@ -490,6 +515,7 @@ pub struct SlidingWindow<const N: usize, const W: usize> {
     t: WindowTuning,
     head: u8,
     w: u8,
+    floor: u32,
 }
 
 impl<const N: usize, const W: usize> WindowStage for SlidingWindow<N, W> {
@@ -509,6 +535,7 @@ impl<const N: usize, const W: usize> WindowStage for SlidingWindow<N, W> {
             },
             head: 0,
             w: 0,
+            floor: 0,
         }
     }
     #[inline]
@@ -522,7 +549,11 @@ impl<const N: usize, const W: usize> WindowStage for SlidingWindow<N, W> {
             words: W,
             head: &mut self.head,
             w: &mut self.w,
+            floor: &mut self.floor,
         })
+    }
+    fn tracking_floor(&self) -> u32 {
+        self.floor
     }
 }
 
