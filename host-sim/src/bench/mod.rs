@@ -115,7 +115,8 @@ pub fn command(quick: bool) -> Result<(), CliError> {
     if quick {
         let mut problems = Vec::new();
         for (p, g) in &gaps {
-            if *p == Profile::Field && !(*g <= QUICK_FIELD_GAP_DB) {
+            // A NaN gap (no fit) fails too.
+            if *p == Profile::Field && (g.is_nan() || *g > QUICK_FIELD_GAP_DB) {
                 problems.push(format!(
                     "field profile {g:.2} dB from the optimum (allowed {QUICK_FIELD_GAP_DB} dB)"
                 ));
