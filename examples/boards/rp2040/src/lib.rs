@@ -3,7 +3,7 @@
 //!
 //! The binaries (`src/bin/touch.rs`, `src/bin/humtel_log.rs`) keep the
 //! sampler and whatever consumes its frames (the detector, the telemetry
-//! encoder) in one `critical_section::Mutex<RefCell<Option<…>>>`: the
+//! encoder) in one `critical_section::Mutex<RefCell<Slot<…>>>` ([`Slot`]): the
 //! timer interrupt borrows it for one frame, the main loop for as long as
 //! it takes to pop or copy a little, and nothing else touches it.
 #![no_std]
