@@ -16,6 +16,15 @@
 //! names the architecture version): no divide instruction and no 32 × 32 →
 //! 64-bit multiply, so the integer helpers in `src/fixed.rs` take loops and
 //! short products there.
+//!
+//! For the crate's own tests and examples built for a bare Cortex-M target
+//! (the on-target tests and the benchmark under QEMU, `.ci/cortexm`), it
+//! also passes the link script and the emulated machine's `memory.x`
+//! (`.cargo/cortexm/<machine>/`). They are link arguments of this
+//! package's test and example targets only, not flags in
+//! `.cargo/config.toml`: cargo merges that file into every build run
+//! below the repository root, and the board packages in `examples/boards/`
+//! bring their own link script arguments and memory maps.
 fn main() {
     println!("cargo:rustc-check-cfg=cfg(humsense_dsp)");
     println!("cargo:rustc-check-cfg=cfg(humsense_armv6m)");
@@ -31,5 +40,21 @@ fn main() {
     let atomics = std::env::var("CARGO_CFG_TARGET_HAS_ATOMIC").unwrap_or_default();
     if arch == "arm" && !atomics.split(',').any(|w| w == "32") {
         println!("cargo:rustc-cfg=humsense_armv6m");
+    }
+    let os = std::env::var("CARGO_CFG_TARGET_OS").unwrap_or_default();
+    let machine = if target.starts_with("thumbv6m") {
+        Some("microbit")
+    } else if target.starts_with("thumbv7em") {
+        Some("mps2-an386")
+    } else {
+        None
+    };
+    if let (true, Some(machine)) = (os == "none", machine) {
+        let dir = std::env::var("CARGO_MANIFEST_DIR").unwrap_or_default();
+        for kind in ["tests", "examples"] {
+            println!("cargo:rustc-link-arg-{kind}=-Tlink.x");
+            println!("cargo:rustc-link-arg-{kind}=-L{dir}/.cargo/cortexm/{machine}");
+        }
+        println!("cargo:rerun-if-changed=.cargo/cortexm/{machine}/memory.x");
     }
 }

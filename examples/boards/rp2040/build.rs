@@ -1,0 +1,12 @@
+//! Puts `memory.x` where the linker finds it (the build's output directory,
+//! added to the search path), so that `-Tlink.x` from cortex-m-rt includes
+//! this board's memory map whatever directory the build runs from.
+use std::{env, fs, path::PathBuf};
+
+fn main() {
+    let out = PathBuf::from(env::var_os("OUT_DIR").expect("cargo sets OUT_DIR"));
+    fs::copy("memory.x", out.join("memory.x")).expect("memory.x is beside Cargo.toml");
+    println!("cargo:rustc-link-search={}", out.display());
+    println!("cargo:rerun-if-changed=memory.x");
+    println!("cargo:rerun-if-changed=build.rs");
+}
