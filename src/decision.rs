@@ -329,10 +329,8 @@ impl DecisionState {
     /// permission (the strongest-pad rule) is mostly never computed, and
     /// with what the cycles around this one say ([`Evidence`]), and the
     /// thresholds from `th` (`()`: the baseline and noise formulas).
-    /// Inline: one call site per threshold source in the back end. (Eight
-    /// arguments: the cycle's figures each in a register, rather than a
-    /// record built and read back once a cycle.)
-    #[inline(always)]
+    /// (Eight arguments: the cycle's figures each in a register, rather
+    /// than a record built and read back once a cycle.)
     #[allow(clippy::too_many_arguments)]
     pub fn step_with(
         &mut self,

@@ -105,7 +105,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
         let mut win = if Win::MEMORY { self.win.parts() } else { None };
         let mut head = 0usize;
         let mut wlen = 0usize;
-        if let Some(p) = win.as_mut() {
+        if let Some(p) = win.as_mut().filter(|_| Win::MEMORY) {
             wlen = p.t.cycles(cycle.samples);
             let slots = p.words.saturating_sub(2).max(1);
             head = usize::from(*p.head) % slots;
@@ -216,7 +216,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     previous_q8: *previous,
                 };
                 let (e, verdict) = match win.as_ref() {
-                    Some(p) => {
+                    Some(p) if Win::MEMORY => {
                         let words = p.words;
                         let ch = usize::from(channel);
                         let amb = p
@@ -232,7 +232,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                         c.decision
                             .step_with(amp, b, n, evidence, th, may_on, &self.decision_t)
                     }
-                    None => c
+                    _ => c
                         .decision
                         .step_with(amp, b, n, evidence, (), may_on, &self.decision_t),
                 };
@@ -246,7 +246,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     Verdict::Freeze => {}
                     Verdict::Relearn => {
                         c.baseline.relearn(amp);
-                        if let Some(p) = win.as_mut() {
+                        if let (true, Some(p)) = (Win::MEMORY, win.as_mut()) {
                             let words = p.words;
                             let ch = usize::from(channel);
                             if let Some(m) = p.mem.get_mut(ch * words..(ch + 1) * words) {

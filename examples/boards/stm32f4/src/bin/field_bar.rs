@@ -1,6 +1,7 @@
 //! A field probe on an STM32F411: one antenna input on ADC1 (PA1)
-//! sampled at 2 kHz from TIM3's update interrupt into `humsense::Detector`
-//! with the field profile (`Config::field()`), and its graded levels shown
+//! sampled at 2 kHz from TIM3's update interrupt into `humsense::FieldDetector`
+//! (window memory for the field profile's 0.5 s coherent window) with the
+//! field profile (`Config::field()`), and its graded levels shown
 //! on a bar of eight LEDs: none while no field is near, one at
 //! `field-on`, one more per 3 dB (the profile's `level_step_db`), so the
 //! bar grows as the probe comes closer to a live conductor. Events reach
@@ -27,7 +28,7 @@ use hal::gpio::{Analog, AnyPin, Output, PA1};
 use hal::pac::{self, interrupt};
 use hal::prelude::*;
 use hal::timer::{CounterHz, Event, Flag};
-use humsense::{Config, Detector, EventKind, EventQueue, MainsMode};
+use humsense::{Config, EventKind, EventQueue, FieldDetector, MainsMode};
 use humsense_board_stm32f4::{clocks, Slot};
 
 /// Samples a second.
@@ -51,7 +52,7 @@ struct Sensing {
     timer: CounterHz<pac::TIM3>,
     adc: Adc<pac::ADC1>,
     antenna: PA1<Analog>,
-    detector: Detector,
+    detector: FieldDetector,
 }
 
 static SENSING: Mutex<RefCell<Slot<Sensing>>> = Mutex::new(RefCell::new(Slot::Empty));
@@ -79,7 +80,7 @@ fn main() -> ! {
     ];
 
     // Validated once here; afterwards nothing in the detector can fail.
-    let detector = defmt::unwrap!(Detector::new(config()));
+    let detector = defmt::unwrap!(FieldDetector::new(config()));
     // ADC clock: APB2's 100 MHz / 4 = 25 MHz (the STM32F411's limit is 36);
     // 144 sampling cycles (5.8 µs) suit the 1 kΩ / 220 nF source of the
     // wiring in README.md, 6.2 µs a conversion in all.
