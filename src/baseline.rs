@@ -170,8 +170,12 @@ impl BaselineState {
     }
 
     /// Learns from one cycle's amplitude and noise sample (Q8 codes).
-    /// Per cycle. Inline: the back end calls it from one place.
-    #[inline(always)]
+    /// Per cycle. Inline on cores with room to spare in flash; out of line
+    /// on the Cortex-M0, where the compiler otherwise copies it onto both
+    /// of the back end's learning paths (about 170 bytes) for a call's
+    /// worth of instructions a cycle.
+    #[cfg_attr(not(humsense_armv6m), inline(always))]
+    #[cfg_attr(humsense_armv6m, inline(never))]
     pub fn update(&mut self, amp_q8: u32, noise_q8: u32, t: &BaselineTuning) {
         let a = q8_to_q12(amp_q8);
         let b = self.base_q12;
