@@ -24,8 +24,8 @@ pub mod telemetry;
 
 pub use config::{Config, FieldInfo, FieldKind, FieldValue, MainsMode, PanelMode, Profile};
 pub use detector::{
-    AdcSample, Backend, ChannelSnapshot, Cycle, Detector, FieldDetector, Frontend, NoWindow,
-    SlidingWindow, WindowStage, FIELD_WINDOW_WORDS,
+    per_decision_pfa, AdcSample, Backend, ChannelSnapshot, Cycle, Detector, FieldDetector,
+    Frontend, NoWindow, SlidingWindow, WindowStage, FIELD_WINDOW_WORDS,
 };
 pub use edge::{EdgeConfig, EdgeDetector, EdgeInput, TimerWidth};
 pub use error::{ConfigError, ConfigValue};

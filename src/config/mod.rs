@@ -186,7 +186,8 @@ config_table! {
         window_ms: u16 = [int 0, 2_000], "ms", touch 0, field 500;
         /// With a window: false on events an hour under white noise alone,
         /// the one knob that trades sensitivity against false alarms
-        /// (0.01 to 3600). Each halving costs about 0.2 dB of sensitivity.
+        /// (0.01 to 3600). Each halving costs about 0.2 dB of sensitivity
+        /// (computed from the Rayleigh law near the default).
         false_alarms_per_hour: f32 = [float 0.01, 3_600.0], "per hour", touch 1.0, field 1.0;
         /// Mains cycles of fast baseline learning after start-up and after an
         /// input fault ends (1 to 65 535). During them the channel decides

@@ -317,6 +317,11 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
         }
     }
 
+    /// The window's on and off thresholds for channel `ch` (snapshots).
+    pub(super) fn window_thresholds(&self, ch: usize, n: u32) -> Option<(u32, u32)> {
+        self.win.thresholds(ch, n)
+    }
+
     /// The least per-cycle `|i| + |q|` the mains tracker should learn from
     /// (see [`WindowStage::tracking_floor`]).
     #[inline(always)]

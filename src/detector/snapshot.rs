@@ -74,7 +74,11 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
     pub fn snapshot(&self, ch: usize) -> Option<ChannelSnapshot> {
         let c = self.ch.get(ch)?;
         let b = c.baseline.baseline_q8();
-        let (on_q8, off_q8) = self.decision_t.thresholds(b, c.baseline.noise_q8());
+        let n = c.baseline.noise_q8();
+        // With a window in use, the thresholds it decides on.
+        let (on_q8, off_q8) = self
+            .window_thresholds(ch, n)
+            .unwrap_or_else(|| self.decision_t.thresholds(b, n));
         let state = if c.faults.present().intersects(SIGNAL_FAULTS) {
             ChannelState::Faulted
         } else if !c.baseline.settled(&self.baseline_t) {

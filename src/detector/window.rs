@@ -455,6 +455,9 @@ pub trait WindowStage: Clone + core::fmt::Debug + sealed::Sealed {
     /// The least per-cycle `|i| + |q|` (Q8 codes) the mains tracker should
     /// learn from: six per-cycle noise units (0 without a window).
     fn tracking_floor(&self) -> u32;
+    /// The on and off thresholds channel `ch` decides on with window noise
+    /// `n` (Q8 codes), for a snapshot; `None` without a window in use.
+    fn thresholds(&self, ch: usize, n: u32) -> Option<(u32, u32)>;
 }
 
 mod sealed {
@@ -502,6 +505,9 @@ impl WindowStage for NoWindow {
     #[inline(always)]
     fn tracking_floor(&self) -> u32 {
         0
+    }
+    fn thresholds(&self, _: usize, _: u32) -> Option<(u32, u32)> {
+        None
     }
 }
 
@@ -554,6 +560,20 @@ impl<const N: usize, const W: usize> WindowStage for SlidingWindow<N, W> {
     }
     fn tracking_floor(&self) -> u32 {
         self.floor
+    }
+    fn thresholds(&self, ch: usize, n: u32) -> Option<(u32, u32)> {
+        if !self.t.on {
+            return None;
+        }
+        let mem = self.mem.get(ch)?;
+        // The system whose window length is in use (50 Hz before the first
+        // cycle, like a cycle longer than a 55 Hz one).
+        let samples = if self.w == self.t.sixty.w && self.w != self.t.fifty.w {
+            0
+        } else {
+            u32::MAX
+        };
+        Some(self.t.thresholds(n, ambient_q8(mem, &self.t), samples))
     }
 }
 

@@ -1,0 +1,91 @@
+//! The field profile's sliding window (`FieldDetector`): its noise estimate
+//! and its Rayleigh-law threshold on white Gaussian noise, and detection
+//! within the window.
+
+mod support;
+
+use humsense::{per_decision_pfa, Config, EventKind, FieldDetector, MainsMode};
+use support::Rng;
+
+const RATE: f64 = 2_000.0;
+const SIGMA: f64 = 40.0;
+
+fn noise_run(det: &mut FieldDetector, rng: &mut Rng, seconds: f64) -> usize {
+    let mut ons = 0;
+    for _ in 0..(seconds * RATE) as usize {
+        let x = (2048.0 + SIGMA * rng.gauss()).round().clamp(0.0, 4095.0) as u16;
+        if let Some(e) = det.push(x) {
+            if e.kind == EventKind::FieldOn {
+                ons += 1;
+            }
+        }
+    }
+    ons
+}
+
+fn settled() -> (FieldDetector, Rng) {
+    let cfg = Config::field().with_mains(MainsMode::Hz50);
+    let mut det = FieldDetector::new(cfg).unwrap();
+    let mut rng = Rng::new(41);
+    noise_run(&mut det, &mut rng, 60.0);
+    (det, rng)
+}
+
+#[test]
+fn noise_estimate_is_the_window_means_sigma() {
+    // One cycle of N = 40 samples of white noise σ: the amplitude estimate
+    // 2|X|/N has E|2X/N|² = 4σ²/N (shared/REFERENCES.md: E|X|² = Nσ² for a
+    // bin-centred DFT), so σ_z = σ·√(2/N) per component, and the mean of
+    // w = 25 cycles σ_z/√w: 40·√(2/40)/5 = 1.789 codes.
+    let (det, _) = settled();
+    let s = det.snapshot(0).unwrap();
+    let n = s.noise_q8 as f64 / 256.0;
+    let want = SIGMA * (2.0f64 / 40.0).sqrt() / 5.0;
+    assert!(
+        (n / want - 1.0).abs() < 0.08,
+        "noise {n} codes, expected {want}"
+    );
+}
+
+#[test]
+fn on_threshold_is_the_rayleigh_quantile_of_the_noise() {
+    // Rayleigh envelope (Kay, Vol. II; shared/REFERENCES.md): under noise
+    // alone P(|S| > γσ) = exp(−γ²/2); the window sets γ from the
+    // per-decision probability for `false_alarms_per_hour`, and with no
+    // ambient the Rayleigh term rules the on threshold.
+    let (det, _) = settled();
+    let s = det.snapshot(0).unwrap();
+    let p = f64::from(per_decision_pfa(1.0, 50, 25));
+    let gamma = (2.0 * (1.0 / p).ln()).sqrt();
+    let want = gamma * s.noise_q8 as f64;
+    let got = s.on_q8 as f64;
+    assert!(
+        (got / want - 1.0).abs() < 0.03,
+        "on {got} against γσ {want} (γ {gamma})"
+    );
+    assert!(s.off_q8 < s.on_q8);
+}
+
+#[test]
+fn a_field_of_a_few_noise_units_is_reported_within_the_window() {
+    // 8 window-noise units (14 codes at σ = 40: one cycle's SNR is below
+    // 2): reported within the 0.5 s window in every one of 20 trials, and
+    // no report from the noise before it.
+    let (base, mut rng) = settled();
+    let w = std::f64::consts::TAU * 50.0 / RATE;
+    for trial in 0..20 {
+        let mut det = base.clone();
+        assert_eq!(noise_run(&mut det, &mut rng, 0.3 + 0.01 * trial as f64), 0);
+        let phase = rng.uniform() * std::f64::consts::TAU;
+        let mut at = None;
+        for n in 0..1_000usize {
+            let x = 2048.0 + SIGMA * rng.gauss() + 14.3 * (w * n as f64 + phase).sin();
+            if let Some(e) = det.push(x.round() as u16) {
+                if e.kind == EventKind::FieldOn && at.is_none() {
+                    at = Some(n);
+                }
+            }
+        }
+        assert!(at.is_some(), "trial {trial}: no field-on within 0.5 s");
+    }
+}
