@@ -1,6 +1,12 @@
 //! The field profile's sliding window (`FieldDetector`): its noise estimate
 //! and its Rayleigh-law threshold on white Gaussian noise, and detection
 //! within the window.
+#![allow(
+    clippy::unwrap_used,
+    clippy::expect_used,
+    clippy::indexing_slicing,
+    clippy::panic
+)]
 
 mod support;
 
