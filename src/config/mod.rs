@@ -205,8 +205,11 @@ config_table! {
         /// is the amplitude's mean absolute deviation, and clipped at four times
         /// the estimate plus one code (see [`baseline`](crate::baseline)); it is
         /// not the deviation from the baseline, so a slow ramp or drift of the
-        /// amplitude does not raise it.
-        noise_shift: u8 = [int 1, 16], "log2 cycles", touch 6, field 9;
+        /// amplitude does not raise it. With a window (`window_ms`), the
+        /// sample is the change of the per-cycle I/Q instead, scaled to the
+        /// noise of the window's mean; the field profile's 2^10 cycles (20 s
+        /// at 50 Hz) keep that estimate steady for its Rayleigh-law threshold.
+        noise_shift: u8 = [int 1, 16], "log2 cycles", touch 6, field 10;
         /// On threshold in noise units above the baseline (0.5 to 1000).
         on_noise: f32 = [float 0.5, 1000.0], "noise units", touch 8.0, field 6.0;
         /// Off threshold in noise units above the baseline (0 to 1000, below

@@ -12,7 +12,7 @@ const CONFIG: humsense::Config = humsense::Config {
     startup_cycles: 50,
     baseline_rise_shift: 11,
     baseline_fall_shift: 5,
-    noise_shift: 9,
+    noise_shift: 10,
     on_noise: 5.5,
     off_noise: 2.2,
     on_ratio: 1.7,
