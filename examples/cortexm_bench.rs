@@ -210,7 +210,9 @@ mod target {
     use cortex_m_rt::entry;
     use cortex_m_semihosting::{debug, hprintln};
     use humsense::edge::{EdgeConfig, EdgeDetector, EdgeFrontend, TimerWidth};
-    use humsense::{Backend, Config, Cycle, Detector, Frontend, Profile};
+    use humsense::{
+        Backend, Config, Cycle, Detector, FieldDetector, Frontend, Profile, WindowStage,
+    };
 
     use super::gen::{
         k, span, ChannelSpec, Disturb, EdgeSource, EdgeSpec, Knot, PinSpec, SignalSpec, Source,
@@ -397,15 +399,19 @@ mod target {
     }
 
     #[inline(never)]
-    fn block_call<const N: usize>(det: &mut Detector<N>, buf: &[u16], events: &mut u32) {
+    fn block_call<const N: usize, W: WindowStage>(
+        det: &mut Detector<N, 0, W>,
+        buf: &[u16],
+        events: &mut u32,
+    ) {
         det.push_block(buf, |_| *events += 1);
     }
 
     /// Instructions of `Detector::push_block` over `FRAMES` frames, in
     /// blocks of `BLOCK` frames generated beforehand (not measured).
     #[inline(never)]
-    fn push_block_cost<const N: usize>(
-        det: &mut Detector<N>,
+    fn push_block_cost<const N: usize, W: WindowStage>(
+        det: &mut Detector<N, 0, W>,
         src: &mut Source<N>,
         events: &mut u32,
     ) -> u64 {
@@ -615,6 +621,40 @@ mod target {
         hprintln!(
             "cortexm-stage: target={} profile={} channels={} sample_path_insn_per_sample={}.{:02} frontend_cycle_end_insn={}.{:02} backend_insn_per_cycle={}.{:02} samples_per_cycle={}.{:02} push_frame_insn_per_sample={}.{:02} block_sample_path_insn_per_sample={}.{:02}",
             TRIPLE, name, N, s, sf, extra / 100, extra % 100, b, bf, spc, spcf, pb, pbf, bs, bsf
+        );
+        Ok(())
+    }
+
+    /// The field profile in a `FieldDetector` (its 0.5 s sliding window),
+    /// one channel, through `push_block` as `bench` measures it:
+    /// `cortexm: target=… input=adc-window profile=field channels=1
+    /// insn_per_sample=… ram_bytes=…` (no budget of its own: the budgets are
+    /// the plain detector's; this says what the window adds).
+    fn window_bench() -> Result<(), ()> {
+        let Ok(mut det) = FieldDetector::<1, 0>::new(Config::field()) else {
+            hprintln!("cortexm-error: configuration rejected");
+            return Err(());
+        };
+        let mut src = source::<1>();
+        let mut events = 0u32;
+        for _ in 0..WARM_FRAMES {
+            let f = frame(&mut src);
+            det.push_frame(&f, |_| events += 1);
+        }
+        let (start, det_start) = (src, det.clone());
+        let block = push_block_cost(&mut det, &mut src, &mut events);
+        let (mut det2, mut src2) = (det_start, start);
+        if block != push_block_cost(&mut det2, &mut src2, &mut events) {
+            hprintln!("cortexm-error: repeated window runs differ (no -icount?)");
+            return Err(());
+        }
+        let (ip, ipf) = ratio(block, u64::from(FRAMES));
+        hprintln!(
+            "cortexm: target={} input=adc-window profile=field channels=1 insn_per_sample={}.{:02} ram_bytes={} flash_bytes=na",
+            TRIPLE,
+            ip,
+            ipf,
+            core::mem::size_of::<FieldDetector<1, 0>>()
         );
         Ok(())
     }
@@ -879,6 +919,9 @@ mod target {
             bench::<1>(profile)?;
             bench::<4>(profile)?;
             bench::<8>(profile)?;
+        }
+        if adc {
+            window_bench()?;
         }
         for profile in [Profile::Touch, Profile::Field] {
             edge_bench::<1>(profile)?;

@@ -108,7 +108,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
         if let Some(p) = win.as_mut().filter(|_| Win::MEMORY) {
             wlen = p.t.cycles(cycle.samples);
             let slots = p.words.saturating_sub(2).max(1);
-            head = usize::from(*p.head) % slots;
+            head = usize::from(*p.head).min(slots - 1);
             if usize::from(*p.w) != wlen {
                 // The mains system changed the window's length: sum afresh.
                 if *p.w != 0 {
@@ -118,7 +118,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                 }
                 *p.w = wlen as u8;
             }
-            *p.head = ((head + 1) % slots) as u8;
+            *p.head = if head + 1 >= slots { 0 } else { head + 1 } as u8;
         }
         let mut inputs = self
             .ch

@@ -346,9 +346,15 @@ pub(crate) fn push(
     let zi = store(f.i, t.shift);
     let zq = store(f.q, t.shift);
     let (zi32, zq32) = (i32::from(zi), i32::from(zq));
+    // Slot `k` cycles before `head` (`head < slots`, `k ≤ slots`): one
+    // conditional subtraction, no division (a library call on the M0).
     let at = |k: usize| -> usize {
-        // Slot `k` cycles before `head` (k ≤ slots).
-        (head + slots - k % slots.max(1)) % slots.max(1)
+        let i = head + slots.saturating_sub(k);
+        if i >= slots {
+            i - slots
+        } else {
+            i
+        }
     };
     let (pi, pq) = ring.get(at(1)).map_or((0, 0), |&v| unpack(v));
     let (oi, oq) = ring.get(at(w)).map_or((0, 0), |&v| unpack(v));
@@ -360,9 +366,21 @@ pub(crate) fn push(
     let l1 = zi32.abs_diff(pi).saturating_add(zq32.abs_diff(pq));
     let s = t.system(samples);
     let mean = |v: u64| ((v * u64::from(s.mean_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
-    let amp_q8 = mean(u64::from(isqrt_u64(Iq { i: sum.i, q: sum.q }.power())));
+    let amp_q8 = mean(u64::from(magnitude(sum)));
     let noise_q8 = ((u64::from(l1) * u64::from(s.noise_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
     WindowOut { amp_q8, noise_q8 }
+}
+
+/// `|z|`, rounded down: the 32-bit root where the power fits 32 bits (the
+/// usual case for these sums; the M0's 64-bit root is several times
+/// dearer), else the 64-bit one. The same value either way.
+#[inline]
+fn magnitude(z: &Iq) -> u32 {
+    let p = z.power();
+    match u32::try_from(p) {
+        Ok(p) => crate::fixed::isqrt_u32(p),
+        Err(_) => isqrt_u64(p),
+    }
 }
 
 /// The magnitude of a channel's ambient estimate, Q8 codes.
@@ -373,7 +391,7 @@ pub(crate) fn ambient_q8(mem: &[u32], t: &WindowTuning) -> u32 {
         _ => (0, 0),
     };
     // The ambient in storage units · 2^8; its magnitude in Q8 codes.
-    let b = isqrt_u64(Iq { i: bi, q: bq }.power());
+    let b = magnitude(&Iq { i: bi, q: bq });
     b >> (8 - u32::from(t.shift))
 }
 
