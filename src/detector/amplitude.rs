@@ -9,7 +9,7 @@
 //! deviation (see [`diff_gain_q8`]).
 
 use crate::demod::Iq;
-use crate::fixed::{isqrt_u32_from, isqrt_u64, mul_q8};
+use crate::fixed::{isqrt_u64, isqrt_u64_from, mul_q8};
 
 /// `256 · 2^(k/2) / √2` for k = 0..=4 (computed).
 const DIFF_GAIN_Q8: [u32; 5] = [181, 256, 362, 512, 724];
@@ -50,12 +50,8 @@ pub(super) fn update<const H: usize>(
         average(a, z, k);
         power = power.saturating_add(a.power());
     }
-    // Newton steps from the last amplitude where the root fits the 32-bit
-    // method (the same bits as `isqrt_u64`).
-    let amp = match u32::try_from(power) {
-        Ok(p) => isqrt_u32_from(p, *amp_q8),
-        Err(_) => isqrt_u64(power),
-    };
+    // Newton steps from the last amplitude (the same bits as `isqrt_u64`).
+    let amp = isqrt_u64_from(power, *amp_q8);
     // Noise sample: the change since the last cycle, scaled to a mean
     // absolute deviation (see `diff_gain_q8`).
     let d = mul_q8(amp.abs_diff(*amp_q8), gain);

@@ -83,6 +83,36 @@ pub const fn isqrt_u64(v: u64) -> u32 {
     isqrt_u32(top) << (shift / 2)
 }
 
+/// [`isqrt_u64`] by integer Newton steps from `guess` (an estimate of the
+/// result, e.g. the previous cycle's amplitude): exactly the same bits,
+/// for every `v` and every `guess`. Above 2^32 the same even shift as
+/// [`isqrt_u64`] (from `leading_zeros`, one instruction on cores with a
+/// hardware divide), then [`isqrt_u32_from`] on the top 32 bits from the
+/// guess shifted to match. On Cortex-M0 it is [`isqrt_u64`].
+#[inline]
+pub fn isqrt_u64_from(v: u64, guess: u32) -> u32 {
+    #[cfg(humsense_armv6m)]
+    {
+        let _ = guess;
+        isqrt_u64(v)
+    }
+    #[cfg(not(humsense_armv6m))]
+    {
+        let Some(hi) = u32::try_from(v >> 32).ok().filter(|&h| h != 0) else {
+            return isqrt_u32_from(v as u32, guess);
+        };
+        // Bits of `hi` (1 to 32) rounded up to an even count: the shift
+        // `isqrt_u64` finds two bits at a time.
+        let shift = (32 - hi.leading_zeros() + 1) & !1;
+        let top = if shift >= 32 {
+            hi
+        } else {
+            ((v as u32) >> shift) | (hi << (32 - shift))
+        };
+        isqrt_u32_from(top, guess >> (shift / 2)) << (shift / 2)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     extern crate std;
@@ -132,6 +162,40 @@ mod tests {
         for v in vals {
             for g in [0u32, 1, 2, 100, 5_120, 65_535, 65_536, u32::MAX] {
                 assert_eq!(isqrt_u32_from(v, g), isqrt_u32(v), "{v} from {g}");
+            }
+        }
+    }
+
+    #[test]
+    fn newton_sqrt_u64_matches_the_shifted_method() {
+        // Self-consistency: the two ways of computing the same bits.
+        let mut vals = std::vec![0u64, 1, u32::MAX as u64, 1 << 32, (1 << 32) + 1, u64::MAX];
+        for b in 32..64 {
+            vals.push(1u64 << b);
+            vals.push((1u64 << b) - 1);
+            vals.push((1u64 << b) + 0x1234_5677);
+            vals.push((3u64 << (b - 1)) | 0xffff);
+        }
+        let mut x = 0x9E37_79B9_7F4A_7C15u64;
+        for _ in 0..2_000 {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            vals.push(x >> (x % 32));
+        }
+        for v in vals {
+            let want = isqrt_u64(v);
+            for g in [
+                0u32,
+                1,
+                3,
+                want / 2,
+                want,
+                want.saturating_add(7),
+                want.saturating_mul(3),
+                u32::MAX,
+            ] {
+                assert_eq!(isqrt_u64_from(v, g), want, "{v} from {g}");
             }
         }
     }

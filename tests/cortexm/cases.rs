@@ -494,6 +494,8 @@ const MID: SignalSpec = SignalSpec {
     lo: 0,
     hi: 4095,
     spike_ms: 0,
+    drift_mhz: 0,
+    drift_ms: 0,
     seed: 1,
 };
 
@@ -502,6 +504,7 @@ const fn chan(knots: &'static [Knot], noise_x16: i32) -> ChannelSpec {
         phase: 0,
         knots,
         third_q8: 0,
+        fifth_q8: 0,
         noise_x16,
     }
 }
@@ -574,6 +577,7 @@ fn touch60() -> Outcome {
         phase: 0x3000_0000,
         knots: TOUCH60,
         third_q8: 20,
+        fifth_q8: 0,
         noise_x16: 24,
     }];
     run::<1, 0, u16>(Config::touch(), spec, &chans, 8_000, Feed::Frame)
@@ -612,6 +616,8 @@ fn touch_spikes() -> Outcome {
     // Full-scale spikes of one to three samples every 150 ms on average.
     let spec = SignalSpec {
         spike_ms: 150,
+        drift_mhz: 0,
+        drift_ms: 0,
         seed: 4,
         ..MID
     };
@@ -683,6 +689,8 @@ fn field60x2() -> Outcome {
         lo: -2048,
         hi: 2047,
         spike_ms: 0,
+        drift_mhz: 0,
+        drift_ms: 0,
         seed: 7,
     };
     const CH0: &[Knot] = &[k(0, 6), k(2000, 6), k(5000, 250), k(7000, 250), k(9000, 6)];
@@ -715,6 +723,8 @@ fn touch8_drift() -> Outcome {
         lo: 0,
         hi: 1023,
         spike_ms: 0,
+        drift_mhz: 0,
+        drift_ms: 0,
         seed: 8,
     };
     let chans = [

@@ -5,8 +5,9 @@
 //!
 //! A signal is mains hum: a phase accumulator (`u32`, 2^32 = one turn) and
 //! an integer polynomial sine, scaled by a piecewise-linear envelope per
-//! channel (ambient hum, touches, a slow approach), plus optional third
-//! harmonic, approximately Gaussian noise from a fixed-seed xorshift32, and
+//! channel (ambient hum, touches, a slow approach), plus optional third and
+//! fifth harmonics, a triangular mains-frequency drift, approximately
+//! Gaussian noise from a fixed-seed xorshift32, and
 //! optional full-scale spikes; then clipped to the ADC's code range (a bias
 //! of 0 with a range of `0..=max` is a single-supply front end: half-wave).
 //!
@@ -107,6 +108,8 @@ pub struct ChannelSpec {
     pub knots: &'static [Knot],
     /// Third harmonic, as a fraction of the fundamental times 256.
     pub third_q8: i32,
+    /// Fifth harmonic, as a fraction of the fundamental times 256.
+    pub fifth_q8: i32,
     /// Noise RMS in sixteenths of a code (approximately).
     pub noise_x16: i32,
 }
@@ -127,6 +130,14 @@ pub struct SignalSpec {
     /// Mean time between spikes in milliseconds (0: none). A spike is one
     /// to three samples at `lo` or `hi` on every channel at once.
     pub spike_ms: u32,
+    /// Mains frequency drift: a triangular sweep between
+    /// `mains_mhz − drift_mhz` and `mains_mhz + drift_mhz`, starting at the
+    /// low end and rising, with a full period of `drift_ms` milliseconds
+    /// (0: no drift). The step changes by a constant per sample (Q8
+    /// fraction carried), so the phase is continuous.
+    pub drift_mhz: u32,
+    /// See `drift_mhz`.
+    pub drift_ms: u32,
     /// PRNG seed.
     pub seed: u32,
 }
@@ -193,6 +204,7 @@ struct Chan {
     phase: u32,
     env: Envelope,
     third_q8: i32,
+    fifth_q8: i32,
     noise_mul: i32,
 }
 
@@ -202,6 +214,12 @@ struct Chan {
 pub struct Source<const N: usize> {
     spec: SignalSpec,
     step: u32,
+    /// Drift: the phase step in Q8 (`step << 8` plus the carried
+    /// fraction), its change per sample, and samples until the sweep turns.
+    step_q8: u64,
+    dstep_q8: i64,
+    drift_left: u32,
+    drift_half: u32,
     phase: u32,
     n: u32,
     rng: Rng,
@@ -220,6 +238,7 @@ impl<const N: usize> Source<N> {
             phase: 0,
             knots: &[],
             third_q8: 0,
+            fifth_q8: 0,
             noise_x16: 0,
         };
         let ch = core::array::from_fn(|c| {
@@ -231,6 +250,7 @@ impl<const N: usize> Source<N> {
                 phase: cs.phase,
                 env: Envelope::new(cs.knots, spec.rate_hz),
                 third_q8: cs.third_q8,
+                fifth_q8: cs.fifth_q8,
                 // gauss148 · noise_mul >> 12 has RMS 147.8 · mul / 4096
                 // codes; mul = 1.7314 · noise_x16 gives noise_x16 / 16.
                 noise_mul: (cs.noise_x16 * 1773) >> 10,
@@ -238,9 +258,23 @@ impl<const N: usize> Source<N> {
         });
         let mut rng = Rng::new(spec.seed);
         let next_spike = Self::spike_gap(&mut rng, &spec);
+        let half = (u64::from(spec.drift_ms) * u64::from(spec.rate_hz) / 2000) as u32;
+        let (step, dstep_q8, drift_half) = if spec.drift_ms == 0 || spec.drift_mhz == 0 || half == 0
+        {
+            (phase_step(spec.mains_mhz, spec.rate_hz), 0, u32::MAX)
+        } else {
+            let lo = phase_step(spec.mains_mhz.saturating_sub(spec.drift_mhz), spec.rate_hz);
+            let hi = phase_step(spec.mains_mhz.saturating_add(spec.drift_mhz), spec.rate_hz);
+            let d = ((i64::from(hi) - i64::from(lo)) << 8) / i64::from(half);
+            (lo, d, half)
+        };
         Self {
             spec,
-            step: phase_step(spec.mains_mhz, spec.rate_hz),
+            step,
+            step_q8: u64::from(step) << 8,
+            dstep_q8,
+            drift_left: drift_half,
+            drift_half,
             phase: 0,
             n: 0,
             rng,
@@ -279,6 +313,9 @@ impl<const N: usize> Source<N> {
             if c.third_q8 != 0 {
                 s += (c.third_q8 * sin_q15(p.wrapping_mul(3))) >> 8;
             }
+            if c.fifth_q8 != 0 {
+                s += (c.fifth_q8 * sin_q15(p.wrapping_mul(5))) >> 8;
+            }
             let mut x = spec.bias + ((a * s) >> 15);
             if c.noise_mul != 0 {
                 x += (self.rng.gauss148() * c.noise_mul) >> 12;
@@ -299,6 +336,15 @@ impl<const N: usize> Source<N> {
             *o = (*o).clamp(spec.lo, spec.hi);
         }
         self.phase = base.wrapping_add(self.step);
+        if self.dstep_q8 != 0 {
+            self.step_q8 = self.step_q8.wrapping_add_signed(self.dstep_q8);
+            self.step = (self.step_q8 >> 8) as u32;
+            self.drift_left -= 1;
+            if self.drift_left == 0 {
+                self.dstep_q8 = -self.dstep_q8;
+                self.drift_left = self.drift_half;
+            }
+        }
         self.n = n.wrapping_add(1);
         out
     }

@@ -541,12 +541,15 @@ fn tel_u16_1ch() -> TelOutcome {
         lo: 0,
         hi: 4095,
         spike_ms: 200,
+        drift_mhz: 0,
+        drift_ms: 0,
         seed: 21,
     };
     let chans = [ChannelSpec {
         phase: 0,
         knots: &PAD,
         third_q8: 0,
+        fifth_q8: 0,
         noise_x16: 16,
     }];
     run::<1, 1024, u16>(spec, &chans, 12, 32, 4_000, Push::Frames, true)
@@ -563,6 +566,8 @@ fn tel_i16_3ch() -> TelOutcome {
         lo: -2048,
         hi: 2047,
         spike_ms: 0,
+        drift_mhz: 0,
+        drift_ms: 0,
         seed: 22,
     };
     let chans = [
@@ -570,18 +575,21 @@ fn tel_i16_3ch() -> TelOutcome {
             phase: 0,
             knots: &PAD_B,
             third_q8: 30,
+            fifth_q8: 0,
             noise_x16: 20,
         },
         ChannelSpec {
             phase: 0x5000_0000,
             knots: &PAD_C,
             third_q8: 0,
+            fifth_q8: 0,
             noise_x16: 16,
         },
         ChannelSpec {
             phase: 0xA000_0000,
             knots: &PAD,
             third_q8: 10,
+            fifth_q8: 0,
             noise_x16: 24,
         },
     ];
