@@ -11,7 +11,7 @@
 //! optional full-scale spikes; then clipped to the ADC's code range (a bias
 //! of 0 with a range of `0..=max` is a single-supply front end: half-wave).
 //!
-//! Shared by `tests/on_target.rs` and `examples/cortexm_bench.rs` through
+//! Shared by `tests/on_target.rs` and `examples/cortexm_bench/` through
 //! `#[path]`; `core` only.
 
 /// xorshift32 (13, 17, 5): fixed seed, never zero, period 2^32 − 1.
