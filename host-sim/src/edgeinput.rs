@@ -26,15 +26,12 @@
 //! count ticks since the start ([`Event::sample`]), so their times are
 //! `start + sample / tick_hz`.
 
-use crate::input::{EdgeLog, FrameSource};
+use crate::input::{for_each_frame, EdgeLog, FrameSource};
 use humsense::edge::{EdgeConfig, EdgeDetector, EdgeFrontend};
 use humsense::{Config, Cycle, Event};
 
 /// Log time between calls of `advance` while the pins are quiet, seconds.
 pub const ADVANCE_S: f64 = 0.005;
-
-/// Frames per read block of a polled-level log.
-const BLOCK_FRAMES: usize = 4096;
 
 /// The back end's configuration for an edge input: `cfg` with
 /// `nohum_codes = 0`, as [`EdgeDetector::new`] makes it.
@@ -179,33 +176,18 @@ pub fn drive_levels<const N: usize>(
 ) -> Result<u64, String> {
     let mut front =
         EdgeFrontend::<N>::new(edge, &backend_config(cfg)).map_err(|e| e.to_string())?;
-    let mut buf = vec![0i32; BLOCK_FRAMES * N];
-    let mut index = 0u64;
-    let mut failed: Option<String> = None;
-    loop {
-        let frames = src.read(&mut buf)?;
-        if frames == 0 {
-            break;
-        }
-        for chunk in buf.chunks_exact(N).take(frames) {
-            let Ok(codes) = <&[i32; N]>::try_from(chunk) else {
-                continue;
-            };
-            on_frame(index, codes);
-            index += 1;
-            front.push_levels(&codes.map(|c| c != 0), |c| {
-                if failed.is_none() {
-                    if let Err(m) = on_cycle(c) {
-                        failed = Some(m);
-                    }
+    for_each_frame::<N>(src, |index, codes| {
+        on_frame(index, codes);
+        let mut failed: Option<String> = None;
+        front.push_levels(&codes.map(|c| c != 0), |c| {
+            if failed.is_none() {
+                if let Err(m) = on_cycle(c) {
+                    failed = Some(m);
                 }
-            });
-            if let Some(m) = failed.take() {
-                return Err(m);
             }
-        }
-    }
-    Ok(index)
+        });
+        failed.map_or(Ok(()), Err)
+    })
 }
 
 /// A full run of an edge log through an [`EdgeDetector`] built from `cfg`
@@ -233,17 +215,9 @@ pub fn full_level_events<const N: usize>(
 ) -> Result<Vec<Event>, String> {
     let mut det = EdgeDetector::<N>::new(*cfg, *edge).map_err(|e| e.to_string())?;
     let mut events = Vec::new();
-    let mut buf = vec![0i32; BLOCK_FRAMES * N];
-    loop {
-        let frames = src.read(&mut buf)?;
-        if frames == 0 {
-            break;
-        }
-        for chunk in buf.chunks_exact(N).take(frames) {
-            if let Ok(codes) = <&[i32; N]>::try_from(chunk) {
-                det.push_levels(&codes.map(|c| c != 0), |e| events.push(e));
-            }
-        }
-    }
+    for_each_frame::<N>(src, |_, codes| {
+        det.push_levels(&codes.map(|c| c != 0), |e| events.push(e));
+        Ok(())
+    })?;
     Ok(events)
 }

@@ -28,13 +28,10 @@
 //! [`humsense::Detector`]'s on the same input.
 
 use crate::configfile::EdgeRequest;
-use crate::input::{open_any, FrameSource, Input, InputSpec};
+use crate::input::{for_each_frame, open_any, FrameSource, Input, InputSpec};
 use humsense::edge::EdgeConfig;
 use humsense::{AdcSample, Backend, Config, Cycle, Event, EventKind, Frontend};
 use std::path::{Path, PathBuf};
-
-/// Frames per read block.
-const BLOCK_FRAMES: usize = 4096;
 
 /// The back end humsim runs: no harmonics, and window memory, so the field
 /// profile decides on its sliding window as a
@@ -118,27 +115,15 @@ fn drive_typed<const N: usize, S: Code>(
     mut on_frame: impl FnMut(u64, &[i32; N]),
     mut on_cycle: impl FnMut(&Cycle<N, 0>) -> Result<u32, String>,
 ) -> Result<u64, String> {
-    let mut buf = vec![0i32; BLOCK_FRAMES * N];
-    let mut index = 0u64;
-    loop {
-        let frames = src.read(&mut buf)?;
-        if frames == 0 {
-            break;
+    for_each_frame::<N>(src, |index, codes| {
+        on_frame(index, codes);
+        let frame: [S; N] = codes.map(S::from_code);
+        if let Some(cycle) = front.push_frame(&frame) {
+            let floor = on_cycle(&cycle)?;
+            front.set_tracking_floor(floor);
         }
-        for chunk in buf.chunks_exact(N).take(frames) {
-            let Ok(codes) = <&[i32; N]>::try_from(chunk) else {
-                continue;
-            };
-            on_frame(index, codes);
-            index += 1;
-            let frame: [S; N] = codes.map(S::from_code);
-            if let Some(cycle) = front.push_frame(&frame) {
-                let floor = on_cycle(&cycle)?;
-                front.set_tracking_floor(floor);
-            }
-        }
-    }
-    Ok(index)
+        Ok(())
+    })
 }
 
 /// Streams any input through its front end: the ADC [`Frontend`] for

@@ -34,7 +34,7 @@
 //! panel and fault constants) as the starting configuration has them.
 
 use crate::configfile::EdgeRequest;
-use crate::input::{open_any, FrameSource, Input, InputSpec};
+use crate::input::{for_each_frame, open_any, FrameSource, Input, InputSpec};
 use crate::labels::{shifted, LabelFile, Span};
 use crate::replay::{drive_input, prepare, with_channels, ChannelTask};
 use crate::score::{score_events, Score, ScoreOptions};
@@ -223,23 +223,14 @@ pub fn full_events<const N: usize>(
     let mut det = humsense::FieldDetector::<N, 0>::new(*cfg).map_err(|e| e.to_string())?;
     let mut events = Vec::new();
     let signed = src.signed();
-    let mut buf = vec![0i32; 4096 * N];
-    loop {
-        let frames = src.read(&mut buf)?;
-        if frames == 0 {
-            break;
+    for_each_frame::<N>(src, |_, codes| {
+        if signed {
+            det.push_frame(&codes.map(|v| v as i16), |e| events.push(e));
+        } else {
+            det.push_frame(&codes.map(|v| v as u16), |e| events.push(e));
         }
-        for chunk in buf.chunks_exact(N).take(frames) {
-            let Ok(codes) = <&[i32; N]>::try_from(chunk) else {
-                continue;
-            };
-            if signed {
-                det.push_frame(&codes.map(|v| v as i16), |e| events.push(e));
-            } else {
-                det.push_frame(&codes.map(|v| v as u16), |e| events.push(e));
-            }
-        }
-    }
+        Ok(())
+    })?;
     Ok(events)
 }
 

@@ -151,6 +151,33 @@ pub trait FrameSource {
     }
 }
 
+/// Frames read from a [`FrameSource`] at a time by [`for_each_frame`].
+pub const BLOCK_FRAMES: usize = 4096;
+
+/// Reads `src` to its end in blocks of [`BLOCK_FRAMES`] and hands each
+/// frame of `N` codes to `f` with its index from 0; stops at the first
+/// error of the source or of `f`. Returns the frames read.
+pub fn for_each_frame<const N: usize>(
+    src: &mut dyn FrameSource,
+    mut f: impl FnMut(u64, &[i32; N]) -> Result<(), String>,
+) -> Result<u64, String> {
+    let mut buf = vec![0i32; BLOCK_FRAMES * N];
+    let mut index = 0u64;
+    loop {
+        let frames = src.read(&mut buf)?;
+        if frames == 0 {
+            return Ok(index);
+        }
+        for chunk in buf.chunks_exact(N).take(frames) {
+            let Ok(codes) = <&[i32; N]>::try_from(chunk) else {
+                continue;
+            };
+            f(index, codes)?;
+            index += 1;
+        }
+    }
+}
+
 /// Opens `spec.path` as CSV, WAV or raw (see the module docs).
 pub fn open_input(spec: &InputSpec) -> Result<Box<dyn FrameSource>, String> {
     let name = spec.path.display().to_string();
