@@ -57,23 +57,28 @@
 //! edge in 37 pulses lost, and on pin 0 a touch of 0.5 s every 2 s.
 //! Every `EdgeDetector::push_edge` call is timed on its own (the call
 //! overhead, measured on an empty function of the same signature,
-//! subtracted); a copy of the front end, fed outside the timed region,
-//! tells which calls ended a window.
+//! subtracted), and so is every `EdgeDetector::advance` of a periodic tick
+//! every 5 ms of timer time (a firmware's main-loop tick; the interval
+//! `humsim replay` uses), which takes the queued edges and closes the
+//! windows that ended; a copy of the front end, fed the same calls outside
+//! the timed region, tells which calls ended a window.
 //!
 //! - `insn_per_edge`: the interrupt-side call, the mean of the calls that
 //!   ended no window (the common path only queues the edge; the calls that
 //!   take a full queue, an edge to the same level or chatter are in the
 //!   mean).
-//! - `insn_per_cycle`: everything else, per window and channel: all calls
-//!   less `insn_per_edge` each, divided by windows × channels.
+//! - `insn_per_cycle`: everything else, per window and channel: all edge
+//!   calls less `insn_per_edge` each, and the ticks, divided by windows ×
+//!   channels.
 //! - `ram_bytes`: `size_of::<EdgeDetector<N>>()` (front end and back end).
 //! - `flash_bytes`: one channel only (probes `CORTEXM_FLASH_PROBE=201`,
 //!   a firmware whose loop hands SysTick counts to `push_edge` and calls
 //!   `advance`, minus 200 without the detector), `na` for more channels.
 //!
 //! `cortexm-stage: … input=edges …` adds the edge calls, the least and most
-//! instructions of one that ended no window, and the calls that ended
-//! windows with their mean and most.
+//! instructions of one that ended no window, the calls that ended
+//! windows with their mean and most, and the ticks, the windows they
+//! closed and their mean.
 //!
 //! Further lines are for diagnosis: `cortexm-calib:`, and `cortexm-stage:`
 //! with per-call counts from the split pipeline (call overhead subtracted):

@@ -197,7 +197,8 @@ pub(super) struct EdgeQueue {
     /// after the last of them (or, with none queued, after the edges
     /// taken). Queued edges alternate, the last at `level`.
     pub(super) x: u32,
-    /// Their times, oldest first.
+    /// Their timer counts (masked), oldest first: the front end turns
+    /// them into times when it takes them.
     pub(super) times: [u32; QUEUE as usize],
 }
 
@@ -210,7 +211,7 @@ impl EdgeQueue {
         }
     }
 
-    /// Queues an edge to `high` at `t` if it goes to the other level and
+    /// Queues an edge to `high` at count `t` if it goes to the other level and
     /// there is room; false otherwise (nothing changes).
     #[inline(always)]
     pub(super) fn push(&mut self, high: bool, t: u32) -> bool {
@@ -234,7 +235,7 @@ impl EdgeQueue {
         self.x >> 1
     }
 
-    /// Queued edge `i` (oldest first): whether it goes high, and its time.
+    /// Queued edge `i` (oldest first): whether it goes high, and its count.
     pub(super) fn get(&self, i: u32) -> (bool, u32) {
         let last_high = self.x & 1 != 0;
         // The last edge is at `last_high`, the one before at the other...

@@ -36,10 +36,19 @@ pub struct EdgeFrontend<const N: usize> {
     mask: u32,
     /// Latest count seen.
     last_count: u32,
+    /// How far `push_edge`'s common path may move the clock: the ticks to
+    /// the present window's end, at most `limit` (so that no step back
+    /// reads as a step forward); 0 before the first call and once the
+    /// window has ended, so that such calls take the slow path.
+    room: u32,
+    /// The count at which `now_lo` was last brought up to date (`sync`):
+    /// the common path moves only `last_count`, and the time of
+    /// `last_count` is `now_lo + (last_count − sync_count) mod range`.
+    sync_count: u32,
     /// Half the timer's range plus one (a step of this or more is a step
     /// back); 0 before the first call, so that it takes the slow path.
     limit: u32,
-    /// Latest time seen, ticks since the first call: the low word, and
+    /// Time of `sync_count`, ticks since the first call: the low word, and
     /// the high word as of the low word `lo_mark` (the low word wraps at
     /// most once between two calls that fold it in: see `fold`).
     now_lo: u32,
@@ -71,6 +80,15 @@ pub struct EdgeFrontend<const N: usize> {
     ch: [EdgeChannel; N],
 }
 
+/// The time of a queued count `count`: `now_lo` is the time of
+/// `sync_count`, and `last_count` the latest count, which `count` is no
+/// later than (by less than the timer's range).
+#[inline]
+const fn time_of(now_lo: u32, last_count: u32, sync_count: u32, mask: u32, count: u32) -> u32 {
+    let last_t = now_lo.wrapping_add(last_count.wrapping_sub(sync_count) & mask);
+    last_t.wrapping_sub(last_count.wrapping_sub(count) & mask)
+}
+
 /// What a channel's window amounted to.
 enum Window {
     Measured(u32),
@@ -100,6 +118,8 @@ impl<const N: usize> EdgeFrontend<N> {
         let mut f = Self {
             mask: edge.timer.mask(),
             last_count: 0,
+            room: 0,
+            sync_count: 0,
             limit: 0,
             now_lo: 0,
             win_end_lo: win_end as u32,
@@ -156,7 +176,8 @@ impl<const N: usize> EdgeFrontend<N> {
         self.lo_mark = self.now_lo;
     }
 
-    /// Moves the clock `ahead` ticks forward; the new low word.
+    /// Moves the clock `ahead` ticks forward, to the time of `last_count`
+    /// (after `sync`); the new low word.
     fn step(&mut self, ahead: u32) -> u32 {
         self.fold();
         let (lo, carry) = self.now_lo.overflowing_add(ahead);
@@ -165,6 +186,7 @@ impl<const N: usize> EdgeFrontend<N> {
         }
         self.now_lo = lo;
         self.lo_mark = lo;
+        self.sync_count = self.last_count;
         lo
     }
 
@@ -185,10 +207,11 @@ impl<const N: usize> EdgeFrontend<N> {
     /// latest count, half the timer's range or more being a step back
     /// ([module docs](crate::edge)). In the common case (a step forward
     /// within the window, an edge to the other level, room in the
-    /// channel's queue of three edges) the call only
-    /// queues the edge's time; the queued edges are taken (glitch filter,
-    /// pulses) when the queue is full or the window ends, with the same
-    /// result as taking each at once.
+    /// channel's queue of three edges) the call only queues the count and
+    /// moves the latest count (one compare against `room`, the ticks left
+    /// in the window); the queued edges are taken (glitch filter, pulses)
+    /// when the queue is full, the window ends or [`advance`](Self::advance)
+    /// is called, with the same result as taking each at once.
     #[inline]
     pub fn push_edge(
         &mut self,
@@ -197,19 +220,40 @@ impl<const N: usize> EdgeFrontend<N> {
         count: u32,
         on_cycle: impl FnMut(&Cycle<N, 0>),
     ) {
-        let count = count & self.mask;
+        // Counts enter only through differences taken modulo the timer's
+        // range, so bits above it need no masking here.
         let ahead = count.wrapping_sub(self.last_count) & self.mask;
-        let t = self.now_lo.wrapping_add(ahead);
-        if ahead < self.limit && !self.window_ended(t) {
+        if ahead < self.room {
             if let Some(q) = self.queue.get_mut(ch) {
-                if q.push(rising, t) {
+                if q.push(rising, count) {
                     self.last_count = count;
-                    self.now_lo = t;
+                    self.room -= ahead;
                     return;
                 }
             }
         }
         self.push_edge_slow(ch, rising, count, on_cycle);
+    }
+
+    /// Brings `now_lo` up to the time of `last_count` (what the common
+    /// path of `push_edge` left behind).
+    #[inline]
+    fn sync(&mut self) {
+        let moved = self.last_count.wrapping_sub(self.sync_count) & self.mask;
+        self.now_lo = self.now_lo.wrapping_add(moved);
+        self.sync_count = self.last_count;
+    }
+
+    /// Sets `room` from the clock and the window's end (after `sync`).
+    #[inline]
+    fn set_room(&mut self) {
+        let left = self.win_end_lo.wrapping_sub(self.now_lo);
+        self.room = if self.limit == 0 || left as i32 <= 0 {
+            0
+        } else {
+            left.min(self.limit)
+        };
+        self.sync_count = self.last_count;
     }
 
     /// [`push_edge`](Self::push_edge) for everything but its common case:
@@ -218,6 +262,19 @@ impl<const N: usize> EdgeFrontend<N> {
     #[cold]
     #[inline(never)]
     fn push_edge_slow(
+        &mut self,
+        ch: usize,
+        rising: bool,
+        count: u32,
+        on_cycle: impl FnMut(&Cycle<N, 0>),
+    ) {
+        self.sync();
+        self.take_edge(ch, rising, count, on_cycle);
+        self.set_room();
+    }
+
+    /// The slow path's work, with the clock brought up to date.
+    fn take_edge(
         &mut self,
         ch: usize,
         rising: bool,
@@ -269,6 +326,7 @@ impl<const N: usize> EdgeFrontend<N> {
     fn start(&mut self, count: u32) {
         self.limit = (self.mask >> 1) + 1;
         self.last_count = count;
+        self.sync_count = count;
     }
 
     /// Takes channel `ch`'s queued edges, in order.
@@ -277,7 +335,14 @@ impl<const N: usize> EdgeFrontend<N> {
             return;
         };
         for i in 0..q.len() {
-            let (high, t) = q.get(i);
+            let (high, count) = q.get(i);
+            let t = time_of(
+                self.now_lo,
+                self.last_count,
+                self.sync_count,
+                self.mask,
+                count,
+            );
             if let Some((sum, n)) = take(c, high != self.active_low, t, self.glitch, &self.accept) {
                 self.iv_sum = self.iv_sum.wrapping_add(sum);
                 self.iv_n = self.iv_n.wrapping_add(n);
@@ -328,14 +393,17 @@ impl<const N: usize> EdgeFrontend<N> {
     /// filter has cleared. Call it at least every half timer
     /// wrap while pins are quiet ([module docs](crate::edge)). Never panics.
     pub fn advance(&mut self, count: u32, on_cycle: impl FnMut(&Cycle<N, 0>)) {
+        self.sync();
         self.advance_to(count);
         self.close_windows(on_cycle);
         self.confirm_due();
+        self.set_room();
     }
 
     /// Takes one read of every pin (`true`: high), one tick after the
     /// previous read; changes become edges at this tick. Never panics.
     pub fn push_levels(&mut self, levels: &[bool; N], on_cycle: impl FnMut(&Cycle<N, 0>)) {
+        self.sync();
         if self.limit != 0 {
             self.step(1);
         }
@@ -348,6 +416,7 @@ impl<const N: usize> EdgeFrontend<N> {
                 self.take_now(i, active, t);
             }
         }
+        self.set_room();
     }
 
     /// Confirms the pending edges the glitch filter has cleared by now.
@@ -484,7 +553,14 @@ impl<const N: usize> EdgeFrontend<N> {
         // The queued edges, taken on a copy.
         if let Some(q) = self.queue.get(ch) {
             for i in 0..q.len() {
-                let (high, t) = q.get(i);
+                let (high, count) = q.get(i);
+                let t = time_of(
+                    self.now_lo,
+                    self.last_count,
+                    self.sync_count,
+                    self.mask,
+                    count,
+                );
                 let _ = take(
                     &mut c,
                     high != self.active_low,
@@ -507,10 +583,13 @@ impl<const N: usize> EdgeFrontend<N> {
         &self.mains
     }
 
-    /// Ticks since the first call.
+    /// Ticks since the first call (to the latest count seen).
     pub const fn now(&self) -> u64 {
-        let wrapped = (self.now_lo < self.lo_mark) as u64;
-        (self.now_hi as u64 + wrapped) << 32 | self.now_lo as u64
+        let lo = self
+            .now_lo
+            .wrapping_add(self.last_count.wrapping_sub(self.sync_count) & self.mask);
+        let wrapped = (lo < self.lo_mark) as u64;
+        (self.now_hi as u64 + wrapped) << 32 | lo as u64
     }
 }
 

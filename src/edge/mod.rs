@@ -44,9 +44,13 @@
 //! # Per edge
 //!
 //! Integer only, no division, no allocation, no panic. The interrupt-side
-//! call ([`EdgeFrontend::push_edge`]) turns the count into a time and, in
-//! the common case (a step forward inside the window, an edge to the other
-//! level), only stores the time in the channel's queue of three edges.
+//! call ([`EdgeFrontend::push_edge`]), in the common case (a step forward
+//! inside the window, an edge to the other level, room in the queue), only
+//! stores the count in the channel's queue of three edges and moves the
+//! latest count: the clock is brought up to it, and the queued counts
+//! turned into times, by the next call that takes edges. A firmware's
+//! periodic `advance` (every few milliseconds) thus takes the queued edges
+//! in the main loop, and the interrupt keeps to the common case.
 //! Times are kept as the low 32 bits of the tick count and compared by
 //! wrapping differences, exact because every stored time's age is held at
 //! 2^31 ticks or less at each window end. The queued edges are taken, in

@@ -76,6 +76,11 @@ pub(super) fn edge_call<const N: usize>(
 /// nothing (its body is a return: `black_box(())` emits no
 /// instruction).
 #[inline(never)]
+pub(super) fn tick_call<const N: usize>(det: &mut EdgeDetector<N>, count: u32, events: &mut u32) {
+    det.advance(count, |_| *events += 1);
+}
+
+#[inline(never)]
 pub(super) fn empty_edge_call<const N: usize>(
     _det: &mut EdgeDetector<N>,
     _ch: usize,
@@ -98,9 +103,18 @@ pub(super) struct EdgeCost {
     ending: u64,
     ending_insn: u64,
     ending_max: u64,
-    /// Windows ended.
+    /// Windows ended by edges.
     windows: u64,
+    /// The periodic `advance` calls: count, instructions, windows they
+    /// ended.
+    ticks: u64,
+    tick_insn: u64,
+    tick_windows: u64,
 }
+
+/// The firmware's periodic tick that calls `advance`: every 5 ms (the
+/// interval `humsim replay` uses for edge logs).
+pub(super) const EDGE_TICK_TICKS: u64 = EDGE_TICK_HZ as u64 / 200;
 
 /// Times every `push_edge` of the measured part of the train, one call
 /// at a time (call overhead subtracted); a shadow front end, outside
@@ -130,19 +144,37 @@ pub(super) fn edge_costs<const N: usize>(
         ending_insn: 0,
         ending_max: 0,
         windows: 0,
+        ticks: 0,
+        tick_insn: 0,
+        tick_windows: 0,
     };
-    let mut buf = [(0u32, 0usize, false); EDGE_BATCH];
+    let mut buf = [(0u64, 0usize, false); EDGE_BATCH];
+    let mut next_tick: Option<u64> = None;
     loop {
         let mut n = 0;
         for slot in buf.iter_mut() {
             let Some(edge) = src.next() else { break };
-            *slot = ((edge.tick as u32) & mask, usize::from(edge.ch), edge.active);
+            *slot = (edge.tick, usize::from(edge.ch), edge.active);
             n += 1;
         }
         if n == 0 {
             break;
         }
-        for &(count, ch, rising) in black_box(&buf[..n]) {
+        for &(tick, ch, rising) in black_box(&buf[..n]) {
+            // The periodic ticks due before this edge, each timed.
+            let mut due = *next_tick.get_or_insert(tick - tick % EDGE_TICK_TICKS + EDGE_TICK_TICKS);
+            while due <= tick {
+                let at = (due as u32) & mask;
+                let t0 = now();
+                tick_call(det, at, events);
+                let t1 = now();
+                r.tick_insn += black_box(insns(t0, t1).saturating_sub(overhead));
+                r.ticks += 1;
+                shadow.advance(at, |_| r.tick_windows += 1);
+                due += EDGE_TICK_TICKS;
+            }
+            next_tick = Some(due);
+            let count = (tick as u32) & mask;
             let t0 = now();
             edge_call(det, ch, rising, count, events);
             let t1 = now();
@@ -225,18 +257,18 @@ pub(super) fn edge_bench<const N: usize>(profile: Profile) -> Result<(), ()> {
         );
         return Err(());
     }
-    if cost.plain == 0 || cost.windows == 0 {
+    if cost.plain == 0 || cost.windows + cost.tick_windows == 0 {
         hprintln!("cortexm-error: the edge train ended no window or had no plain edge");
         return Err(());
     }
     // Per edge: the mean of the calls that ended no window. Per cycle:
-    // everything else (all calls less that per-edge cost each), per
-    // window and channel.
+    // everything else (all edge calls less that per-edge cost each, and
+    // the periodic ticks), per window and channel.
     let calls = cost.plain + cost.ending;
-    let total = cost.plain_insn + cost.ending_insn;
+    let total = cost.plain_insn + cost.ending_insn + cost.tick_insn;
     let per_edge_x100 = (cost.plain_insn * 100 + cost.plain / 2) / cost.plain;
     let rest_x100 = (total * 100).saturating_sub(calls * per_edge_x100);
-    let den = cost.windows * N as u64;
+    let den = (cost.windows + cost.tick_windows) * N as u64;
     let per_cycle_x100 = (rest_x100 + den / 2) / den;
     let ram = core::mem::size_of::<EdgeDetector<N>>();
     let front_ram = core::mem::size_of::<EdgeFrontend<N>>();
@@ -253,10 +285,11 @@ pub(super) fn edge_bench<const N: usize>(profile: Profile) -> Result<(), ()> {
         ),
     }
     let (ew, ewf) = ratio(cost.ending_insn, cost.ending);
+    let (tw, twf) = ratio(cost.tick_insn, cost.ticks);
     hprintln!(
-        "cortexm-stage: target={} input=edges profile={} channels={} edges={} plain_edges={} insn_per_edge_min={} insn_per_edge_max={} window_calls={} windows={} insn_per_window_call={}.{:02} insn_per_window_call_max={} frontend_ram_bytes={} events={}",
+        "cortexm-stage: target={} input=edges profile={} channels={} edges={} plain_edges={} insn_per_edge_min={} insn_per_edge_max={} window_calls={} windows={} insn_per_window_call={}.{:02} insn_per_window_call_max={} ticks={} tick_windows={} insn_per_tick={}.{:02} frontend_ram_bytes={} events={}",
         TRIPLE, name, N, calls, cost.plain, cost.plain_min, cost.plain_max, cost.ending, cost.windows,
-        ew, ewf, cost.ending_max, front_ram, events
+        ew, ewf, cost.ending_max, cost.ticks, cost.tick_windows, tw, twf, front_ram, events
     );
     Ok(())
 }
