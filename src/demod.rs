@@ -144,26 +144,48 @@ pub const fn pair_correction_q16(step: u32, h: u32) -> u32 {
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct CycleScale<const H: usize> {
+    /// The pair corrections of the phase step, Q16 (fundamental, then
+    /// each harmonic): kept, so that a cycle of another length at the same
+    /// step needs only its reciprocal.
+    corr_fund: u32,
     n: u32,
     recip: u32,
     fund: u32,
     harm: [u32; H],
+    corr_harm: [u32; H],
 }
 
 impl<const H: usize> CycleScale<H> {
     /// The scaling of a cycle of `n` samples whose reciprocal is `recip`
     /// ([`reciprocal`]`(n)`) at phase step `step`.
     pub fn new(n: u32, recip: u32, step: u32) -> Self {
-        let corrected = |h: u32| (mul_wide(recip, pair_correction_q16(step, h)) >> 16) as u32;
+        let mut corr_harm = [0; H];
+        for (c, h) in corr_harm.iter_mut().zip(2u32..) {
+            *c = pair_correction_q16(step, h);
+        }
+        Self::from_parts(n, recip, pair_correction_q16(step, 1), corr_harm)
+    }
+
+    /// The scaling of `n` samples (reciprocal `recip`) at the phase step
+    /// this one was made for: the same result as [`new`](Self::new) at
+    /// that step, without the corrections' series.
+    pub fn with_samples(&self, n: u32, recip: u32) -> Self {
+        Self::from_parts(n, recip, self.corr_fund, self.corr_harm)
+    }
+
+    fn from_parts(n: u32, recip: u32, corr_fund: u32, corr_harm: [u32; H]) -> Self {
+        let corrected = |c: u32| (mul_wide(recip, c) >> 16) as u32;
         let mut harm = [0; H];
-        for (r, h) in harm.iter_mut().zip(2u32..) {
-            *r = corrected(h);
+        for (r, c) in harm.iter_mut().zip(corr_harm.iter()) {
+            *r = corrected(*c);
         }
         Self {
             n,
             recip,
-            fund: corrected(1),
+            fund: corrected(corr_fund),
             harm,
+            corr_fund,
+            corr_harm,
         }
     }
 
@@ -174,6 +196,10 @@ impl<const H: usize> CycleScale<H> {
             recip: 0,
             fund: 0,
             harm: [0; H],
+            // Not zero: a run of zero fields makes the compiler clear the
+            // front end with `memclr` (linked on the M0 only for it).
+            corr_fund: 1 << 16,
+            corr_harm: [1 << 16; H],
         }
     }
 

@@ -5,6 +5,7 @@ use super::cycle::{rails, AdcSample, Cycle};
 use crate::config::{Config, MAX_CHANNELS, MAX_HARMONICS};
 use crate::demod::{reciprocal, CycleScale, DemodState};
 use crate::error::ConfigError;
+use crate::fixed::ARMV6M;
 use crate::impulse::{BlockGate, BlockHold, ImpulseState};
 use crate::mains::MainsTracker;
 use crate::nco::phase_ref;
@@ -317,7 +318,9 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
         cycle.samples = n;
         cycle.rails = self.rails;
         let step = self.tracker.step();
-        if n != self.scale.samples() || step != self.scale_step {
+        // Cortex-M0: every change remade whole (the kept corrections' path
+        // cost its block-path firmware 260 bytes of flash; the same values).
+        if step != self.scale_step || (ARMV6M && n != self.scale.samples()) {
             let recip = if n == self.scale.samples() {
                 self.scale.recip()
             } else {
@@ -325,6 +328,10 @@ impl<const N: usize, const H: usize> Frontend<N, H> {
             };
             self.scale = CycleScale::new(n, recip, step);
             self.scale_step = step;
+        } else if n != self.scale.samples() {
+            // Another length at the same step (a drifting mains): the
+            // corrections stand.
+            self.scale = self.scale.with_samples(n, reciprocal(n));
         }
         let scale = &self.scale;
         let stages = self.demod.iter_mut().zip(self.impulse.iter_mut());

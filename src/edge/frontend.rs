@@ -117,9 +117,13 @@ impl<const N: usize> EdgeFrontend<N> {
         let win_end = u64::from(period >> 8);
         let mut f = Self {
             mask: edge.timer.mask(),
-            last_count: 0,
+            // Any value (the first call sets both), so long as they are
+            // equal; not zero, which with the zeros around them would have
+            // the compiler clear the front end with `memclr` (about 200
+            // bytes more of flash on the M0).
+            last_count: u32::MAX,
             room: 0,
-            sync_count: 0,
+            sync_count: u32::MAX,
             limit: 0,
             now_lo: 0,
             win_end_lo: win_end as u32,
