@@ -125,6 +125,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
             .iter_mut()
             .zip(cycle.fund.iter().zip(cycle.harm.iter()));
         let mut chn = 0usize;
+        let bt = &self.baseline_t;
         let noise: [(u32, u32); N] = core::array::from_fn(|_| {
             let Some((c, (f, h))) = inputs.next() else {
                 return (0, 0);
@@ -137,7 +138,14 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     .mem
                     .get_mut(ch * words..(ch + 1) * words)
                     .unwrap_or(&mut []);
-                let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t);
+                // The ambient step rule, on a channel that decides.
+                let step = (c.baseline.settled(bt)
+                    && !c.faults.present().intersects(SIGNAL_FAULTS))
+                .then(|| window::StepRule {
+                    floor: p.t.step_floor(c.baseline.noise_q8(), cycle.samples),
+                    idle: !c.decision.active(),
+                });
+                let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t, step);
                 return amplitude::with_window(&mut c.avg_h, &mut c.amp_q8, out, h, k);
             }
             amplitude::update(&mut c.avg, &mut c.avg_h, &mut c.amp_q8, (f, h), k, gain)
