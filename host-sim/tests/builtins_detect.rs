@@ -158,10 +158,12 @@ fn a_field_is_released_after_an_ambient_step_and_a_lamp_alone_reports_nothing() 
     // lamp, switched off at the cord; one without it. Every interval found
     // once, no false event (the lamp alone reports nothing), and each
     // field released within 2 s of the interval's end: the window's 0.5 s,
-    // the 10-cycle off debounce, and the tail of a withdrawal whose
-    // coupling falls from the labels' 3x of the room's ambient to the off
-    // threshold's 1.25x of the ambient under the lamp (a 6 s withdrawal
-    // takes about 1.5 s for it). The bar is the project's for this case.
+    // the 10-cycle off debounce, and the tail of a withdrawal between the
+    // labels' edge (the cord's coupling 3x the room's ambient) and the off
+    // threshold (1.25x the ambient estimate, which carries what it learnt
+    // of the slow approach before the field was reported). The bar is the
+    // project's for this case; `humsim replay` of the rendered scenario
+    // prints the latencies.
     let score = score_builtin("field-lamp-step", LabelKind::Field, &|_| {})
         .unwrap()
         .unwrap();
