@@ -142,7 +142,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                 let step = (c.baseline.settled(bt)
                     && !c.faults.present().intersects(SIGNAL_FAULTS))
                 .then(|| window::StepRule {
-                    floor: p.t.step_floor(c.baseline.noise_q8(), cycle.samples),
+                    noise_q8: c.baseline.noise_q8(),
                     idle: !c.decision.active(),
                 });
                 let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t, step);

@@ -353,9 +353,9 @@ pub(crate) struct WindowOut {
 /// the ambient step rule (see [`push`]).
 #[derive(Clone, Copy)]
 pub(crate) struct StepRule {
-    /// The least `|i| + |q|` of a step, storage units
+    /// The window noise (Q8 codes) the step's floor is set from
     /// ([`WindowTuning::step_floor`]).
-    pub floor: u32,
+    pub noise_q8: u32,
     /// Whether the channel is idle (a step then moves the whole window).
     pub idle: bool,
 }
@@ -424,21 +424,22 @@ pub(crate) fn push(
     }
     let (di, dq) = (zi32 - pi, zq32 - pq);
     if let Some(rule) = step {
-        // The changes ending one, two and three cycles before this one.
-        let change = |k: usize| -> (i32, i32) {
-            let (ai, aq) = ring.get(at(k)).map_or((0, 0), |&v| unpack(v));
-            let (bi, bq) = ring.get(at(k + 1)).map_or((0, 0), |&v| unpack(v));
-            (ai - bi, aq - bq)
-        };
-        let (d1, d2, d3) = (change(1), change(2), change(3));
+        // The cycles three and four before this one (`pi, pq` the one
+        // before): the change over the two cycles before the last, less
+        // the trend on either side (the changes just after and just
+        // before them).
+        let read = |k: usize| ring.get(at(k)).map_or((0, 0), |&v| unpack(v));
+        let (z3, z4) = (read(3), read(4));
+        let d3 = (z3.0 - z4.0, z3.1 - z4.1);
+        let e = (pi - z3.0 - di - d3.0, pq - z3.1 - dq - d3.1);
         let l1 = |(i, q): (i32, i32)| i.unsigned_abs().saturating_add(q.unsigned_abs());
-        // The two cycles before the last, less the trend on either side.
-        let trend2 = (di + d3.0, dq + d3.1);
-        let e = (d1.0 + d2.0 - trend2.0, d1.1 + d2.1 - trend2.1);
         let size = l1(e);
-        let steady = l1((di - d3.0, dq - d3.1)) <= size >> 2;
-        if steady && size > rule.floor && size > l1((zi32, zq32)) >> STEP_LEVEL_SHIFT {
-            take_step(ring, sum, head, w, e, trend2, rule.idle);
+        // Cheapest first: most cycles fail the level test.
+        if size > l1((zi32, zq32)) >> STEP_LEVEL_SHIFT
+            && l1((di - d3.0, dq - d3.1)) <= size >> 2
+            && size > t.step_floor(rule.noise_q8, samples)
+        {
+            take_step(ring, sum, head, w, e, (di + d3.0, dq + d3.1), rule.idle);
             if let [i, q, ..] = ambient {
                 let add =
                     |a: u32, d: i32| (a as i32).saturating_add(d.saturating_mul(1 << 8)) as u32;
@@ -464,6 +465,7 @@ pub(crate) fn push(
 /// appliance), so the loops over the slots cost nothing in the steady
 /// state.
 #[cold]
+#[inline(never)]
 fn take_step(
     ring: &mut [u32],
     sum: &mut Iq,
