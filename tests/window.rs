@@ -173,3 +173,54 @@ fn an_ambient_step_is_not_a_field_and_a_field_under_it_is_released() {
     assert_eq!(offs.len(), 1, "{ev:?}");
     assert!((26.0..31.5).contains(&offs[0]), "{ev:?}");
 }
+
+#[test]
+fn a_lamp_step_on_a_field_panel_is_taken_once() {
+    // Four field channels, one lamp raising every channel's hum 2.5x
+    // within a cycle (at 5.013 s, off at 22.007 s), a field of 150 codes
+    // approached on channel 1 under the lamp (from 9 s) and again after it
+    // (from 26 s). The step rule restarts each idle channel's amplitude
+    // baseline at the step, so the panel's ambient rule, which compares
+    // amplitudes with those baselines, does not rescale the ambient a
+    // second time (which would hide the field under the lamp, and turned a
+    // channel on when the lamp went off): exactly one field-on and one
+    // field-off per approach, on channel 1 only.
+    let lamp = |t: f64| {
+        if (5.013..22.007).contains(&t) {
+            2.5
+        } else {
+            1.0
+        }
+    };
+    let x = support::render_panel(4, RATE, 38.0, 9, |ch, t| {
+        let field = if ch == 1 {
+            approach(t, 9.0, 150.0) + approach(t, 26.0, 150.0)
+        } else {
+            0.0
+        };
+        30.0 * lamp(t) + field
+    });
+    let cfg = Config::field().with_mains(MainsMode::Hz50);
+    let mut det: FieldDetector<4, 0> = FieldDetector::new(cfg).unwrap();
+    let mut ev = Vec::new();
+    det.push_block(&x, |e| ev.push((e.sample as f64 / RATE, e.channel, e.kind)));
+    let onoff: Vec<_> = ev
+        .iter()
+        .filter(|(_, _, k)| matches!(k, EventKind::FieldOn | EventKind::FieldOff))
+        .collect();
+    assert_eq!(onoff.len(), 4, "{ev:?}");
+    assert!(onoff.iter().all(|&&(_, ch, _)| ch == 1), "{ev:?}");
+    let kinds: Vec<EventKind> = onoff.iter().map(|&&(_, _, k)| k).collect();
+    assert_eq!(
+        kinds,
+        [
+            EventKind::FieldOn,
+            EventKind::FieldOff,
+            EventKind::FieldOn,
+            EventKind::FieldOff
+        ],
+        "{ev:?}"
+    );
+    assert!((9.0..13.0).contains(&onoff[0].0), "{ev:?}");
+    assert!((26.0..30.0).contains(&onoff[2].0), "{ev:?}");
+}

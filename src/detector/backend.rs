@@ -146,7 +146,12 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     idle: !c.decision.active(),
                 });
                 let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t, step);
-                return amplitude::with_window(&mut c.avg_h, &mut c.amp_q8, out, h, k);
+                let idle_step = out.idle_step;
+                let r = amplitude::with_window(&mut c.avg_h, &mut c.amp_q8, out, h, k);
+                if idle_step {
+                    c.baseline.relearn(c.amp_q8);
+                }
+                return r;
             }
             amplitude::update(&mut c.avg, &mut c.avg_h, &mut c.amp_q8, (f, h), k, gain)
         });

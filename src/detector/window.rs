@@ -347,6 +347,9 @@ pub(crate) struct WindowOut {
     pub amp_q8: u32,
     /// The noise sample (the window's σ when averaged), Q8 codes.
     pub noise_q8: u32,
+    /// Whether an ambient step was taken on an idle channel (its
+    /// amplitude baseline then restarts at `amp_q8`).
+    pub idle_step: bool,
 }
 
 /// What the back end knows of a channel before its cycle is pushed, for
@@ -382,7 +385,10 @@ pub(crate) struct StepRule {
 /// is still measured from the ambient under it and is released once the
 /// conductor is withdrawn with the appliance still on; on an idle channel
 /// it moves the cycles already in the window too, so the window's mean
-/// takes the new level at once and the step reports nothing. The price: a
+/// takes the new level at once and the step reports nothing, and the
+/// amplitude baseline restarts there (so the panel's ambient rule, which
+/// compares amplitudes with those baselines, does not take the same step
+/// a second time). The price: a
 /// field that appears within a cycle or two (a cable near the electrode
 /// switched on, a finger on the electrode) is taken as ambient; one
 /// approached, or present when the detector starts, is reported. A step of
@@ -423,6 +429,7 @@ pub(crate) fn push(
         *slot = pack(zi, zq);
     }
     let (di, dq) = (zi32 - pi, zq32 - pq);
+    let mut idle_step = false;
     if let Some(rule) = step {
         // The cycles three and four before this one (`pi, pq` the one
         // before): the change over the two cycles before the last, less
@@ -440,6 +447,7 @@ pub(crate) fn push(
             && size > t.step_floor(rule.noise_q8, samples)
         {
             take_step(ring, sum, head, w, e, (di + d3.0, dq + d3.1), rule.idle);
+            idle_step = rule.idle;
             if let [i, q, ..] = ambient {
                 let add =
                     |a: u32, d: i32| (a as i32).saturating_add(d.saturating_mul(1 << 8)) as u32;
@@ -453,7 +461,11 @@ pub(crate) fn push(
     let mean = |v: u64| ((v * u64::from(s.mean_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
     let amp_q8 = mean(u64::from(magnitude(sum)));
     let noise_q8 = ((u64::from(l1) * u64::from(s.noise_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
-    WindowOut { amp_q8, noise_q8 }
+    WindowOut {
+        amp_q8,
+        noise_q8,
+        idle_step,
+    }
 }
 
 /// Takes an ambient step `e` (storage units, over the two cycles before
