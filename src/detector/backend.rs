@@ -232,15 +232,18 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     Some(p) if Win::MEMORY => {
                         let words = p.words;
                         let ch = usize::from(channel);
-                        let amb = p
-                            .mem
-                            .get(ch * words..(ch + 1) * words)
-                            .map_or(0, |m| window::ambient_q8(m, p.t));
+                        let m = p.mem.get(ch * words..(ch + 1) * words).unwrap_or(&[]);
+                        let amb = window::ambient_q8(m, p.t);
                         let (on, off) = p.t.thresholds(n, amb, cycle.samples);
                         let th = WindowThresholds {
                             on_q8: on,
                             off_q8: off,
                             level_base_q8: p.t.level_base(on),
+                        };
+                        // Not in a cycle that may begin an ambient step.
+                        let may_on = move || {
+                            let mut others = may_on;
+                            !window::step_may_begin(m, head, n, cycle.samples, p.t) && others()
                         };
                         c.decision
                             .step_with(amp, b, n, evidence, th, may_on, &self.decision_t)

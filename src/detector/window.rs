@@ -391,9 +391,10 @@ pub(crate) struct StepRule {
 /// a second time). The price: a
 /// field that appears within a cycle or two (a cable near the electrode
 /// switched on, a finger on the electrode) is taken as ambient; one
-/// approached, or present when the detector starts, is reported. A step of
-/// more than about six times the ambient can still turn an idle channel on
-/// in the cycle before it is recognised.
+/// approached, or present when the detector starts, is reported. So that
+/// a large step does not turn an idle channel on in the cycle before it is
+/// recognised, an idle channel does not turn on in a cycle whose change
+/// may begin one ([`step_may_begin`]).
 #[inline]
 #[allow(clippy::too_many_arguments)]
 pub(crate) fn push(
@@ -466,6 +467,35 @@ pub(crate) fn push(
         noise_q8,
         idle_step,
     }
+}
+
+/// Whether the cycle just pushed (slot `head`) may begin an ambient step
+/// (see [`push`]): its change departs from the one before, or the last two
+/// changes from twice the one before them, by at least
+/// [`WindowTuning::step_floor`] for window noise `n` and 1/8 of its level.
+/// Asked only when an idle channel would turn on (rarely), so it costs
+/// nothing in the steady state; the step itself is known a cycle later.
+pub(crate) fn step_may_begin(
+    mem: &[u32],
+    head: usize,
+    n: u32,
+    samples: u32,
+    t: &WindowTuning,
+) -> bool {
+    let slots = mem.len().saturating_sub(AMBIENT_WORDS);
+    let ring = mem.get(..slots).unwrap_or(&[]);
+    let read = |k: usize| {
+        let i = if k > head { head + slots - k } else { head - k };
+        ring.get(i).map_or((0, 0), |&v| unpack(v))
+    };
+    let (z0, z1, z2, z3) = (read(0), read(1), read(2), read(3));
+    let d0 = (z0.0 - z1.0, z0.1 - z1.1);
+    let d1 = (z1.0 - z2.0, z1.1 - z2.1);
+    let d2 = (z2.0 - z3.0, z2.1 - z3.1);
+    let l1 = |(i, q): (i32, i32)| i.unsigned_abs().saturating_add(q.unsigned_abs());
+    let departs =
+        l1((d0.0 - d1.0, d0.1 - d1.1)).max(l1((d0.0 + d1.0 - 2 * d2.0, d0.1 + d1.1 - 2 * d2.1)));
+    departs > l1(z0) >> STEP_LEVEL_SHIFT && departs > t.step_floor(n, samples)
 }
 
 /// Takes an ambient step `e` (storage units, over the two cycles before
