@@ -95,3 +95,132 @@ fn a_field_of_a_few_noise_units_is_reported_within_the_window() {
         assert!(at.is_some(), "trial {trial}: no field-on within 0.5 s");
     }
 }
+
+/// Every event of a `FieldDetector` run at 50 Hz, with its time in seconds.
+fn field_run(samples: &[u16]) -> Vec<(f64, EventKind)> {
+    let cfg = Config::field().with_mains(MainsMode::Hz50);
+    let mut det: FieldDetector = FieldDetector::new(cfg).unwrap();
+    let mut out = Vec::new();
+    for &x in samples {
+        if let Some(e) = det.push(x) {
+            out.push((e.sample as f64 / RATE, e.kind));
+        }
+    }
+    out
+}
+
+/// A field's coupled hum approached and withdrawn by hand: 0 before `a`,
+/// rising as the square of the time to `peak` codes at `a + 4 s` (the
+/// coupling grows as the distance shrinks), held 2 s, and back to 0 over
+/// 4 s.
+fn approach(t: f64, a: f64, peak: f64) -> f64 {
+    let s = if t < a {
+        0.0
+    } else if t < a + 4.0 {
+        (t - a) / 4.0
+    } else if t < a + 6.0 {
+        1.0
+    } else if t < a + 10.0 {
+        (a + 10.0 - t) / 4.0
+    } else {
+        0.0
+    };
+    peak * s * s
+}
+
+#[test]
+fn an_ambient_step_is_not_a_field_and_a_field_under_it_is_released() {
+    // Ambient 30 codes; a lamp adds 45 in phase (2.5x) within one sample,
+    // at 6.013 s (inside a cycle: the step splits over two), and goes off
+    // at 14.007 s; a field of 150 codes approached from 20 s, the lamp
+    // switched on at 23.013 s while the field is reported, the field
+    // withdrawn by 30 s with the lamp still on, the lamp off at 40.007 s.
+    // Expected: no event from the lamp alone; one field-on during the
+    // approach, its field-off within 1.5 s of the withdrawal's end (the
+    // 0.5 s window and the off debounce, with the threshold measured from
+    // the ambient under the lamp), nothing after. Before the ambient step
+    // rule the lamp alone turned the field on (and held it on while the
+    // lamp stayed on), and the field under it was released only when the
+    // lamp went off.
+    let mut sig = support::Signal::mid_rail(RATE, 50.0);
+    sig.noise = 4.0;
+    let lamp = |t: f64| {
+        if (6.013..14.007).contains(&t) || (23.013..40.007).contains(&t) {
+            45.0
+        } else {
+            0.0
+        }
+    };
+    let x = sig.render(
+        46.0,
+        7,
+        |t| 30.0 + lamp(t) + approach(t, 20.0, 150.0),
+        |_| 50.0,
+    );
+    let ev = field_run(&x);
+    let ons: Vec<f64> = ev
+        .iter()
+        .filter(|(_, k)| *k == EventKind::FieldOn)
+        .map(|&(t, _)| t)
+        .collect();
+    let offs: Vec<f64> = ev
+        .iter()
+        .filter(|(_, k)| *k == EventKind::FieldOff)
+        .map(|&(t, _)| t)
+        .collect();
+    assert_eq!(ons.len(), 1, "{ev:?}");
+    assert!((20.0..24.0).contains(&ons[0]), "{ev:?}");
+    assert_eq!(offs.len(), 1, "{ev:?}");
+    assert!((26.0..31.5).contains(&offs[0]), "{ev:?}");
+}
+
+#[test]
+fn a_lamp_step_on_a_field_panel_is_taken_once() {
+    // Four field channels, one lamp raising every channel's hum 2.5x
+    // within a cycle (at 5.013 s, off at 22.007 s), a field of 150 codes
+    // approached on channel 1 under the lamp (from 9 s) and again after it
+    // (from 26 s). The step rule restarts each idle channel's amplitude
+    // baseline at the step, so the panel's ambient rule, which compares
+    // amplitudes with those baselines, does not rescale the ambient a
+    // second time (which would hide the field under the lamp, and turned a
+    // channel on when the lamp went off): exactly one field-on and one
+    // field-off per approach, on channel 1 only.
+    let lamp = |t: f64| {
+        if (5.013..22.007).contains(&t) {
+            2.5
+        } else {
+            1.0
+        }
+    };
+    let x = support::render_panel(4, RATE, 38.0, 9, |ch, t| {
+        let field = if ch == 1 {
+            approach(t, 9.0, 150.0) + approach(t, 26.0, 150.0)
+        } else {
+            0.0
+        };
+        30.0 * lamp(t) + field
+    });
+    let cfg = Config::field().with_mains(MainsMode::Hz50);
+    let mut det: FieldDetector<4, 0> = FieldDetector::new(cfg).unwrap();
+    let mut ev = Vec::new();
+    det.push_block(&x, |e| ev.push((e.sample as f64 / RATE, e.channel, e.kind)));
+    let onoff: Vec<_> = ev
+        .iter()
+        .filter(|(_, _, k)| matches!(k, EventKind::FieldOn | EventKind::FieldOff))
+        .collect();
+    assert_eq!(onoff.len(), 4, "{ev:?}");
+    assert!(onoff.iter().all(|&&(_, ch, _)| ch == 1), "{ev:?}");
+    let kinds: Vec<EventKind> = onoff.iter().map(|&&(_, _, k)| k).collect();
+    assert_eq!(
+        kinds,
+        [
+            EventKind::FieldOn,
+            EventKind::FieldOff,
+            EventKind::FieldOn,
+            EventKind::FieldOff
+        ],
+        "{ev:?}"
+    );
+    assert!((9.0..13.0).contains(&onoff[0].0), "{ev:?}");
+    assert!((26.0..30.0).contains(&onoff[2].0), "{ev:?}");
+}

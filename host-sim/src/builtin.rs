@@ -60,6 +60,10 @@ pub const BUILTINS: &[(&str, &str)] = &[
     ),
     ("dock-touch", include_str!("../scenarios/dock-touch.toml")),
     (
+        "field-lamp-step",
+        include_str!("../scenarios/field-lamp-step.toml"),
+    ),
+    (
         "comparator-ambient",
         include_str!("../scenarios/comparator-ambient.toml"),
     ),

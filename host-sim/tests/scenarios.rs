@@ -314,6 +314,7 @@ fn labels_are_sane() {
         match name {
             "wall-scan" => assert_eq!(n_field, 2, "two passes: {labels:?}"),
             "mains-events" => assert_eq!(n_field, 1, "{labels:?}"),
+            "field-lamp-step" => assert_eq!(n_field, 3, "three approaches: {labels:?}"),
             _ => assert_eq!(n_field, 0, "{name}"),
         }
     }

@@ -125,6 +125,7 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
             .iter_mut()
             .zip(cycle.fund.iter().zip(cycle.harm.iter()));
         let mut chn = 0usize;
+        let bt = &self.baseline_t;
         let noise: [(u32, u32); N] = core::array::from_fn(|_| {
             let Some((c, (f, h))) = inputs.next() else {
                 return (0, 0);
@@ -137,8 +138,20 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     .mem
                     .get_mut(ch * words..(ch + 1) * words)
                     .unwrap_or(&mut []);
-                let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t);
-                return amplitude::with_window(&mut c.avg_h, &mut c.amp_q8, out, h, k);
+                // The ambient step rule, on a channel that decides.
+                let step = (c.baseline.settled(bt)
+                    && !c.faults.present().intersects(SIGNAL_FAULTS))
+                .then(|| window::StepRule {
+                    noise_q8: c.baseline.noise_q8(),
+                    idle: !c.decision.active(),
+                });
+                let out = window::push(m, &mut c.avg, f, head, wlen, cycle.samples, p.t, step);
+                let idle_step = out.idle_step;
+                let r = amplitude::with_window(&mut c.avg_h, &mut c.amp_q8, out, h, k);
+                if idle_step {
+                    c.baseline.relearn(c.amp_q8);
+                }
+                return r;
             }
             amplitude::update(&mut c.avg, &mut c.avg_h, &mut c.amp_q8, (f, h), k, gain)
         });
@@ -219,15 +232,18 @@ impl<const N: usize, const H: usize, Win: WindowStage> Backend<N, H, Win> {
                     Some(p) if Win::MEMORY => {
                         let words = p.words;
                         let ch = usize::from(channel);
-                        let amb = p
-                            .mem
-                            .get(ch * words..(ch + 1) * words)
-                            .map_or(0, |m| window::ambient_q8(m, p.t));
+                        let m = p.mem.get(ch * words..(ch + 1) * words).unwrap_or(&[]);
+                        let amb = window::ambient_q8(m, p.t);
                         let (on, off) = p.t.thresholds(n, amb, cycle.samples);
                         let th = WindowThresholds {
                             on_q8: on,
                             off_q8: off,
                             level_base_q8: p.t.level_base(on),
+                        };
+                        // Not in a cycle that may begin an ambient step.
+                        let may_on = move || {
+                            let mut others = may_on;
+                            !window::step_may_begin(m, head, n, cycle.samples, p.t) && others()
                         };
                         c.decision
                             .step_with(amp, b, n, evidence, th, may_on, &self.decision_t)

@@ -86,10 +86,12 @@ pub struct Detector<const N: usize = 1, const H: usize = 0, Win: WindowStage = N
 /// ```
 /// use humsense::{Config, EventKind, FieldDetector, MainsMode};
 /// let mut det: FieldDetector = FieldDetector::new(Config::field().with_mains(MainsMode::Hz50)).unwrap();
-/// // A 50 Hz field of 60 codes appears after 5 s (2 kHz, 12 bits).
+/// // A 50 Hz field approached from 5 s on, 60 codes after a quarter of a
+/// // second (2 kHz, 12 bits). (One that appears within a mains cycle or
+/// // two is taken as an ambient step: a lamp switched on nearby.)
 /// let mut on = None;
 /// for n in 0..12_000u32 {
-///     let amp = if n >= 10_000 { 60.0 } else { 0.0 };
+///     let amp = 60.0 * ((n as f32 - 10_000.0) / 500.0).clamp(0.0, 1.0);
 ///     let x = 2048.0 + amp * (core::f32::consts::TAU * n as f32 / 40.0).sin()
 ///         + 3.0 * (n as f32 * 1.7).sin(); // a little of something else
 ///     if let Some(e) = det.push(x as u16) {

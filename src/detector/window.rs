@@ -59,6 +59,19 @@ const TRACK_FLOOR_NOISE: f32 = 6.0;
 /// The ambient estimate's averaging shift (cycles: 256, about 5 s).
 const AMBIENT_SHIFT: u32 = 8;
 
+/// An ambient step must exceed this many tracker floors (six per-cycle
+/// noise units each: 36 in all, see [`WindowTuning::step_floor`]).
+const STEP_FLOORS: u32 = 6;
+
+/// An ambient step must exceed `2^-STEP_LEVEL_SHIFT` of the cycle's own
+/// level (`|i| + |q|`): 1/8. Measured departures from the trend (see
+/// [`push`]) of the built-in approaches, as a share of the level: at most
+/// 0.063 on `wall-scan` (0.022 where the trends either side agree, as a
+/// step's must), 0.099 on `mains-events`' plug where they agree (0.80 at
+/// the abrupt start of its withdrawal, where they do not); the lamp of
+/// `field-lamp-step` departs by 0.225.
+const STEP_LEVEL_SHIFT: u32 = 3;
+
 /// Cycles a window of `ms` spans at `hz` (rounded, at least 1).
 const fn cycles(ms: u16, hz: u32) -> u32 {
     let c = div_rem_u32(ms as u32 * hz + 500, 1_000).0;
@@ -283,6 +296,17 @@ impl WindowTuning {
         mul_q8(n, self.system(samples).floor_q8)
     }
 
+    /// The least `|i| + |q|` (storage units) of an ambient step for window
+    /// noise `n` (Q8 codes): [`STEP_FLOORS`] tracker floors, 36 per-cycle
+    /// noise units. Under noise alone the departure `e` (see [`push`]) is
+    /// `2z₋₁ − 2z₋₃ − z₀ + z₋₄` of independent cycles, Gaussian with
+    /// `10σ_z²` a component; `|i| + |q| ≤ √2·|e|`, so it exceeds `36σ_z`
+    /// with probability below `exp(−(36/√2)²/20)`, 8e-15 a cycle
+    /// (Rayleigh).
+    pub(crate) fn step_floor(&self, n: u32, samples: u32) -> u32 {
+        self.tracking_floor(n, samples).saturating_mul(STEP_FLOORS) >> self.shift
+    }
+
     /// Cycles in the window for a cycle of `samples` samples.
     pub(crate) fn cycles(&self, samples: u32) -> usize {
         usize::from(self.system(samples).w)
@@ -326,12 +350,56 @@ pub(crate) struct WindowOut {
     pub amp_q8: u32,
     /// The noise sample (the window's σ when averaged), Q8 codes.
     pub noise_q8: u32,
+    /// Whether an ambient step was taken on an idle channel (its
+    /// amplitude baseline then restarts at `amp_q8`).
+    pub idle_step: bool,
+}
+
+/// What the back end knows of a channel before its cycle is pushed, for
+/// the ambient step rule (see [`push`]).
+#[derive(Clone, Copy)]
+pub(crate) struct StepRule {
+    /// The window noise (Q8 codes) the step's floor is set from
+    /// ([`WindowTuning::step_floor`]).
+    pub noise_q8: u32,
+    /// Whether the channel is idle (a step then moves the whole window).
+    pub idle: bool,
 }
 
 /// Takes cycle `f` into a channel's window: `mem` its window memory,
 /// `sum` the running sum (in storage units), `head` the slot this cycle
 /// writes, `w` the cycles in the window (at most the slots).
+///
+/// **Ambient steps** (`step`: a settled channel without a fault). A lamp,
+/// a charger or any appliance switched on or off near the electrode adds
+/// or removes its hum within one mains cycle (two, when the switching
+/// falls inside a cycle), and the hum is steady before and after; a
+/// conductor approached by hand changes the coupling over many cycles, and
+/// smoothly. By amplitude alone one channel cannot tell them apart (a
+/// lamp's cord is a live conductor); by their speed it can. One cycle
+/// late, the change over the two cycles before the last is compared with
+/// the trend on either side, the changes just before and just after them:
+/// a step is a departure `e` from the trend of at least
+/// [`WindowTuning::step_floor`] and 1/8 of the cycle's level (`|i| + |q|`,
+/// see `STEP_LEVEL_SHIFT`), with the trends on its two sides within a
+/// quarter of it of each other (an accelerating approach, a one-cycle
+/// outlier are not steps). It moves the ambient estimate by `e` (complex:
+/// the appliance's hum adds to the rest), so a field present at the step
+/// is still measured from the ambient under it and is released once the
+/// conductor is withdrawn with the appliance still on; on an idle channel
+/// it moves the cycles already in the window too, so the window's mean
+/// takes the new level at once and the step reports nothing, and the
+/// amplitude baseline restarts there (so the panel's ambient rule, which
+/// compares amplitudes with those baselines, does not take the same step
+/// a second time). The price: a
+/// field that appears within a cycle or two (a cable near the electrode
+/// switched on, a finger on the electrode) is taken as ambient; one
+/// approached, or present when the detector starts, is reported. So that
+/// a large step does not turn an idle channel on in the cycle before it is
+/// recognised, an idle channel does not turn on in a cycle whose change
+/// may begin one ([`step_may_begin`]).
 #[inline]
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn push(
     mem: &mut [u32],
     sum: &mut Iq,
@@ -340,9 +408,10 @@ pub(crate) fn push(
     w: usize,
     samples: u32,
     t: &WindowTuning,
+    step: Option<StepRule>,
 ) -> WindowOut {
     let slots = mem.len().saturating_sub(AMBIENT_WORDS);
-    let (ring, _) = mem.split_at_mut(slots);
+    let (ring, ambient) = mem.split_at_mut(slots);
     let zi = store(f.i, t.shift);
     let zq = store(f.q, t.shift);
     let (zi32, zq32) = (i32::from(zi), i32::from(zq));
@@ -363,12 +432,116 @@ pub(crate) fn push(
     if let Some(slot) = ring.get_mut(head) {
         *slot = pack(zi, zq);
     }
-    let l1 = zi32.abs_diff(pi).saturating_add(zq32.abs_diff(pq));
+    let (di, dq) = (zi32 - pi, zq32 - pq);
+    let mut idle_step = false;
+    if let Some(rule) = step {
+        // The cycles three and four before this one (`pi, pq` the one
+        // before): the change over the two cycles before the last, less
+        // the trend on either side (the changes just after and just
+        // before them).
+        let read = |k: usize| ring.get(at(k)).map_or((0, 0), |&v| unpack(v));
+        let (z3, z4) = (read(3), read(4));
+        let d3 = (z3.0 - z4.0, z3.1 - z4.1);
+        let e = (pi - z3.0 - di - d3.0, pq - z3.1 - dq - d3.1);
+        let l1 = |(i, q): (i32, i32)| i.unsigned_abs().saturating_add(q.unsigned_abs());
+        let size = l1(e);
+        // Cheapest first: most cycles fail the level test.
+        if size > l1((zi32, zq32)) >> STEP_LEVEL_SHIFT
+            && l1((di - d3.0, dq - d3.1)) <= size >> 2
+            && size > t.step_floor(rule.noise_q8, samples)
+        {
+            take_step(ring, sum, head, w, e, (di + d3.0, dq + d3.1), rule.idle);
+            idle_step = rule.idle;
+            if let [i, q, ..] = ambient {
+                let add =
+                    |a: u32, d: i32| (a as i32).saturating_add(d.saturating_mul(1 << 8)) as u32;
+                *i = add(*i, e.0);
+                *q = add(*q, e.1);
+            }
+        }
+    }
+    let l1 = di.unsigned_abs().saturating_add(dq.unsigned_abs());
     let s = t.system(samples);
     let mean = |v: u64| ((v * u64::from(s.mean_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
     let amp_q8 = mean(u64::from(magnitude(sum)));
     let noise_q8 = ((u64::from(l1) * u64::from(s.noise_q16)) >> 16).min(u64::from(u32::MAX)) as u32;
-    WindowOut { amp_q8, noise_q8 }
+    WindowOut {
+        amp_q8,
+        noise_q8,
+        idle_step,
+    }
+}
+
+/// Whether the cycle just pushed (slot `head`) may begin an ambient step
+/// (see [`push`]): its change departs from the one before, or the last two
+/// changes from twice the one before them, by at least
+/// [`WindowTuning::step_floor`] for window noise `n` and 1/8 of its level.
+/// Asked only when an idle channel would turn on (rarely), so it costs
+/// nothing in the steady state; the step itself is known a cycle later.
+pub(crate) fn step_may_begin(
+    mem: &[u32],
+    head: usize,
+    n: u32,
+    samples: u32,
+    t: &WindowTuning,
+) -> bool {
+    let slots = mem.len().saturating_sub(AMBIENT_WORDS);
+    let ring = mem.get(..slots).unwrap_or(&[]);
+    let read = |k: usize| {
+        let i = if k > head { head + slots - k } else { head - k };
+        ring.get(i).map_or((0, 0), |&v| unpack(v))
+    };
+    let (z0, z1, z2, z3) = (read(0), read(1), read(2), read(3));
+    let d0 = (z0.0 - z1.0, z0.1 - z1.1);
+    let d1 = (z1.0 - z2.0, z1.1 - z2.1);
+    let d2 = (z2.0 - z3.0, z2.1 - z3.1);
+    let l1 = |(i, q): (i32, i32)| i.unsigned_abs().saturating_add(q.unsigned_abs());
+    let departs =
+        l1((d0.0 - d1.0, d0.1 - d1.1)).max(l1((d0.0 + d1.0 - 2 * d2.0, d0.1 + d1.1 - 2 * d2.1)));
+    departs > l1(z0) >> STEP_LEVEL_SHIFT && departs > t.step_floor(n, samples)
+}
+
+/// Takes an ambient step `e` (storage units, over the two cycles before
+/// the last) into a channel's ring, `trend2` twice the trend around it:
+/// the cycle two before `head` is set one trend short of the cycle after
+/// it, so the step is not seen again; on an idle channel the cycles before
+/// that move by `e`, so the window's mean takes the new level at once. The
+/// sum is taken afresh over the `w` slots up to `head`. Rare (a switching
+/// appliance), so the loops over the slots cost nothing in the steady
+/// state.
+#[cold]
+#[inline(never)]
+fn take_step(
+    ring: &mut [u32],
+    sum: &mut Iq,
+    head: usize,
+    w: usize,
+    e: (i32, i32),
+    trend2: (i32, i32),
+    idle: bool,
+) {
+    let slots = ring.len();
+    // Slot `k` cycles before `head`.
+    let at = |k: usize| if k > head { head + slots - k } else { head - k };
+    let (ai, aq) = ring.get(at(1)).map_or((0, 0), |&v| unpack(v));
+    if let Some(slot) = ring.get_mut(at(2)) {
+        *slot = pack(store(ai - trend2.0 / 2, 0), store(aq - trend2.1 / 2, 0));
+    }
+    if idle {
+        for k in 3..slots {
+            if let Some(slot) = ring.get_mut(at(k)) {
+                let (i, q) = unpack(*slot);
+                *slot = pack(store(i + e.0, 0), store(q + e.1, 0));
+            }
+        }
+    }
+    let (mut si, mut sq) = (0i32, 0i32);
+    for k in 0..w.min(slots) {
+        let (i, q) = ring.get(at(k)).map_or((0, 0), |&v| unpack(v));
+        si = si.saturating_add(i);
+        sq = sq.saturating_add(q);
+    }
+    *sum = Iq { i: si, q: sq };
 }
 
 /// `|z|`, rounded down: the 32-bit root where the power fits 32 bits (the
