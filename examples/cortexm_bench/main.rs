@@ -99,18 +99,22 @@
 //!
 //! | stage | thumbv7em (M4F) | thumbv6m (M0) |
 //! |---|---|---|
-//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 11.6 | 27.4 |
-//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 236 /cycle = 5.9 | 476 /cycle = 11.9 |
-//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 247 /cycle = 6.2 | 525 /cycle = 13.1 |
-//! | **`Detector::push_block`** (`insn_per_sample`), mixed | **25.17** (budget 25: over) | **54.37** (budget 60) |
-//! | the same, touch held | 25.05 (budget 30) | 54.78 (budget 60) |
+//! | block loop: pairs, gate, sin/cos, two MACs, sum, phase, run setup (`block_sample_path`) | 11.7 | 27.5 |
+//! | front-end cycle end: scaling, DC, gate limit, mains tracker (on the frame path) | 233 /cycle = 5.8 | 481 /cycle = 12.0 |
+//! | `Backend::process`: amplitude, noise, faults, baseline, decision | 226 /cycle = 5.6 | 525 /cycle = 13.1 |
+//! | **`Detector::push_block`** (`insn_per_sample`), mixed | **24.62** (budget 25) | **54.51** (budget 60) |
+//! | the same, touch held | 24.49 (budget 30) | 54.91 (budget 60) |
 //!
 //! On the signal this benchmark used before (exactly 50 Hz, 1 code of
-//! noise, no harmonics, spikes or touches) the M4F counted 24.91: the
-//! spikes add 0.22 a sample and the drift 0.24 (measured by turning each
-//! off). The held touch cost 28.5 until the amplitude's root above 2^32
-//! (a touch's power, in Q8 codes squared) took Newton steps from the last
-//! amplitude like the root below it (`isqrt_u64_from`).
+//! noise, no harmonics, spikes or touches) the M4F counted 24.91; the mixed
+//! signal first gave 25.92 and the held touch 28.5. Three changes brought
+//! them down: the amplitude's root above 2^32 (a touch's power, in Q8 codes
+//! squared) by Newton steps from the last amplitude like the root below it
+//! (`isqrt_u64_from`: 25.17 and 25.05; the spikes then cost 0.22 a sample
+//! and the drift 0.24, measured by turning each off), the pair corrections
+//! kept across cycles of another length at the same phase step (a drifting
+//! mains), and an early return of the fault stage on the common cycle (the
+//! last two on the M4F only, for the M0's flash).
 //!
 //! - The M4 loop (disassembly) is 19 instructions a pair: two loads and an
 //!   add for the pair, the scaled DC subtracted, the gate's subtract,
@@ -136,8 +140,9 @@
 //!   the run setup they save); the square root stopped by `x² ≤ v` instead
 //!   of a confirming Newton step (no change).
 //! - From an execution trace (`.ci/profile`, see DEVELOPERS.md; per
-//!   cycle, mixed signal): the block path 550, of which the loop's common
-//!   path about 395 (20 a pair: 19 and the reloaded phase step), the gate's watermark raises about 18 (1.4 a cycle,
+//!   cycle, mixed signal, before the last two changes above): the block
+//!   path 550, of which the loop's common path about 395 (20 a pair: 19
+//!   and the reloaded phase step), the gate's watermark raises about 18 (1.4 a cycle,
 //!   13 extra instructions each: the step peak decays by a quarter a
 //!   cycle, so the watermark starts each cycle near the hum's largest
 //!   step; it climbed from 0 four times a cycle when the peak restarted
