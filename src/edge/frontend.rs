@@ -80,13 +80,26 @@ pub struct EdgeFrontend<const N: usize> {
     ch: [EdgeChannel; N],
 }
 
-/// The time of a queued count `count`: `now_lo` is the time of
-/// `sync_count`, and `last_count` the latest count, which `count` is no
-/// later than (by less than the timer's range).
-#[inline]
-const fn time_of(now_lo: u32, last_count: u32, sync_count: u32, mask: u32, count: u32) -> u32 {
-    let last_t = now_lo.wrapping_add(last_count.wrapping_sub(sync_count) & mask);
-    last_t.wrapping_sub(last_count.wrapping_sub(count) & mask)
+/// The clock as the queued counts need it: `now_lo` the time of
+/// `sync_count`, `last_count` the latest count, which every queued count
+/// is no later than (by less than the timer's range).
+#[derive(Clone, Copy)]
+struct QueueClock {
+    now_lo: u32,
+    last_count: u32,
+    sync_count: u32,
+    mask: u32,
+}
+
+impl QueueClock {
+    /// The time of queued count `count`.
+    #[inline]
+    const fn time_of(self, count: u32) -> u32 {
+        let last_t = self
+            .now_lo
+            .wrapping_add(self.last_count.wrapping_sub(self.sync_count) & self.mask);
+        last_t.wrapping_sub(self.last_count.wrapping_sub(count) & self.mask)
+    }
 }
 
 /// What a channel's window amounted to.
@@ -239,6 +252,16 @@ impl<const N: usize> EdgeFrontend<N> {
         self.push_edge_slow(ch, rising, count, on_cycle);
     }
 
+    /// The clock of the queued counts.
+    const fn queue_clock(&self) -> QueueClock {
+        QueueClock {
+            now_lo: self.now_lo,
+            last_count: self.last_count,
+            sync_count: self.sync_count,
+            mask: self.mask,
+        }
+    }
+
     /// Brings `now_lo` up to the time of `last_count` (what the common
     /// path of `push_edge` left behind).
     #[inline]
@@ -335,18 +358,13 @@ impl<const N: usize> EdgeFrontend<N> {
 
     /// Takes channel `ch`'s queued edges, in order.
     fn drain(&mut self, ch: usize) {
+        let clock = self.queue_clock();
         let (Some(q), Some(c)) = (self.queue.get_mut(ch), self.ch.get_mut(ch)) else {
             return;
         };
         for i in 0..q.len() {
             let (high, count) = q.get(i);
-            let t = time_of(
-                self.now_lo,
-                self.last_count,
-                self.sync_count,
-                self.mask,
-                count,
-            );
+            let t = clock.time_of(count);
             if let Some((sum, n)) = take(c, high != self.active_low, t, self.glitch, &self.accept) {
                 self.iv_sum = self.iv_sum.wrapping_add(sum);
                 self.iv_n = self.iv_n.wrapping_add(n);
@@ -554,17 +572,12 @@ impl<const N: usize> EdgeFrontend<N> {
     /// Counts of channel `ch`'s input, or `None` past the last channel.
     pub fn stats(&self, ch: usize) -> Option<EdgeStats> {
         let mut c = *self.ch.get(ch)?;
+        let clock = self.queue_clock();
         // The queued edges, taken on a copy.
         if let Some(q) = self.queue.get(ch) {
             for i in 0..q.len() {
                 let (high, count) = q.get(i);
-                let t = time_of(
-                    self.now_lo,
-                    self.last_count,
-                    self.sync_count,
-                    self.mask,
-                    count,
-                );
+                let t = clock.time_of(count);
                 let _ = take(
                     &mut c,
                     high != self.active_low,
