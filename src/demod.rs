@@ -490,6 +490,25 @@ mod tests {
     }
 
     #[test]
+    fn a_scale_remade_for_another_length_equals_a_new_one() {
+        // Self-consistency: the front end's short path for a drifting mains
+        // (`with_samples`, the corrections kept) against the whole series
+        // (`new`) at the same step, 40 ± 3 samples a cycle, 45 to 65 Hz.
+        for mhz in [45_000u32, 49_900, 50_000, 50_100, 60_000, 65_000] {
+            let step = phase_step(mhz, 2_000);
+            let base = CycleScale::<2>::new(40, reciprocal(40), step);
+            for n in 37..=43 {
+                let want = CycleScale::<2>::new(n, reciprocal(n), step);
+                assert_eq!(
+                    base.with_samples(n, reciprocal(n)),
+                    want,
+                    "{mhz} mHz, {n} samples"
+                );
+            }
+        }
+    }
+
+    #[test]
     fn a_steady_code_is_quiet_once_the_dc_estimate_reaches_it() {
         // A stuck input (common practice: a converter input that does not
         // move reads one code) gives exactly zero accumulators once the DC
