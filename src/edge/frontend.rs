@@ -80,14 +80,13 @@ pub struct EdgeFrontend<const N: usize> {
     ch: [EdgeChannel; N],
 }
 
-/// The clock as the queued counts need it: `now_lo` the time of
-/// `sync_count`, `last_count` the latest count, which every queued count
-/// is no later than (by less than the timer's range).
+/// The clock as the queued counts need it: `last_t` the time (low word)
+/// of `last_count`, the latest count, which every queued count is no later
+/// than (by less than the timer's range).
 #[derive(Clone, Copy)]
 struct QueueClock {
-    now_lo: u32,
+    last_t: u32,
     last_count: u32,
-    sync_count: u32,
     mask: u32,
 }
 
@@ -95,10 +94,8 @@ impl QueueClock {
     /// The time of queued count `count`.
     #[inline]
     const fn time_of(self, count: u32) -> u32 {
-        let last_t = self
-            .now_lo
-            .wrapping_add(self.last_count.wrapping_sub(self.sync_count) & self.mask);
-        last_t.wrapping_sub(self.last_count.wrapping_sub(count) & self.mask)
+        self.last_t
+            .wrapping_sub(self.last_count.wrapping_sub(count) & self.mask)
     }
 }
 
@@ -252,22 +249,27 @@ impl<const N: usize> EdgeFrontend<N> {
         self.push_edge_slow(ch, rising, count, on_cycle);
     }
 
+    /// The time (low word) of `last_count`: `now_lo` moved on by what the
+    /// common path of `push_edge` left behind.
+    #[inline]
+    const fn last_lo(&self) -> u32 {
+        self.now_lo
+            .wrapping_add(self.last_count.wrapping_sub(self.sync_count) & self.mask)
+    }
+
     /// The clock of the queued counts.
     const fn queue_clock(&self) -> QueueClock {
         QueueClock {
-            now_lo: self.now_lo,
+            last_t: self.last_lo(),
             last_count: self.last_count,
-            sync_count: self.sync_count,
             mask: self.mask,
         }
     }
 
-    /// Brings `now_lo` up to the time of `last_count` (what the common
-    /// path of `push_edge` left behind).
+    /// Brings `now_lo` up to the time of `last_count`.
     #[inline]
     fn sync(&mut self) {
-        let moved = self.last_count.wrapping_sub(self.sync_count) & self.mask;
-        self.now_lo = self.now_lo.wrapping_add(moved);
+        self.now_lo = self.last_lo();
         self.sync_count = self.last_count;
     }
 
@@ -280,7 +282,6 @@ impl<const N: usize> EdgeFrontend<N> {
         } else {
             left.min(self.limit)
         };
-        self.sync_count = self.last_count;
     }
 
     /// [`push_edge`](Self::push_edge) for everything but its common case:
@@ -602,9 +603,7 @@ impl<const N: usize> EdgeFrontend<N> {
 
     /// Ticks since the first call (to the latest count seen).
     pub const fn now(&self) -> u64 {
-        let lo = self
-            .now_lo
-            .wrapping_add(self.last_count.wrapping_sub(self.sync_count) & self.mask);
+        let lo = self.last_lo();
         let wrapped = (lo < self.lo_mark) as u64;
         (self.now_hi as u64 + wrapped) << 32 | lo as u64
     }
